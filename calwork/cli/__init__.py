@@ -1,0 +1,1 @@
+"""The ``calwork`` command line (see :mod:`calwork.cli.main`)."""

@@ -1,0 +1,195 @@
+"""Result records of the reduction chain (run → calibration/sample → reduction).
+
+These are shared by the bomb and solution chains, the lab book and the reports. JSON keys of
+``to_dict()`` are part of the command-line contract (see DEVELOPERS.md); fields that do not
+apply to a run's kind are ``None`` and are emitted as ``null``.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping
+from dataclasses import dataclass, field, fields
+from types import MappingProxyType
+from typing import Any
+
+from calwork.provenance import Provenance
+
+__all__ = ["CalibrationResult", "Reduction", "RunResult", "SampleResult", "jsonable"]
+
+
+def jsonable(value: Any) -> Any:
+    """Turn records, mappings, tuples, numpy scalars and non-finite floats into JSON values."""
+    if hasattr(value, "to_dict"):
+        return value.to_dict()
+    if isinstance(value, Mapping):
+        return {str(k): jsonable(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [jsonable(v) for v in value]
+    if hasattr(value, "tolist"):  # numpy arrays and scalars
+        return jsonable(value.tolist())
+    if isinstance(value, float) and not math.isfinite(value):
+        return None
+    return value
+
+
+def _freeze(obj: Any, *names: str) -> None:
+    for name in names:
+        object.__setattr__(obj, name, MappingProxyType(dict(getattr(obj, name))))
+
+
+@dataclass(frozen=True, kw_only=True)
+class RunResult:
+    """The reduced result of one run (any kind). Failed runs carry ``error`` and no numbers."""
+
+    run: str
+    kind: str
+    sample: str | None = None
+    calorimeter: str | None = None
+    corrected_rise_K: float | None = None
+    u_corrected_rise_K: float | None = None
+    #: Correction energies in J, positive when the process releases heat into the calorimeter
+    #: (ignition, fuse, cotton, aux, nitric acid...), each with the name of its constant.
+    corrections_J: Mapping[str, float] = field(default_factory=dict)
+    energy_equivalent_J_per_K: float | None = None
+    u_energy_equivalent_J_per_K: float | None = None
+    #: Massic energy of the bomb process, J/g (ΔU/m; negative for a combustion).
+    massic_energy_J_per_g: float | None = None
+    standard_massic_energy_J_per_g: float | None = None
+    washburn_J: float | None = None
+    heater_energy_J: float | None = None
+    reaction_heat_J: float | None = None
+    molar_enthalpy_kJ_per_mol: float | None = None
+    u_molar_enthalpy_kJ_per_mol: float | None = None
+    final_molality_mol_per_kg: float | None = None
+    dilution_ratio: float | None = None
+    reference_temperature_K: float | None = None
+    warnings: tuple[str, ...] = ()
+    error: str | None = None
+    #: The RiseResult (or results, for multi-event logs) behind the numbers.
+    rise: Any = None
+    #: Further numbers with units in their names (mass in vacuum, certificate factor, ...).
+    details: Mapping[str, Any] = field(default_factory=dict)
+    provenance: Provenance | None = None
+
+    def __post_init__(self) -> None:
+        _freeze(self, "corrections_J", "details")
+        object.__setattr__(self, "warnings", tuple(self.warnings))
+
+    def to_dict(self) -> dict[str, Any]:
+        """JSON-ready dictionary with the contract keys."""
+        out = {
+            f.name: jsonable(getattr(self, f.name))
+            for f in fields(self)
+            if f.name not in ("rise", "provenance")
+        }
+        out["provenance"] = None if self.provenance is None else self.provenance.to_dict()
+        return out
+
+
+@dataclass(frozen=True, kw_only=True)
+class CalibrationResult:
+    """Energy equivalent of one calorimeter from a calibration series."""
+
+    calorimeter: str
+    energy_equivalent_J_per_K: float
+    #: Standard uncertainty of the mean ε (standard deviation of the mean, combined with the
+    #: reference-material certificate where applicable), J/K.
+    u_energy_equivalent_J_per_K: float
+    n_runs: int
+    rsd_percent: float
+    std_dev_J_per_K: float
+    std_dev_of_mean_J_per_K: float
+    runs: tuple[str, ...]
+    values_J_per_K: tuple[float, ...] = ()
+    method: str = "reference-material"
+    #: Budget components of u(ε), J/K.
+    budget: Mapping[str, float] = field(default_factory=dict)
+    outlier_test: Mapping[str, Any] = field(default_factory=dict)
+    warnings: tuple[str, ...] = ()
+
+    def __post_init__(self) -> None:
+        _freeze(self, "budget", "outlier_test")
+        object.__setattr__(self, "runs", tuple(self.runs))
+        object.__setattr__(self, "values_J_per_K", tuple(self.values_J_per_K))
+        object.__setattr__(self, "warnings", tuple(self.warnings))
+
+    def to_dict(self) -> dict[str, Any]:
+        return {f.name: jsonable(getattr(self, f.name)) for f in fields(self)}
+
+
+@dataclass(frozen=True, kw_only=True)
+class SampleResult:
+    """A sample series: the mean over its runs and the derived molar quantities."""
+
+    sample: str
+    formula: str | None
+    n_runs: int
+    runs: tuple[str, ...]
+    kind: str = "combustion"
+    calorimeter: str | None = None
+    massic_energy_J_per_g: float | None = None
+    u_massic_energy_J_per_g: float | None = None
+    standard_massic_energy_J_per_g: float | None = None
+    u_standard_massic_energy_J_per_g: float | None = None
+    delta_c_U_kJ_per_mol: float | None = None
+    u_delta_c_U_kJ_per_mol: float | None = None
+    delta_c_H_kJ_per_mol: float | None = None
+    u_delta_c_H_kJ_per_mol: float | None = None
+    delta_f_H_kJ_per_mol: float | None = None
+    u_delta_f_H_kJ_per_mol: float | None = None
+    U_delta_f_H_kJ_per_mol: float | None = None
+    coverage_factor: float = 2.0
+    # solution series
+    molar_enthalpy_kJ_per_mol: float | None = None
+    u_molar_enthalpy_kJ_per_mol: float | None = None
+    final_molality_mol_per_kg: float | None = None
+    infinite_dilution_enthalpy_kJ_per_mol: float | None = None
+    u_infinite_dilution_enthalpy_kJ_per_mol: float | None = None
+    #: Uncertainty budget: component name -> contribution to u, in the unit of the quantity.
+    budget: Mapping[str, float] = field(default_factory=dict)
+    #: Fuel outputs (gross/net calorific values, positive, J/g) when asked for.
+    fuel: Mapping[str, float] = field(default_factory=dict)
+    key_values_used: Mapping[str, Any] = field(default_factory=dict)
+    warnings: tuple[str, ...] = ()
+
+    def __post_init__(self) -> None:
+        _freeze(self, "budget", "fuel", "key_values_used")
+        object.__setattr__(self, "runs", tuple(self.runs))
+        object.__setattr__(self, "warnings", tuple(self.warnings))
+
+    def to_dict(self) -> dict[str, Any]:
+        return {f.name: jsonable(getattr(self, f.name)) for f in fields(self)}
+
+
+@dataclass(frozen=True, kw_only=True)
+class Reduction:
+    """Everything ``calwork reduce`` produces for one run sheet."""
+
+    calibrations: tuple[CalibrationResult, ...]
+    runs: tuple[RunResult, ...]
+    samples: tuple[SampleResult, ...]
+    #: Covariance of the samples' standard massic energies (or ΔfH), for the Hess solver:
+    #: {"quantity": ..., "names": [...], "matrix": [[...]]}.
+    covariance: Mapping[str, Any] = field(default_factory=dict)
+    method: str = "newton-fit"
+    sheet_path: str | None = None
+    provenance: Provenance | None = None
+    warnings: tuple[str, ...] = ()
+
+    def __post_init__(self) -> None:
+        _freeze(self, "covariance")
+        for name in ("calibrations", "runs", "samples", "warnings"):
+            object.__setattr__(self, name, tuple(getattr(self, name)))
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "calibrations": [c.to_dict() for c in self.calibrations],
+            "runs": [r.to_dict() for r in self.runs],
+            "samples": [s.to_dict() for s in self.samples],
+            "covariance": jsonable(self.covariance),
+            "method": self.method,
+            "sheet_path": self.sheet_path,
+            "warnings": list(self.warnings),
+            "provenance": None if self.provenance is None else self.provenance.to_dict(),
+        }

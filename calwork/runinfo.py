@@ -1,0 +1,153 @@
+"""The RunInfo record: one row of a run sheet, typed, in the units its column names say."""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from dataclasses import dataclass, field, fields
+from pathlib import Path
+from types import MappingProxyType
+
+__all__ = ["EXTENSION_COLUMNS", "RUN_KINDS", "RUN_SHEET_COLUMNS", "RunInfo"]
+
+#: The run kinds a sheet may name (contract).
+RUN_KINDS = ("calibration", "combustion", "electrical", "solution", "blank")
+
+#: Contract columns of a run sheet and their Python types (``float`` cells in the units of the
+#: name's suffix). Blank cells mean "not given".
+RUN_SHEET_COLUMNS: dict[str, type] = {
+    "run": str,
+    "kind": str,
+    "log": str,
+    "calorimeter": str,
+    "sample": str,
+    "formula": str,
+    "phase": str,
+    "mass_g": float,
+    "reference_material": str,
+    "certified_J_per_g": float,
+    "ignition_J": float,
+    "fuse_burnt_cm": float,
+    "fuse_J_per_cm": float,
+    "fuse_J": float,
+    "cotton_g": float,
+    "aux_mass_g": float,
+    "aux_J_per_g": float,
+    "acid_titre_mL": float,
+    "acid_titrant_mol_per_L": float,
+    "sulfur_mass_fraction": float,
+    "o2_pressure_MPa": float,
+    "bomb_volume_L": float,
+    "bomb_water_g": float,
+    "amount_mol": float,
+    "solvent_mass_g": float,
+    "heater_power_W": float,
+    "heater_on_s": float,
+    "heater_off_s": float,
+    "standard_resistor_ohm": float,
+    "ampoule_gas_volume_mL": float,
+    "time_column": str,
+    "temperature_column": str,
+    "time_unit": str,
+    "temperature_unit": str,
+    "notes": str,
+}
+
+#: calwork's own optional columns beyond the contract (documented in the README).
+EXTENSION_COLUMNS: dict[str, type] = {
+    "date": str,                       # ISO 8601 date or date-time of the run (QA ordering)
+    "operator": str,
+    "mass_basis": str,                 # 'vacuum' (default) or 'air' (apply buoyancy)
+    "sample_density_g_per_cm3": float, # for buoyancy and the bomb gas volume
+    "fuse_material": str,              # 'iron', 'nickel-chromium', 'platinum', 'cotton'...
+    "fuse_mass_g": float,
+    "soot_g": float,                   # unburnt carbon found after the run
+    "fire_time_s": float,              # override of the detected firing / start time
+    "main_end_s": float,               # override of the detected end of the main period
+    "sensor": str,                     # 'pt100', 'pt1000', 'steinhart-hart' for resistance logs
+    "hydrogen_mass_fraction": float,   # fuel outputs (net calorific value)
+    "oxygen_mass_fraction": float,
+    "nitrogen_mass_fraction": float,
+    "moisture_mass_fraction": float,
+    "ash_mass_fraction": float,
+    "sulfur_convention": str,          # 'fuel' (SO2(g)) or 'thermochemical' (H2SO4·115H2O)
+}
+
+
+@dataclass(frozen=True, kw_only=True)
+class RunInfo:
+    """One run as described by a run sheet.
+
+    Every contract column is an attribute (``None`` when the cell is blank). ``log_path`` is
+    the resolved log file; ``sheet_path`` and ``line`` locate the row for error messages;
+    ``extra`` keeps unknown columns verbatim.
+    """
+
+    run: str
+    kind: str
+    log: str | None = None
+    calorimeter: str | None = None
+    sample: str | None = None
+    formula: str | None = None
+    phase: str | None = None
+    mass_g: float | None = None
+    reference_material: str | None = None
+    certified_J_per_g: float | None = None
+    ignition_J: float | None = None
+    fuse_burnt_cm: float | None = None
+    fuse_J_per_cm: float | None = None
+    fuse_J: float | None = None
+    cotton_g: float | None = None
+    aux_mass_g: float | None = None
+    aux_J_per_g: float | None = None
+    acid_titre_mL: float | None = None
+    acid_titrant_mol_per_L: float | None = None
+    sulfur_mass_fraction: float | None = None
+    o2_pressure_MPa: float | None = None
+    bomb_volume_L: float | None = None
+    bomb_water_g: float | None = None
+    amount_mol: float | None = None
+    solvent_mass_g: float | None = None
+    heater_power_W: float | None = None
+    heater_on_s: float | None = None
+    heater_off_s: float | None = None
+    standard_resistor_ohm: float | None = None
+    ampoule_gas_volume_mL: float | None = None
+    time_column: str | None = None
+    temperature_column: str | None = None
+    time_unit: str | None = None
+    temperature_unit: str | None = None
+    notes: str | None = None
+    # calwork extensions
+    date: str | None = None
+    operator: str | None = None
+    mass_basis: str | None = None
+    sample_density_g_per_cm3: float | None = None
+    fuse_material: str | None = None
+    fuse_mass_g: float | None = None
+    soot_g: float | None = None
+    fire_time_s: float | None = None
+    main_end_s: float | None = None
+    sensor: str | None = None
+    hydrogen_mass_fraction: float | None = None
+    oxygen_mass_fraction: float | None = None
+    nitrogen_mass_fraction: float | None = None
+    moisture_mass_fraction: float | None = None
+    ash_mass_fraction: float | None = None
+    sulfur_convention: str | None = None
+    # location and leftovers
+    log_path: Path | None = None
+    sheet_path: Path | None = None
+    line: int | None = None
+    extra: Mapping[str, str] = field(default_factory=dict)
+
+    def __post_init__(self) -> None:
+        object.__setattr__(self, "extra", MappingProxyType(dict(self.extra)))
+
+    def given(self) -> dict[str, object]:
+        """The sheet columns that were filled in (contract and extension columns)."""
+        names = set(RUN_SHEET_COLUMNS) | set(EXTENSION_COLUMNS)
+        return {
+            f.name: getattr(self, f.name)
+            for f in fields(self)
+            if f.name in names and getattr(self, f.name) is not None
+        }
