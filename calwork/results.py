@@ -176,9 +176,14 @@ class Reduction:
     sheet_path: str | None = None
     provenance: Provenance | None = None
     warnings: tuple[str, ...] = ()
+    #: The run-sheet rows reduced (in sheet order), for reports and the lab book.
+    run_infos: tuple[Any, ...] = ()
+    #: Thermograms read, by run id (not serialised; for plots and workbooks).
+    thermograms: Mapping[str, Any] = field(default_factory=dict, repr=False)
 
     def __post_init__(self) -> None:
-        _freeze(self, "covariance")
+        _freeze(self, "covariance", "thermograms")
+        object.__setattr__(self, "run_infos", tuple(self.run_infos))
         for name in ("calibrations", "runs", "samples", "warnings"):
             object.__setattr__(self, name, tuple(getattr(self, name)))
 
