@@ -127,6 +127,8 @@ class SampleResult:
     n_runs: int
     runs: tuple[str, ...]
     kind: str = "combustion"
+    #: Phase of the compound ('cr', 'l', ...), as the run sheet gives it.
+    phase: str | None = None
     calorimeter: str | None = None
     massic_energy_J_per_g: float | None = None
     u_massic_energy_J_per_g: float | None = None

@@ -6,19 +6,25 @@
 overrides. ``write_log`` / ``write_run_sheet`` write the same formats back.
 """
 
+from calwork.io.logs import read_log
 from calwork.io.sensors import (
     cvd_resistance_ohm,
     cvd_temperature_C,
     steinhart_hart_resistance_ohm,
     steinhart_hart_temperature_K,
 )
+from calwork.io.sheets import load_run_log, read_run_sheet, unknown_columns
 from calwork.io.writers import write_log, write_run_sheet
 
 __all__ = [
     "cvd_resistance_ohm",
     "cvd_temperature_C",
+    "load_run_log",
+    "read_log",
+    "read_run_sheet",
     "steinhart_hart_resistance_ohm",
     "steinhart_hart_temperature_K",
+    "unknown_columns",
     "write_log",
     "write_run_sheet",
 ]

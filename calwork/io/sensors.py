@@ -23,7 +23,7 @@ import numpy as np
 
 from calwork.constants import CELSIUS_ZERO_K
 from calwork.data import load_data
-from calwork.errors import SensorRangeError, check_choice
+from calwork.errors import ChoiceError, SensorRangeError, UnitError, check_choice
 
 __all__ = [
     "CVD_A_PER_C",
@@ -133,7 +133,8 @@ def cvd_temperature_C(
             i = int(np.flatnonzero((disc < 0.0).ravel())[0])
             raise SensorRangeError(
                 "resistance above the Callendar–Van Dusen maximum (no real temperature)",
-                found=float(R.flat[i]), expected=f"R below {R0_ohm * (1 - A * A / (4 * B)):.6g} ohm",
+                found=float(R.flat[i]),
+                expected=f"R below {R0_ohm * (1 - A * A / (4 * B)):.6g} ohm",
             )
         # numerically stable root of B t² + A t + (1 − ratio) = 0 nearest 0 °C
         t = 2.0 * (ratio - 1.0) / (A + np.sqrt(disc))
@@ -306,7 +307,7 @@ def resolve_sensor(sensor: str, coefficients: Mapping[str, float] | None = None)
         allowed = {"a", "b", "c"}
         missing = sorted(allowed - set(given))
         if missing:
-            raise SensorRangeError(
+            raise UnitError(
                 "the steinhart-hart sensor needs its coefficients a, b and c",
                 found=sorted(given), expected="sensor_coefficients={'a': ..., 'b': ..., 'c': ...}",
             )
@@ -317,18 +318,22 @@ def resolve_sensor(sensor: str, coefficients: Mapping[str, float] | None = None)
                 "C": CVD_C_PER_C4}
     unknown = sorted(set(given) - allowed)
     if unknown:
-        raise SensorRangeError(
-            f"unknown coefficient(s) for sensor {key!r}", found=unknown, expected=str(sorted(allowed))
+        raise ChoiceError(
+            f"unknown coefficient(s) for sensor {key!r}", found=unknown,
+            expected=f"some of {sorted(allowed)}",
         )
     for name, value in given.items():
         try:
             number = float(value)
         except (TypeError, ValueError):
-            raise SensorRangeError(f"sensor coefficient {name!r} is not a number",
-                                   found=value) from None
+            raise UnitError(f"sensor coefficient {name!r} is not a number", found=value) from None
         if not np.isfinite(number):
-            raise SensorRangeError(f"sensor coefficient {name!r} is not finite", found=value)
+            raise UnitError(f"sensor coefficient {name!r} is not finite", found=value)
         base[name] = number
-    if key != "steinhart-hart" and base["R0_ohm"] <= 0.0:
-        raise SensorRangeError("R0 must be positive", found=base["R0_ohm"], expected="R0 > 0 ohm")
+    if key != "steinhart-hart" and (base["R0_ohm"] <= 0.0 or base["A"] == 0.0):
+        raise UnitError("R0 must be positive and A non-zero", found=(base["R0_ohm"], base["A"]),
+                        expected="R0 > 0 ohm")
+    if key == "steinhart-hart" and base["b"] == 0.0 and base["c"] == 0.0:
+        raise UnitError("Steinhart–Hart coefficients b and c cannot both be zero",
+                        found=(base["a"], base["b"], base["c"]))
     return SensorModel(name=key, coefficients=base)

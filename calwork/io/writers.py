@@ -298,7 +298,7 @@ def _toml_value(value: object) -> str:
 
 
 def _toml_key(key: str) -> str:
-    if key and all(ch.isalnum() and ch.isascii() or ch in "_-" for ch in key):
+    if key and all((ch.isalnum() and ch.isascii()) or ch in "_-" for ch in key):
         return key
     return _toml_value(key)
 

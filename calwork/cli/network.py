@@ -1,0 +1,85 @@
+"""``calwork network FILE``: solve a thermochemical network (Hess back-solver)."""
+
+from __future__ import annotations
+
+import argparse
+
+from calwork.cli._common import print_json
+from calwork.errors import NetworkError
+from calwork.hess.files import read_network_file
+from calwork.hess.network import WORST_OFFENDER_MODES, solve_network
+from calwork.hess.reactions import Reaction
+
+__all__ = ["register"]
+
+_HELP = """\
+Solve a network of reaction enthalpies for standard enthalpies of formation (298.15 K) by
+weighted least squares, with consistency checks (χ², Birge ratio, normalised and
+standardised residuals, worst offenders) and the species the data do not determine.
+
+FILE is CSV (columns id, equation, delta_r_H_kJ_per_mol, u_delta_r_H_kJ_per_mol, optional
+temperature_K, source; a row with a single species is a known ΔfH°) or TOML
+([[determination]], [[species]], [[heat_capacity]], [[correlation]] tables).
+Uncertainties in the file are standard uncertainties (k = 1). CODATA key values for the
+species present are added unless --no-key-values; a row for the same species replaces them.
+
+Caution: the input enthalpies come from calorimetry with oxygen bombs (pressure vessels) and
+acids; follow the instrument maker's instructions and local safety codes.
+"""
+
+
+def register(subparsers: argparse._SubParsersAction) -> None:
+    p = subparsers.add_parser("network", help="solve a thermochemical network (Hess)",
+                              description=_HELP,
+                              formatter_class=argparse.RawDescriptionHelpFormatter)
+    p.add_argument("file", metavar="FILE", help="network file (.csv or .toml)")
+    p.add_argument("--json", action="store_true", help="print one JSON object")
+    p.add_argument("--target", metavar="EQUATION",
+                   help='reaction whose ΔrH to derive, e.g. "C(cr,graphite) + O2(g) = CO2(g)"')
+    p.add_argument("--monte-carlo", type=int, metavar="N", default=None,
+                   help="check the linear propagation with N Monte Carlo draws (JCGM 101)")
+    p.add_argument("--seed", type=int, default=1, help="seed of the Monte Carlo draws")
+    p.add_argument("--no-key-values", action="store_true",
+                   help="do not add the bundled CODATA key values")
+    p.add_argument("--coverage-factor", type=float, default=2.0, metavar="K",
+                   help="coverage factor of the expanded uncertainties (default 2)")
+    p.add_argument("--worst-offender", choices=WORST_OFFENDER_MODES, default="report",
+                   help="report the worst offenders (default), also inflate their "
+                        "uncertainties until consistent, or skip")
+    p.add_argument("--threshold", type=float, default=2.0,
+                   help="|standardised residual| regarded as consistent (default 2)")
+    p.set_defaults(func=run)
+
+
+def run(args: argparse.Namespace) -> int:
+    if args.monte_carlo is not None and args.monte_carlo < 100:
+        raise NetworkError("--monte-carlo needs at least 100 draws", found=args.monte_carlo)
+    network = read_network_file(args.file)
+    target = Reaction.from_equation(args.target, id="target") if args.target else None
+    result = solve_network(
+        network, key_values=not args.no_key_values, worst_offender=args.worst_offender,
+        threshold=args.threshold, monte_carlo=args.monte_carlo, seed=args.seed,
+        coverage_factor=args.coverage_factor,
+        include_species=target.species if target is not None else (),
+    )
+    if target is not None:
+        target = result.reaction_enthalpy(target)
+    if args.json:
+        out = result.to_dict()
+        out["file"] = str(args.file)
+        if target is not None:
+            out["target"] = target.equation
+            out["delta_r_H_kJ_per_mol"] = target.delta_r_H_kJ_per_mol
+            out["u_delta_r_H_kJ_per_mol"] = target.u_delta_r_H_kJ_per_mol
+            out["U_delta_r_H_kJ_per_mol"] = target.U_delta_r_H_kJ_per_mol
+        print_json(out)
+        return 0
+    print(f"Network {args.file}: {len(network.rows)} rows, ΔfH° at 298.15 K in kJ/mol")
+    print(result.report())
+    if result.monte_carlo:
+        mc = result.monte_carlo
+        print(f"Monte Carlo check ({mc['n']} draws, seed {mc['seed']}): largest relative "
+              f"difference of u from the linear propagation {mc['max_relative_difference_u']:.2%}")
+    if target is not None:
+        print("target: " + target.report())
+    return 0

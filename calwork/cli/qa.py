@@ -1,0 +1,100 @@
+"""``calwork qa CALORIMETER``: control chart of the energy equivalent and recalibration advice."""
+
+from __future__ import annotations
+
+import argparse
+from dataclasses import replace
+
+from calwork.cli._common import print_json
+from calwork.cli.labbook import _common
+
+__all__ = ["register"]
+
+_DESCRIPTION = """\
+Control chart of a calorimeter's energy equivalent: ε of each active calibration run in the
+lab book (void and failed runs left out), ordered by date then run id. The mean and the
+single-run standard deviation s come from the standardisation series — by default the first
+calibration series recorded for the calorimeter, or the first N runs with --baseline N.
+Warning limits mean ± 2 s, action limits mean ± 3 s, moving-range chart (upper limit
+D4 · MR̄, D4 = 3.267), and run rules (calwork's defaults, common SPC practice):
+
+  beyond-action          1 point beyond the action limits           -> recalibrate
+  two-of-three-warning   2 of 3 points beyond the same warning limit -> investigate
+  run-one-side           7 successive points on one side of the mean -> investigate
+  trend                  6 points in a row increasing or decreasing  -> investigate
+  moving-range           a moving range above D4 · MR̄                -> investigate
+
+Change them with --rules, e.g. --rules beyond-action,run-one-side=8,trend=6.
+
+QA note: a signal says the calorimeter changed, not why. Check what changed (bomb, vessel,
+thermometer, stirrer, jacket, water mass, oxygen pressure, crucible, reference-material lot)
+and standardise again after any change of a part. Safety: an oxygen bomb is a pressure
+vessel — after service or any sign of damage have it inspected and pressure-tested as its
+maker and local codes require before firing it again.
+"""
+
+
+def register(subparsers: argparse._SubParsersAction) -> None:
+    """Add the ``qa`` subcommand."""
+    p = subparsers.add_parser("qa", help="control chart of ε and recalibration advice",
+                              description=_DESCRIPTION,
+                              formatter_class=argparse.RawDescriptionHelpFormatter)
+    p.add_argument("calorimeter", metavar="CALORIMETER", help="calorimeter id (sheet column)")
+    p.add_argument("--baseline", type=int, metavar="N",
+                   help="use the first N runs as the standardisation series")
+    p.add_argument("--rules", metavar="SPEC", default=None,
+                   help="run rules, comma-separated (default: 'default')")
+    p.add_argument("--since", metavar="DATE", help="only runs dated on/after (ISO 8601)")
+    p.add_argument("--until", metavar="DATE", help="only runs dated on/before (ISO 8601)")
+    p.add_argument("--plot", metavar="FILE.png", help="draw the individuals and MR charts")
+    p.add_argument("--json", action="store_true", help="print one JSON object")
+    _common(p)
+    p.set_defaults(func=_qa)
+
+
+def _qa(args: argparse.Namespace) -> int:
+    from calwork.errors import CalibrationError
+    from calwork.labbook import Filters, open_labbook
+    from calwork.qa import control_chart, parse_rules
+
+    rules = parse_rules(args.rules)
+    filters = Filters(since=args.since, until=args.until)
+    with open_labbook(args.labbook, user=args.user, timeout_s=args.timeout) as book:
+        points, notes = book.calibration_series(args.calorimeter, filters)
+        first_series = book.first_series_runs(args.calorimeter)
+    if len(points) < 2:
+        raise CalibrationError(
+            f"calorimeter {args.calorimeter!r} has {len(points)} usable calibration run(s) "
+            "in the lab book", expected="at least 2 active calibration runs")
+    labels = [p["run"] for p in points]
+    kwargs: dict = {}
+    if args.baseline is not None:
+        kwargs["baseline_n"] = args.baseline
+    else:
+        in_first = [lab for lab in labels if lab in set(first_series)]
+        if len(in_first) >= 2:
+            kwargs["baseline_labels"] = in_first
+        else:
+            notes.append("the first calibration series has fewer than 2 active runs here; "
+                         "all points form the baseline")
+    chart = control_chart(
+        [p["energy_equivalent_J_per_K"] for p in points], labels,
+        dates=[p["date"] for p in points], rules=rules,
+        title=f"energy equivalent of calorimeter {args.calorimeter}", **kwargs)
+    if kwargs.get("baseline_labels"):
+        chart = replace(chart,
+                        baseline_source="first calibration series recorded for the calorimeter")
+    if notes:
+        chart = replace(chart, notes=(*chart.notes, *notes))
+    if args.plot:
+        from calwork.qa import plot_control_chart
+
+        plot_control_chart(chart, args.plot)
+    if args.json:
+        print_json({"calorimeter": args.calorimeter, **chart.to_dict(),
+                    "plot": args.plot})
+    else:
+        print(chart.report())
+        if args.plot:
+            print(f"plot: {args.plot}")
+    return 0

@@ -1,0 +1,115 @@
+"""``calwork rise LOG``: the corrected temperature rise of one temperature log."""
+
+from __future__ import annotations
+
+import argparse
+
+from calwork.cli._common import format_table, print_json
+from calwork.errors import ChoiceError
+
+__all__ = ["register", "run"]
+
+_DESCRIPTION = """\
+Read a temperature log, find its fore, main and after periods (firing or heater-on time from
+the onset of the rise, end of the main period where the record is Newtonian again) and print
+the corrected (adiabatic) temperature rise with its standard uncertainty, the drift model
+(k, T_inf) and any warnings.
+
+Methods: newton-fit (default; fore and after periods fitted jointly to Newton's law of
+cooling), regnault-pfaundler, dickinson (--dickinson-rule equal-area, the exact t_x; or
+60-percent, the fuel standards' shortcut — for routine fuel work, not thermochemistry).
+--fire-time and --main-end override the detected boundaries (times in s on the log's axis).
+
+Caution: the logs come from oxygen bombs (pressure vessels) and electrically heated cells;
+operate them only as the maker and the local pressure-equipment and electrical-safety codes
+prescribe. This command only reads files.
+"""
+
+
+def register(subparsers: argparse._SubParsersAction) -> None:
+    """Add the ``rise`` subcommand."""
+    from calwork.io.sensors import SENSORS
+    from calwork.rise import DICKINSON_RULES, METHODS
+
+    p = subparsers.add_parser(
+        "rise", help="corrected temperature rise of one temperature log",
+        description=_DESCRIPTION, formatter_class=argparse.RawDescriptionHelpFormatter,
+    )
+    p.add_argument("log", metavar="LOG", help="temperature log (.csv/.txt/... or .xlsx)")
+    p.add_argument("--method", default="newton-fit", choices=tuple(METHODS),
+                   help="temperature-rise method (default newton-fit)")
+    p.add_argument("--dickinson-rule", default="equal-area", choices=DICKINSON_RULES,
+                   help="t_x rule of the dickinson method (default equal-area)")
+    p.add_argument("--fire-time", type=float, metavar="S",
+                   help="firing / heater-on time, s (overrides detection)")
+    p.add_argument("--main-end", type=float, metavar="S",
+                   help="end of the main period, s (overrides detection)")
+    p.add_argument("--time-column", metavar="C", help="header of the time column")
+    p.add_argument("--temperature-column", metavar="C", help="header of the temperature column")
+    p.add_argument("--time-unit", metavar="U", help="unit of the time column (overrides header)")
+    p.add_argument("--temperature-unit", metavar="U",
+                   help="C, K or ohm (overrides the header)")
+    p.add_argument("--sensor", choices=SENSORS,
+                   help="convert a resistance column (ohm) with this thermometer model")
+    p.add_argument("--sh-coefficients", nargs=3, type=float, metavar=("A", "B", "C"),
+                   help="Steinhart–Hart coefficients a, b, c (with --sensor steinhart-hart)")
+    p.add_argument("--sheet", metavar="NAME", help="worksheet of an .xlsx log")
+    p.add_argument("--json", action="store_true", help="print one JSON object")
+    p.add_argument("--plot", metavar="FILE.png",
+                   help="draw readings, periods, drift model, rise and residuals")
+    p.set_defaults(func=run)
+
+
+def _table(result) -> str:
+    rows = [
+        ("corrected rise", f"{result.corrected_rise_K:.6f}", "K"),
+        ("u (k = 1)", f"{result.u_corrected_rise_K:.2g}", "K"),
+        ("method", result.method + (f" ({result.dickinson_rule})" if result.dickinson_rule
+                                    else ""), ""),
+        ("fire time", f"{result.fire_time_s:.1f}", f"s ({result.periods.fire_source})"),
+        ("main period end", f"{result.main_end_s:.1f}", f"s ({result.periods.main_end_source})"),
+        ("fore period", f"{result.fore_period_s[0]:.1f}–{result.fore_period_s[1]:.1f}", "s"),
+        ("after period", f"{result.after_period_s[0]:.1f}–{result.after_period_s[1]:.1f}", "s"),
+        ("T_i", f"{result.T_initial_K:.6f}", "K"),
+        ("T_f", f"{result.T_final_K:.6f}", "K"),
+        ("exchange correction", f"{result.exchange_correction_K:+.6f}", "K"),
+        ("k", f"{result.k_per_s:.4g}", "1/s"),
+        ("T_inf", f"{result.T_inf_K:.4f}", "K"),
+        ("reading noise", f"{(result.noise_K or 0.0) * 1e3:.3g}", "mK"),
+    ]
+    rows += [(f"u: {k}", f"{v:.2g}", "K") for k, v in result.uncertainty_budget.items()]
+    text = format_table(("quantity", "value", "unit"), rows)
+    if result.warnings:
+        text += "\n" + "\n".join(f"warning: {w}" for w in result.warnings)
+    return text
+
+
+def run(args: argparse.Namespace) -> int:
+    """Read the log, reduce it and print the result (table or JSON)."""
+    from calwork.io import read_log
+    from calwork.rise import corrected_rise, plot_rise
+
+    coefficients = None
+    if args.sh_coefficients is not None:
+        if args.sensor not in (None, "steinhart-hart"):
+            raise ChoiceError("--sh-coefficients go with --sensor steinhart-hart",
+                              found=args.sensor)
+        args.sensor = "steinhart-hart"
+        coefficients = dict(zip("abc", args.sh_coefficients, strict=True))
+    thermogram = read_log(
+        args.log, time_column=args.time_column, temperature_column=args.temperature_column,
+        time_unit=args.time_unit, temperature_unit=args.temperature_unit, sensor=args.sensor,
+        sensor_coefficients=coefficients, sheet=args.sheet,
+    )
+    result = corrected_rise(thermogram, args.method, fire_time_s=args.fire_time,
+                            main_end_s=args.main_end, dickinson_rule=args.dickinson_rule)
+    out = result.to_dict()
+    if args.plot:
+        out["plot"] = str(plot_rise(thermogram, result, args.plot))
+    if args.json:
+        print_json(out)
+    else:
+        print(_table(result))
+        if args.plot:
+            print(f"plot written to {out['plot']}")
+    return 0

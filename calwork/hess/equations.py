@@ -1,0 +1,271 @@
+"""Reaction equations ``a A + b B = c C + d D`` with exact rational coefficients.
+
+Sides are separated by ``=``, ``->`` or ``→``; terms by ``+``. A coefficient is an integer
+(``2``), a decimal (``0.5``, read exactly as 1/2), a fraction (``5/2``) or ``½``; it may be
+joined to the species (``2H2O(l)``) since formulas never start with a digit. Every species
+must carry its state (``H2O(l)``), which is also what ends a term, so a ``+`` inside a charge
+(``Na+(aq)``) is never read as a separator.
+
+Element and charge balance are checked exactly; :class:`~calwork.errors.BalanceError` names
+each element (and the charge) that is off and by how much, in ``imbalance``.
+"""
+
+from __future__ import annotations
+
+import re
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+from fractions import Fraction
+from types import MappingProxyType
+
+from calwork.errors import BalanceError, EquationError, FormulaError
+from calwork.hess.species import Species, parse_species
+
+__all__ = [
+    "Equation",
+    "check_balance",
+    "format_coefficient",
+    "format_side",
+    "imbalance",
+    "parse_coefficient",
+    "parse_equation",
+]
+
+_ARROWS = ("->", "→", "⟶", "=")
+_UNICODE_FRACTIONS = {"½": "1/2", "⅓": "1/3", "⅔": "2/3", "¼": "1/4", "¾": "3/4"}
+_COEFFICIENT = re.compile(r"\s*(?P<c>(?:\d+(?:\.\d*)?|\.\d+)(?:\s*/\s*\d+)?|[½⅓⅔¼¾])\s*")
+_STATE_START = re.compile(r"\((?:g|l|cr|s|am|aq|sln)(?=[),])")
+
+
+@dataclass(frozen=True, kw_only=True)
+class Equation:
+    """A parsed reaction equation.
+
+    Attributes
+    ----------
+    text
+        The equation as written.
+    stoichiometry
+        Net coefficients, products positive and reactants negative; species that cancel
+        are dropped.
+    reactants, products
+        The terms as written, ``(species, coefficient > 0)``.
+    """
+
+    text: str
+    stoichiometry: Mapping[Species, Fraction]
+    reactants: tuple[tuple[Species, Fraction], ...] = ()
+    products: tuple[tuple[Species, Fraction], ...] = ()
+    imbalance: Mapping[str, Fraction] = field(default_factory=dict)
+
+    def __post_init__(self) -> None:
+        object.__setattr__(self, "stoichiometry", MappingProxyType(dict(self.stoichiometry)))
+        object.__setattr__(self, "imbalance", MappingProxyType(dict(self.imbalance)))
+
+
+def parse_coefficient(text: str | int | float | Fraction) -> Fraction:
+    """Exact rational from ``'5/2'``, ``'0.5'``, ``'½'``, an int, a Fraction or a float.
+
+    Floats are read through their shortest decimal repr (``0.1`` → 1/10).
+    """
+    if isinstance(text, Fraction):
+        return text
+    if isinstance(text, bool):
+        raise EquationError("a coefficient must be a number", found=text)
+    if isinstance(text, int):
+        return Fraction(text)
+    if isinstance(text, float):
+        return Fraction(repr(text))
+    raw = str(text).strip()
+    raw = _UNICODE_FRACTIONS.get(raw, raw).replace(" ", "")
+    try:
+        return Fraction(raw)
+    except (ValueError, ZeroDivisionError):
+        raise EquationError(
+            "coefficient is not a number", found=text, expected="e.g. 2, 0.5 or 5/2"
+        ) from None
+
+
+def format_coefficient(value: Fraction) -> str:
+    """``Fraction(5, 2)`` → ``'5/2'``; ``Fraction(2)`` → ``'2'``."""
+    if value.denominator == 1:
+        return str(value.numerator)
+    return f"{value.numerator}/{value.denominator}"
+
+
+def format_side(terms: list[tuple[Species, Fraction]]) -> str:
+    """Terms as ``'2 H2O(l) + CO2(g)'`` (coefficient 1 omitted)."""
+    if not terms:
+        return "0"
+    parts = []
+    for sp, c in terms:
+        parts.append(sp.name if c == 1 else f"{format_coefficient(c)} {sp.name}")
+    return " + ".join(parts)
+
+
+def _split_sides(text: str) -> tuple[str, str, int]:
+    for arrow in _ARROWS:
+        idx = _find_outside_states(text, arrow)
+        if idx:
+            if len(idx) > 1:
+                raise EquationError(
+                    f"equation has more than one {arrow!r}", found=text, position=idx[1]
+                )
+            i = idx[0]
+            return text[:i], text[i + len(arrow):], i + len(arrow)
+    raise EquationError(
+        "equation has no '=' or '->' between its two sides",
+        found=text, expected="e.g. 'C(cr,graphite) + O2(g) = CO2(g)'", position=len(text),
+    )
+
+
+def _find_outside_states(text: str, token: str) -> list[int]:
+    out, depth = [], 0
+    i = 0
+    while i < len(text):
+        ch = text[i]
+        if ch in "([":
+            depth += 1
+        elif ch in ")]":
+            depth -= 1
+        elif depth == 0 and text.startswith(token, i):
+            out.append(i)
+            i += len(token)
+            continue
+        i += 1
+    return out
+
+
+def _parse_side(text: str, offset: int, whole: str) -> list[tuple[Species, Fraction, int]]:
+    terms = []
+    pos = 0
+    n = len(text)
+    while True:
+        while pos < n and text[pos].isspace():
+            pos += 1
+        if pos >= n:
+            raise EquationError(
+                "a side of the equation ends without a species",
+                found=whole, expected="a species such as 'H2O(l)'", position=offset + pos,
+            )
+        start = pos
+        coefficient = Fraction(1)
+        m = _COEFFICIENT.match(text, pos)
+        if m:
+            coefficient = parse_coefficient(m.group("c"))
+            pos = m.end()
+        s = _STATE_START.search(text, pos)
+        if s is None:
+            raise EquationError(
+                "species has no state in parentheses",
+                found=whole, expected="e.g. 'H2O(l)', 'CO2(g)', 'NaCl(cr)', 'Na+(aq)'",
+                position=offset + pos,
+            )
+        close = text.find(")", s.end())
+        if close < 0:
+            raise EquationError("state is not closed with ')'", found=whole,
+                                position=offset + s.start())
+        species_text = text[pos:close + 1]
+        try:
+            species = parse_species(species_text)
+        except FormulaError as exc:
+            raise EquationError(
+                f"term {species_text.strip()!r}: {exc.message}",
+                found=whole, expected=exc.expected, position=offset + pos,
+            ) from None
+        if coefficient <= 0:
+            raise EquationError("coefficients must be positive", found=whole,
+                                position=offset + start)
+        terms.append((species, coefficient, offset + start))
+        pos = close + 1
+        while pos < n and text[pos].isspace():
+            pos += 1
+        if pos >= n:
+            return terms
+        if text[pos] != "+":
+            raise EquationError(
+                f"expected '+' or the end of the side, found {text[pos]!r}",
+                found=whole, position=offset + pos,
+            )
+        pos += 1
+
+
+def imbalance(stoichiometry: Mapping[Species, Fraction]) -> dict[str, Fraction]:
+    """Products minus reactants of every element (and ``'charge'``) that does not cancel."""
+    totals: dict[str, Fraction] = {}
+    for sp, c in stoichiometry.items():
+        for el, count in sp.elements.items():
+            totals[el] = totals.get(el, Fraction(0)) + c * count
+        if sp.charge:
+            totals["charge"] = totals.get("charge", Fraction(0)) + c * sp.charge
+    return {k: v for k, v in sorted(totals.items()) if v != 0}
+
+
+def check_balance(stoichiometry: Mapping[Species, Fraction], text: str = "") -> None:
+    """Raise :class:`BalanceError` naming every element (and the charge) that is off."""
+    off = imbalance(stoichiometry)
+    if off:
+        parts = []
+        for key, value in off.items():
+            what = "charge" if key == "charge" else f"{key}"
+            side = "products" if value > 0 else "reactants"
+            parts.append(f"{what} off by {format_coefficient(abs(value))} (excess on the {side})")
+        raise BalanceError(
+            "reaction is not balanced: " + "; ".join(parts),
+            found=text or None, imbalance=off,
+        )
+
+
+def parse_equation(text: str, *, balance: bool = True) -> Equation:
+    """Parse ``'a A + b B = c C + d D'`` and check its element and charge balance.
+
+    Parameters
+    ----------
+    text
+        The equation; sides joined by ``=``, ``->`` or ``→``.
+    balance
+        Check the balance (default); ``False`` only parses.
+
+    Raises
+    ------
+    EquationError
+        When the text does not parse (with ``position``, 0-based).
+    BalanceError
+        When elements or charge do not balance (with ``imbalance``).
+
+    Examples
+    --------
+    >>> eq = parse_equation("C(cr,graphite) + 1/2 O2(g) = CO(g)")
+    >>> {s.name: str(c) for s, c in eq.stoichiometry.items()}
+    {'C(cr,graphite)': '-1', 'O2(g)': '-1/2', 'CO(g)': '1'}
+    """
+    if not isinstance(text, str) or not text.strip():
+        raise EquationError("empty equation", found=text,
+                            expected="e.g. 'C(cr,graphite) + O2(g) = CO2(g)'")
+    try:
+        left, right, right_offset = _split_sides(text)
+        reactants = _parse_side(left, 0, text)
+        products = _parse_side(right, right_offset, text)
+    except EquationError as exc:
+        pos = getattr(exc, "position", None)
+        if pos is None:
+            raise
+        raise EquationError(f"{exc.message} (at character {pos + 1})", found=text,
+                            expected=exc.expected, position=pos) from None
+    net: dict[Species, Fraction] = {}
+    for sp, c, _ in reactants:
+        net[sp] = net.get(sp, Fraction(0)) - c
+    for sp, c, _ in products:
+        net[sp] = net.get(sp, Fraction(0)) + c
+    net = {sp: c for sp, c in net.items() if c != 0}
+    if not net:
+        raise EquationError("equation cancels to nothing", found=text)
+    if balance:
+        check_balance(net, text)
+    return Equation(
+        text=text,
+        stoichiometry=net,
+        reactants=tuple((sp, c) for sp, c, _ in reactants),
+        products=tuple((sp, c) for sp, c, _ in products),
+        imbalance=imbalance(net),
+    )

@@ -1,0 +1,322 @@
+"""Run sheets: one row per run, as CSV, XLSX (first sheet) or TOML (``[[run]]`` tables).
+
+Column names are matched exactly after stripping whitespace (case-insensitive) against the
+contract columns (:data:`calwork.runinfo.RUN_SHEET_COLUMNS`) and calwork's extensions
+(:data:`calwork.runinfo.EXTENSION_COLUMNS`); any other column is kept in ``RunInfo.extra`` and
+listed by :func:`unknown_columns`. Blank cells mean "not given". Numbers take ``.`` or ``,``
+as the decimal mark. ``log`` paths are relative to the sheet's folder and must stay inside it.
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import math
+import re
+import tomllib
+from collections.abc import Iterable, Mapping
+from pathlib import Path, PurePosixPath, PureWindowsPath
+from typing import Any
+
+from calwork.errors import (
+    CalworkError,
+    DuplicateRunError,
+    LogPathError,
+    SheetError,
+    UnitError,
+)
+from calwork.io._text import decode_bytes, read_file_bytes
+from calwork.io._xlsx import is_xlsx, read_xlsx_rows
+from calwork.io.logs import read_log
+from calwork.io.sensors import SENSORS
+from calwork.runinfo import EXTENSION_COLUMNS, RUN_KINDS, RUN_SHEET_COLUMNS, RunInfo
+from calwork.thermogram import Thermogram
+from calwork.units import parse_temperature_unit, parse_time_unit
+
+__all__ = [
+    "NON_NEGATIVE_COLUMNS",
+    "POSITIVE_COLUMNS",
+    "SENSOR_COEFFICIENT_COLUMNS",
+    "load_run_log",
+    "read_run_sheet",
+    "unknown_columns",
+]
+
+_TYPES: dict[str, type] = {**RUN_SHEET_COLUMNS, **EXTENSION_COLUMNS}
+_BY_KEY = {name.lower(): name for name in _TYPES}
+
+#: Quantities that must be > 0 where given (masses, volumes, pressures, amounts, ...).
+POSITIVE_COLUMNS = frozenset({
+    "mass_g", "cotton_g", "aux_mass_g", "bomb_water_g", "solvent_mass_g", "fuse_mass_g",
+    "bomb_volume_L", "ampoule_gas_volume_mL", "o2_pressure_MPa", "amount_mol",
+    "certified_J_per_g", "standard_resistor_ohm", "acid_titrant_mol_per_L",
+    "sample_density_g_per_cm3",
+})
+#: Quantities that must be ≥ 0 where given.
+NON_NEGATIVE_COLUMNS = frozenset({
+    "acid_titre_mL", "soot_g", "fuse_burnt_cm", "fuse_J_per_cm", "fuse_J", "ignition_J",
+    "heater_power_W",
+})
+_FRACTIONS = frozenset(name for name in _TYPES if name.endswith("_mass_fraction"))
+#: Optional sheet columns with thermometer coefficients for ``sensor`` (kept in ``extra``).
+SENSOR_COEFFICIENT_COLUMNS = {
+    "sensor_r0_ohm": "R0_ohm", "sensor_a": "a", "sensor_b": "b", "sensor_c": "c",
+    "sensor_cvd_a": "A", "sensor_cvd_b": "B", "sensor_cvd_c": "C",
+}
+_NUMBER = re.compile(r"[+-]?(?:\d+(?:[.,]\d*)?|[.,]\d+)(?:[eE][+-]?\d+)?")
+_RUN_TABLE = re.compile(r"^[ \t]*\[\[[ \t]*run[ \t]*\]\]", re.MULTILINE)
+
+
+def _number(text: Any, where: dict[str, Any]) -> float:
+    if isinstance(text, bool):
+        raise SheetError("must be a number", found=text, expected="a number", **where)
+    if isinstance(text, (int, float)):
+        value = float(text)
+    else:
+        s = str(text).strip()
+        if not _NUMBER.fullmatch(s) or ("," in s and "." in s):
+            raise SheetError("must be a number", found=s,
+                             expected="a number (decimal mark '.' or ',')", **where)
+        value = float(s.replace(",", "."))
+    if not math.isfinite(value):
+        raise SheetError("must be a finite number", found=text, expected="a number", **where)
+    return value
+
+
+def _typed(name: str, raw: Any, where: dict[str, Any]) -> Any:
+    """The value of one contract/extension cell (``None`` for blank)."""
+    if raw is None or (isinstance(raw, str) and not raw.strip()):
+        return None
+    if _TYPES[name] is float:
+        value = _number(raw, where)
+        if name in POSITIVE_COLUMNS and value <= 0.0:
+            raise SheetError("must be a positive number", found=raw,
+                             expected="a number > 0", **where)
+        if name in NON_NEGATIVE_COLUMNS and value < 0.0:
+            raise SheetError("must not be negative", found=raw, expected="a number ≥ 0",
+                             **where)
+        if name in _FRACTIONS and not 0.0 <= value <= 1.0:
+            raise SheetError("a mass fraction must lie between 0 and 1", found=raw,
+                             expected="0 ≤ value ≤ 1 (not percent)", **where)
+        return value
+    if isinstance(raw, float) and raw.is_integer():
+        raw = int(raw)  # a run id typed as 7 in a spreadsheet is '7', not '7.0'
+    text = str(raw).strip()
+    if name == "kind":
+        key = text.lower()
+        if key not in RUN_KINDS:
+            raise SheetError("unknown run kind", found=text, expected=f"one of {list(RUN_KINDS)}",
+                             **where)
+        return key
+    if name == "sensor":
+        key = text.lower()
+        if key not in SENSORS:
+            raise SheetError("unknown sensor", found=text, expected=f"one of {list(SENSORS)}",
+                             **where)
+        return key
+    try:
+        if name == "time_unit":
+            parse_time_unit(text)
+        elif name == "temperature_unit":
+            parse_temperature_unit(text)
+    except UnitError as err:
+        raise SheetError(err.message, found=text, expected=err.expected, **where) from None
+    return text
+
+
+def _resolve_log(text: str, folder: Path, where: dict[str, Any]) -> Path:
+    posix = text.replace("\\", "/")
+    if (PurePosixPath(posix).is_absolute() or PureWindowsPath(text).is_absolute()
+            or PureWindowsPath(text).drive or posix.startswith("~")):
+        raise LogPathError("log path must be relative to the sheet's folder", found=text,
+                           expected="a path such as 'logs/run1.csv'", **where)
+    base = folder.resolve()
+    target = (base / posix).resolve()
+    if not target.is_relative_to(base):
+        raise LogPathError("log path escapes the sheet's folder", found=text,
+                           expected=f"a file inside {str(base)!r}", **where)
+    if not target.is_file():
+        raise LogPathError("log file not found", found=text,
+                           expected=f"an existing file under {str(base)!r}", **where)
+    return target
+
+
+def _build(records: Iterable[tuple[int | None, Mapping[str, Any]]], path: Path) -> list[RunInfo]:
+    runs: list[RunInfo] = []
+    seen: dict[str, int | None] = {}
+    folder = path.parent
+    for line, record in records:
+        values: dict[str, Any] = {}
+        extra: dict[str, str] = {}
+        for key, raw in record.items():
+            name = _BY_KEY.get(str(key).strip().lower())
+            where = {"path": path, "line": line, "column": name or str(key)}
+            if name is None:
+                if raw is not None and str(raw).strip():
+                    extra[str(key).strip()] = str(raw).strip()
+                continue
+            values[name] = _typed(name, raw, where)
+        for required in ("run", "kind"):
+            if values.get(required) is None:
+                raise SheetError("required cell is blank", path=path, line=line,
+                                 column=required, expected=f"a {required} for every row")
+        run = values["run"]
+        if run in seen:
+            first = seen[run]
+            raise DuplicateRunError(
+                f"run id used twice (first on line {first}, again on line {line})",
+                path=path, line=line, column="run", found=run, expected="unique run ids",
+                first_line=first,
+            )
+        seen[run] = line
+        log_path = None
+        if values.get("log") is not None:
+            log_path = _resolve_log(values["log"], folder,
+                                    {"path": path, "line": line, "column": "log", "run": run})
+        runs.append(RunInfo(**values, log_path=log_path, sheet_path=path, line=line,
+                            extra=extra))
+    if not runs:
+        raise SheetError("the run sheet has no runs", path=path,
+                         expected="a header row and one row per run")
+    return runs
+
+
+def _check_header(header: list[str], path: Path, line: int) -> list[str]:
+    names = [h.strip().lstrip("\ufeff").strip() for h in header]
+    keys = [n.lower() for n in names]
+    for required in ("run", "kind"):
+        if required not in keys:
+            raise SheetError("run sheet header lacks a required column", path=path, line=line,
+                             column=required, found=names, expected="columns 'run' and 'kind'")
+    for i, key in enumerate(keys):
+        if key and keys.index(key) != i:
+            raise SheetError("column appears twice in the header", path=path, line=line,
+                             column=names[i], expected="each column once")
+    return names
+
+
+def _table_records(rows: list[tuple[int, list[Any]]], path: Path):
+    """Header + records from (line, cells) rows of a CSV or XLSX sheet."""
+    rows = [(n, cells) for n, cells in rows
+            if any(c is not None and str(c).strip() for c in cells)
+            and not str(cells[0] if cells[0] is not None else "").strip().startswith("#")]
+    if not rows:
+        raise SheetError("the run sheet is empty", path=path,
+                         expected="a header row and one row per run")
+    head_line, head = rows[0]
+    names = _check_header(["" if h is None else str(h) for h in head], path, head_line)
+    for line, cells in rows[1:]:
+        if len(cells) > len(names) and any(c is not None and str(c).strip()
+                                            for c in cells[len(names):]):
+            raise SheetError(f"the row has {len(cells)} cells but the header names {len(names)}",
+                             path=path, line=line, expected=f"{len(names)} cells")
+        yield line, {n: (cells[i] if i < len(cells) else None)
+                     for i, n in enumerate(names) if n}
+
+
+def _csv_rows(text: str, path: Path) -> list[tuple[int, list[Any]]]:
+    first = next((ln for ln in text.splitlines() if ln.strip() and not ln.lstrip()
+                  .startswith("#")), "")
+    counts = {sep: len(first.split(sep)) for sep in ("\t", ";", ",")}
+    sep = max(counts, key=lambda s: (counts[s], s == "\t", s == ";"))
+    reader = csv.reader(io.StringIO(text, newline=""), delimiter=sep)
+    rows = []
+    try:
+        start = 1
+        for cells in reader:
+            rows.append((start, cells))
+            start = reader.line_num + 1
+    except csv.Error as exc:
+        raise SheetError(f"malformed CSV: {exc}", path=path, line=reader.line_num) from None
+    return rows
+
+
+def _toml_records(text: str, path: Path):
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise SheetError(f"not valid TOML: {exc}", path=path) from None
+    tables = data.get("run")
+    if not isinstance(tables, list) or not all(isinstance(t, dict) for t in tables):
+        raise SheetError("a TOML run sheet needs [[run]] tables", path=path,
+                         found=sorted(data), expected="one [[run]] table per run")
+    starts = [text.count("\n", 0, m.start()) + 1 for m in _RUN_TABLE.finditer(text)]
+    for k, table in enumerate(tables):
+        line = starts[k] if k < len(starts) else None
+        record: dict[str, Any] = {}
+        for key, value in table.items():
+            if isinstance(value, (dict, list)):
+                raise SheetError("a run-sheet value must be a single number or text",
+                                 path=path, line=line, column=key, found=value)
+            record[key] = value.isoformat() if hasattr(value, "isoformat") else value
+        yield line, record
+
+
+def read_run_sheet(path: str | Path) -> list[RunInfo]:
+    """Read a run sheet (CSV, XLSX or TOML) into :class:`~calwork.runinfo.RunInfo` records.
+
+    Parameters
+    ----------
+    path
+        ``.csv`` (comma, semicolon or tab; any encoding :func:`calwork.io.read_log` reads),
+        ``.xlsx`` (first sheet) or ``.toml`` (``[[run]]`` tables).
+
+    Returns
+    -------
+    list of RunInfo
+        In sheet order, with ``log_path`` resolved, ``sheet_path`` and ``line`` set and unknown
+        columns in ``extra``.
+
+    Raises
+    ------
+    InputFileError, SheetError, DuplicateRunError, LogPathError
+        Naming the file, line and column, what was found and what was expected.
+    """
+    path = Path(path)
+    data, _ = read_file_bytes(path)
+    if is_xlsx(path, data):
+        _, rows = read_xlsx_rows(data, path, None, error=SheetError)
+        cells = [(n, [c.isoformat() if hasattr(c, "isoformat") else c for c in v])
+                 for n, v in rows]  # date cells as ISO 8601 text
+        return _build(_table_records(cells, path), path)
+    text, _ = decode_bytes(data, path)
+    if path.suffix.lower() == ".toml":
+        return _build(_toml_records(text, path), path)
+    return _build(_table_records(_csv_rows(text, path), path), path)
+
+
+def unknown_columns(runs: Iterable[RunInfo]) -> list[str]:
+    """Columns of the sheet that calwork does not know (kept in ``RunInfo.extra``), sorted."""
+    names = {key for run in runs for key in run.extra}
+    return sorted(n for n in names if n.lower() not in SENSOR_COEFFICIENT_COLUMNS)
+
+
+def _sensor_coefficients(info: RunInfo) -> dict[str, float] | None:
+    out: dict[str, float] = {}
+    for key, value in info.extra.items():
+        name = SENSOR_COEFFICIENT_COLUMNS.get(key.strip().lower())
+        if name is not None:
+            out[name] = _number(value, {"path": info.sheet_path, "line": info.line,
+                                        "column": key, "run": info.run})
+    return out or None
+
+
+def load_run_log(info: RunInfo) -> Thermogram:
+    """Read the log of one run with the row's column, unit and sensor overrides.
+
+    Thermometer coefficients may come from the optional columns ``sensor_R0_ohm``,
+    ``sensor_cvd_A``/``_B``/``_C`` (platinum) or ``sensor_a``/``_b``/``_c``
+    (Steinhart–Hart). Errors carry the run id.
+    """
+    if info.log_path is None:
+        raise LogPathError("the run has no log file", path=info.sheet_path, line=info.line,
+                           column="log", run=info.run, expected="a log path in the sheet")
+    try:
+        return read_log(
+            info.log_path, time_column=info.time_column,
+            temperature_column=info.temperature_column, time_unit=info.time_unit,
+            temperature_unit=info.temperature_unit, sensor=info.sensor,
+            sensor_coefficients=_sensor_coefficients(info),
+        )
+    except CalworkError as err:
+        raise err.with_context(run=info.run) from None

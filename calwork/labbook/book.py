@@ -1,0 +1,174 @@
+"""The :class:`Labbook` facade: one open lab book and everything one can do with it."""
+
+from __future__ import annotations
+
+import json
+import os
+import sqlite3
+from pathlib import Path
+from typing import Any
+
+from calwork.errors import LabbookError
+from calwork.labbook import audit, ingest, queries, store
+from calwork.labbook import backup as _backup
+from calwork.labbook import export as _export
+from calwork.labbook import recompute as _recompute
+from calwork.labbook import verify as _verify
+from calwork.results import Reduction
+
+__all__ = ["Labbook", "open_labbook"]
+
+
+class Labbook:
+    """An open calwork lab book (use :func:`open_labbook`).
+
+    Parameters
+    ----------
+    conn
+        The checked SQLite connection.
+    path
+        The lab book file.
+    user
+        Name recorded in the audit log for changes made through this object.
+    """
+
+    def __init__(self, conn: sqlite3.Connection, path: Path, user: str) -> None:
+        self._conn = conn
+        self.path = path
+        self.user = user
+
+    # --- life cycle ---------------------------------------------------------------------------
+    def close(self) -> None:
+        """Close the connection."""
+        self._conn.close()
+
+    def __enter__(self) -> Labbook:
+        return self
+
+    def __exit__(self, *exc: object) -> None:
+        self.close()
+
+    @property
+    def connection(self) -> sqlite3.Connection:
+        """The underlying connection (read-only use; writes go through the methods)."""
+        return self._conn
+
+    # --- changes ------------------------------------------------------------------------------
+    def add_sheet(self, sheet: str | os.PathLike[str], *,
+                  method: str = "newton-fit") -> ingest.AddResult:
+        """Import and reduce a run sheet; store its raw bytes and results in one transaction.
+
+        A sheet whose bytes (sheet and every log) are already recorded is reported as
+        ``already_recorded`` and nothing changes; a different sheet re-using a recorded run id
+        raises :class:`~calwork.errors.LabbookError` (run ids are unique in a lab book).
+        """
+        return ingest.add_sheet(self._conn, self.path, sheet, method=method, user=self.user)
+
+    def void(self, run: str, *, reason: str) -> audit.AuditEntry:
+        """Mark ``run`` void with a reason (audited; the run stays on record) and re-reduce
+        its sheet without it, so later series exclude it."""
+        return ingest.void_run(self._conn, self.path, run, reason=reason, user=self.user)
+
+    # --- reading ------------------------------------------------------------------------------
+    def runs(self, filters: queries.Filters | None = None, *,
+             include_void: bool = True) -> list[dict[str, Any]]:
+        """Runs (with status and latest numbers), ordered by date then run id."""
+        return queries.list_runs(self._conn, filters, include_void=include_void)
+
+    def calibrations(self, filters: queries.Filters | None = None) -> list[dict[str, Any]]:
+        """Current calibrations per calorimeter with their validity."""
+        return queries.list_calibrations(self._conn, filters)
+
+    def samples(self, filters: queries.Filters | None = None) -> list[dict[str, Any]]:
+        """Current sample results."""
+        return queries.list_samples(self._conn, filters)
+
+    def show(self, run: str) -> dict[str, Any]:
+        """Everything about one run, down to the blob hashes of its raw files."""
+        return queries.show_run(self._conn, run)
+
+    def history(self, run: str) -> list[audit.AuditEntry]:
+        """Audit entries about one run."""
+        return queries.history(self._conn, run)
+
+    def audit_log(self) -> list[audit.AuditEntry]:
+        """The whole audit log, oldest first."""
+        return audit.entries(self._conn)
+
+    def calibration_series(self, calorimeter: str,
+                           filters: queries.Filters | None = None,
+                           ) -> tuple[list[dict[str, Any]], list[str]]:
+        """ε of each active calibration run of ``calorimeter`` (for QA) and notes."""
+        return queries.calibration_series(self._conn, calorimeter, filters)
+
+    def first_series_runs(self, calorimeter: str) -> list[str]:
+        """Run ids of the first recorded calibration series of ``calorimeter``."""
+        row = self._conn.execute(
+            "SELECT res.json FROM calibrations c JOIN current_reductions red"
+            " ON red.id = c.reduction_id JOIN results res ON res.id = c.result_id"
+            " WHERE c.calorimeter = ? ORDER BY c.valid_from IS NULL, c.valid_from, c.id"
+            " LIMIT 1", (calorimeter,)).fetchone()
+        return [] if row is None else list(json.loads(row[0]).get("runs") or [])
+
+    # --- checks and copies --------------------------------------------------------------------
+    def recompute(self, filters: queries.Filters | None = None, *,
+                  tolerance: float = _recompute.DEFAULT_TOLERANCE) -> _recompute.RecomputeReport:
+        """Recompute stored results from the stored raw bytes and compare."""
+        return _recompute.recompute(self._conn, filters=filters, tolerance=tolerance)
+
+    def verify(self) -> _verify.VerifyReport:
+        """Check the audit chain, the blobs, the results and the triggers."""
+        return _verify.verify(self._conn)
+
+    def export_raw(self, run: str, dest: str | os.PathLike[str]) -> list[Path]:
+        """Write the run's sheet and log bytes into ``dest``."""
+        return _export.export_raw(self._conn, run, dest)
+
+    def reduction(self, filters: queries.Filters | None = None, *,
+                  thermograms: bool = True) -> Reduction:
+        """A Reduction of the selected active runs rebuilt from the store."""
+        return _export.rebuild_reduction(self._conn, filters, thermograms=thermograms)
+
+    def backup(self, dest: str | os.PathLike[str]) -> Path:
+        """Consistent copy to ``dest`` with SQLite's online backup API (safe while in use)."""
+        return _backup.backup(self._conn, dest)
+
+    def counts(self) -> dict[str, int]:
+        """Row counts of the main tables."""
+        out = {}
+        for table in ("blobs", "sheets", "files", "runs", "run_voids", "reductions",
+                      "results", "calibrations", "audit"):
+            out[table] = self._conn.execute(f"SELECT COUNT(*) FROM {table}").fetchone()[0]
+        return out
+
+
+def open_labbook(path: str | os.PathLike[str] | None = None, *, create: bool = False,
+                 user: str | None = None, timeout_s: float | None = None) -> Labbook:
+    """Open the lab book at ``path`` (else ``$CALWORK_LABBOOK``, else
+    ``calwork-labbook.sqlite`` in the working folder).
+
+    Parameters
+    ----------
+    path
+        Lab book file.
+    create
+        Make a new lab book if there is none (``labbook add`` does; reading commands do not).
+    user
+        Name for the audit log (else ``$CALWORK_USER``, else the OS login name).
+    timeout_s
+        Seconds to wait for another writer, s (else ``$CALWORK_LABBOOK_TIMEOUT``, else 30 s).
+
+    Raises
+    ------
+    LabbookFormatError
+        The file is not a calwork lab book (it is left untouched).
+    LabbookError
+        There is no lab book and ``create`` is false.
+    """
+    resolved = store.resolve_labbook_path(path)
+    timeout = store.timeout_from_env() if timeout_s is None else float(timeout_s)
+    if not timeout >= 0:
+        raise LabbookError("busy timeout must be >= 0 s", found=timeout_s)
+    who = audit.current_user(user)
+    conn = store.connect_checked(resolved, create=create, timeout_s=timeout, user=who)
+    return Labbook(conn, resolved, who)

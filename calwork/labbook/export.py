@@ -1,0 +1,132 @@
+"""Getting things out of a lab book: a run's raw bytes, and a Reduction for the workbook."""
+
+from __future__ import annotations
+
+import contextlib
+import json
+import sqlite3
+from collections.abc import Mapping
+from dataclasses import fields
+from pathlib import Path
+from typing import Any
+
+from calwork.errors import CalworkError, LabbookError
+from calwork.labbook.blobs import get_blob, write_inside
+from calwork.labbook.queries import Filters, list_calibrations, list_runs, list_samples
+from calwork.provenance import Provenance
+from calwork.results import CalibrationResult, Reduction, RunResult, SampleResult
+from calwork.runinfo import RunInfo
+
+__all__ = ["export_raw", "rebuild_reduction"]
+
+
+def export_raw(conn: sqlite3.Connection, run: str, dest: str | Path) -> list[Path]:
+    """Write the run's sheet and log bytes into ``dest`` (original relative layout).
+
+    Files are byte-identical to what was recorded; an existing different file is never
+    replaced, and stored paths are re-checked so nothing is written outside ``dest``.
+    """
+    row = conn.execute(
+        "SELECT r.sheet_id, r.log_file_id, s.file_name, s.sha256 FROM runs r"
+        " JOIN sheets s ON s.id = r.sheet_id WHERE r.run = ?", (run,)).fetchone()
+    if row is None:
+        raise LabbookError("run is not in the lab book", run=run)
+    _sheet_id, log_id, name, sheet_sha = row
+    dest = Path(dest)
+    dest.mkdir(parents=True, exist_ok=True)
+    written = [write_inside(dest, name, get_blob(conn, sheet_sha))]
+    if log_id is not None:
+        rel, sha = conn.execute("SELECT rel_path, sha256 FROM files WHERE id = ?",
+                                (log_id,)).fetchone()
+        written.append(write_inside(dest, rel, get_blob(conn, sha)))
+    return written
+
+
+def _build(cls: type, data: Mapping[str, Any]) -> Any:
+    names = {f.name for f in fields(cls)}
+    kwargs = {k: v for k, v in data.items() if k in names}
+    if "provenance" in kwargs and kwargs["provenance"] is not None:
+        kwargs["provenance"] = _provenance(kwargs["provenance"])
+    return cls(**kwargs)
+
+
+def _provenance(data: Mapping[str, Any]) -> Provenance:
+    kwargs = {k: v for k, v in data.items() if k in {f.name for f in fields(Provenance)}}
+    kwargs["parents"] = tuple(_provenance(p) for p in data.get("parents") or ())
+    return Provenance(**kwargs)
+
+
+def _info(row: Mapping[str, Any], sheet_path: str | None) -> RunInfo:
+    names = {f.name for f in fields(RunInfo)}
+    kwargs = {k: v for k, v in row.items() if k in names and k not in ("log_path",)}
+    log = row.get("log_path")
+    return RunInfo(**kwargs, log_path=None if log is None else Path(log),
+                   sheet_path=None if sheet_path is None else Path(sheet_path))
+
+
+def rebuild_reduction(conn: sqlite3.Connection, filters: Filters | None = None, *,
+                      thermograms: bool = True) -> Reduction:
+    """A :class:`~calwork.results.Reduction` of the selected active runs from the store.
+
+    Run, calibration and sample records are the stored (current) results; ``run_infos`` are
+    the stored sheet rows; with ``thermograms`` the logs are read back from the stored bytes.
+    """
+    filters = filters or Filters()
+    runs = list_runs(conn, filters, include_void=False)
+    wanted = [r["run"] for r in runs]
+    records, infos, methods, sheets = [], [], set(), set()
+    for run in wanted:
+        res, row_json, sheet_id, original, method = conn.execute(
+            "SELECT res.json, r.row_json, r.sheet_id, s.original_path, red.method FROM runs r"
+            " JOIN sheets s ON s.id = r.sheet_id JOIN results res ON res.run_id = r.id"
+            " JOIN current_reductions red ON red.id = res.reduction_id WHERE r.run = ?",
+            (run,)).fetchone()
+        records.append(_build(RunResult, json.loads(res)))
+        infos.append(_info(json.loads(row_json), original))
+        methods.add(method)
+        sheets.add(sheet_id)
+    cal_ids = {c["reduction_id"] for c in list_calibrations(conn, filters)}
+    calibrations = [
+        _build(CalibrationResult, json.loads(text)) for rid, text in conn.execute(
+            "SELECT reduction_id, json FROM results WHERE type = 'calibration' ORDER BY id")
+        if rid in cal_ids
+    ]
+    samples = [_build(SampleResult, s) for s in list_samples(conn, filters)]
+    traces = _thermograms(conn, infos, sheets) if thermograms else {}
+    return Reduction(
+        calibrations=tuple(calibrations), runs=tuple(records), samples=tuple(samples),
+        method=methods.pop() if len(methods) == 1 else "mixed" if methods else "newton-fit",
+        sheet_path=None, run_infos=tuple(infos), thermograms=traces,
+        warnings=(f"rebuilt from the lab book ({len(sheets)} sheet(s))",),
+    )
+
+
+def _thermograms(conn: sqlite3.Connection, infos: list[RunInfo],
+                 sheets: set[int]) -> dict[str, Any]:
+    """Thermograms read from the stored log bytes (skipped if the importer is missing)."""
+    try:
+        from calwork.io import load_run_log
+    except ImportError:
+        return {}
+    from dataclasses import replace
+
+    from calwork.labbook.reducing import materialised
+
+    out: dict[str, Any] = {}
+    by_sheet: dict[int, list[RunInfo]] = {}
+    for info in infos:
+        sheet_id = conn.execute("SELECT sheet_id FROM runs WHERE run = ?",
+                                (info.run,)).fetchone()[0]
+        by_sheet.setdefault(sheet_id, []).append(info)
+    for sheet_id, group in by_sheet.items():
+        with materialised(conn, sheet_id) as (sheet, original_dir):
+            for info in group:
+                if info.log_path is None:
+                    continue
+                try:
+                    rel = Path(info.log_path).relative_to(original_dir)
+                except ValueError:
+                    continue
+                with contextlib.suppress(CalworkError):  # a failed run may have a bad log
+                    out[info.run] = load_run_log(replace(info, log_path=sheet.parent / rel))
+    return out

@@ -1,0 +1,291 @@
+"""Sheets planned as grids of cells, then streamed into a write-only openpyxl workbook.
+
+A :class:`Grid` collects cells in any order (so a formula can point at a cell on a sheet
+planned later), then writes its rows in order with openpyxl's write-only mode, which keeps
+memory flat for large workbooks. Every formula cell's value (from :mod:`.formulas`) is kept and
+injected as the cell's cached result when the file is saved (:func:`save_workbook`), so
+programs that do not recalculate (previewers, ``openpyxl`` with ``data_only=True``) still show
+calwork's numbers; spreadsheet programs recalculate on load (``fullCalcOnLoad``).
+
+Text cells are always stored as strings — never as formulas, whatever they begin with — and
+formula-like text gets the quote-prefix style (see :mod:`.sanitise`).
+"""
+
+from __future__ import annotations
+
+import math
+import os
+import re
+import tempfile
+import zipfile
+from collections.abc import Callable, Mapping, Sequence
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+from openpyxl import Workbook
+from openpyxl.cell import WriteOnlyCell
+from openpyxl.styles import Alignment, Border, Font, PatternFill, Side
+from openpyxl.utils import get_column_letter
+from openpyxl.writer.excel import ExcelWriter
+
+from calwork.errors import ExportError
+from calwork.report.formulas import Expr, Ref
+from calwork.report.sanitise import cell_text, is_formula_like
+
+__all__ = ["Grid", "Text", "new_workbook", "save_workbook"]
+
+#: Plain numbers (inputs and fitted values) are dark blue, formulas black: the usual
+#: spreadsheet-modelling cue for "you may change this" versus "this is computed".
+INPUT_COLOUR = "1F3A93"
+_HEADER_FILL = PatternFill("solid", fgColor="D9D9D9")
+_HEADER_BORDER = Border(bottom=Side(style="thin", color="000000"))
+_MAX_WIDTH = 60.0
+
+
+@dataclass(frozen=True)
+class Text:
+    """Text for a cell (from calwork or from a sheet/log: treated alike, as data)."""
+
+    text: str
+
+
+@dataclass
+class _Entry:
+    content: Any
+    fmt: str | None
+    kind: str  # 'header', 'title', 'note', 'body'
+
+
+def _display_len(content: Any, fmt: str | None) -> int:
+    if isinstance(content, Text):
+        longest = max((len(p) for p in content.text.splitlines()), default=0)
+        return longest
+    value = content.value if isinstance(content, Expr) else content
+    if isinstance(value, (int, float)) and math.isfinite(value):
+        if fmt and "E" in fmt:
+            return 10
+        digits = fmt.split(".", 1)[1].count("0") if fmt and "." in fmt else 0
+        return len(f"{value:,.{digits}f}") + 1
+    return 4
+
+
+class Grid:
+    """One worksheet planned cell by cell.
+
+    Parameters
+    ----------
+    title
+        Worksheet title (already valid, see :func:`~calwork.report.sanitise.safe_sheet_title`).
+    """
+
+    def __init__(self, title: str) -> None:
+        self.title = title
+        self.cells: dict[tuple[int, int], _Entry] = {}
+        self.freeze: str | None = None
+        self.min_widths: dict[int, float] = {}
+        self.charts: list[tuple[Any, str]] = []
+
+    # --- planning ------------------------------------------------------------------------------
+    def put(self, row: int, col: int, content: Any, fmt: str | None = None,
+            kind: str = "body") -> Ref | None:
+        """Place ``content`` (number, :class:`Text`, str, Expr or None) at (``row``, ``col``).
+
+        Plain ``str`` is wrapped as :class:`Text`. Returns a :class:`Ref` to the cell when it
+        holds a number or a formula (for use in other formulas), else ``None``.
+        """
+        if isinstance(content, str):
+            content = Text(content)
+        elif isinstance(content, bool):
+            content = Text("yes" if content else "no")
+        elif content is not None and not isinstance(content, (Text, Expr, int, float)):
+            content = Text(str(content))
+        self.cells[(row, col)] = _Entry(content, fmt, kind)
+        if isinstance(content, Expr):
+            return Ref(self.title, row, col, content.value)
+        if isinstance(content, (int, float)) and math.isfinite(content):
+            return Ref(self.title, row, col, float(content))
+        return None
+
+    def header(self, row: int, labels: Sequence[str], col: int = 1) -> None:
+        """A header row (bold, shaded, wrapped)."""
+        for i, label in enumerate(labels):
+            self.put(row, col + i, Text(label), kind="header")
+
+    def ref(self, row: int, col: int) -> Ref:
+        """A reference to a numeric cell already placed."""
+        entry = self.cells[(row, col)]
+        value = entry.content.value if isinstance(entry.content, Expr) else entry.content
+        return Ref(self.title, row, col, float(value))
+
+    # --- writing -------------------------------------------------------------------------------
+    def _widths(self) -> dict[int, float]:
+        widths: dict[int, float] = dict(self.min_widths)
+        for (_, col), entry in self.cells.items():
+            if entry.kind == "header":
+                words = entry.content.text.split()
+                n = max(12, min(24, max((len(w) for w in words), default=8)))
+            elif entry.kind in ("title", "note"):
+                continue  # titles and notes may run over empty neighbours
+            else:
+                n = _display_len(entry.content, entry.fmt)
+            widths[col] = max(widths.get(col, 8.0), min(_MAX_WIDTH, n + 2.0))
+        return widths
+
+    def write(self, wb: Workbook, cached: dict[str, dict[str, float]]) -> None:
+        """Stream the grid into a new write-only sheet of ``wb``; record formula values."""
+        ws = wb.create_sheet(self.title)
+        for col, width in self._widths().items():
+            ws.column_dimensions[get_column_letter(col)].width = width
+        if self.freeze:
+            ws.freeze_panes = self.freeze
+        values = cached.setdefault(self.title, {})
+        styles = _Styles()
+        rows: dict[int, list[tuple[int, _Entry]]] = {}
+        for (r, c), entry in self.cells.items():
+            rows.setdefault(r, []).append((c, entry))
+        last = max(rows, default=0)
+        for r in range(1, last + 1):
+            line = sorted(rows.get(r, ()), key=lambda ce: ce[0])
+            out: list[Any] = []
+            for c, entry in line:
+                while len(out) < c - 1:
+                    out.append(None)
+                out.append(self._cell(ws, r, c, entry, styles, values))
+            ws.append(out)
+        for chart, anchor in self.charts:
+            ws.add_chart(chart, anchor)
+
+    def _cell(self, ws: Any, r: int, c: int, entry: _Entry, styles: _Styles,
+              values: dict[str, float]) -> WriteOnlyCell | None:
+        content = entry.content
+        if content is None:
+            return None
+        if isinstance(content, Text):
+            text = cell_text(content.text)
+            cell = WriteOnlyCell(ws, value=text)
+            cell.data_type = "s"  # never a formula, whatever the text begins with
+            if is_formula_like(text):
+                cell.quotePrefix = True
+            styles.apply(cell, entry.kind)
+            if "\n" in text:
+                cell.alignment = Alignment(wrap_text=True, vertical="top")
+            return cell
+        if isinstance(content, Expr):
+            cell = WriteOnlyCell(ws, value=content.formula(self.title))
+            if math.isfinite(content.value):
+                values[f"{get_column_letter(c)}{r}"] = content.value
+            styles.apply(cell, "formula")
+        else:
+            value = float(content)
+            cell = WriteOnlyCell(ws, value=value if math.isfinite(value) else None)
+            styles.apply(cell, "input")
+        if entry.fmt:
+            cell.number_format = entry.fmt
+        return cell
+
+
+class _Styles:
+    """Shared style objects (openpyxl de-duplicates them; creating few keeps it quick)."""
+
+    def __init__(self) -> None:
+        self.fonts = {
+            "header": Font(bold=True),
+            "title": Font(bold=True, size=13),
+            "note": Font(italic=True),
+            "input": Font(color=INPUT_COLOUR),
+        }
+        self.wrap = Alignment(wrap_text=True, vertical="top")
+
+    def apply(self, cell: WriteOnlyCell, kind: str) -> None:
+        font = self.fonts.get(kind)
+        if font is not None:
+            cell.font = font
+        if kind == "header":
+            cell.fill = _HEADER_FILL
+            cell.border = _HEADER_BORDER
+            cell.alignment = self.wrap
+
+
+def new_workbook() -> Workbook:
+    """An empty write-only workbook that recalculates its formulas when opened."""
+    wb = Workbook(write_only=True)
+    wb.calculation.fullCalcOnLoad = True
+    return wb
+
+
+_FORMULA_CELL = re.compile(rb'<c r="([A-Z]+[0-9]+)"([^>]*)><f>(.*?)</f><v\s*/>')
+
+
+def _inject(xml: bytes, values: Mapping[str, float]) -> bytes:
+    def repl(m: re.Match[bytes]) -> bytes:
+        value = values.get(m.group(1).decode())
+        if value is None:
+            return m.group(0)
+        return b'<c r="%s"%s><f>%s</f><v>%s</v>' % (
+            m.group(1), m.group(2), m.group(3), repr(float(value)).encode()
+        )
+
+    return _FORMULA_CELL.sub(repl, xml)
+
+
+_LARGE_PART = 1 << 18
+
+
+class _PatchingZip(zipfile.ZipFile):
+    """A zip archive that rewrites chosen worksheet parts as openpyxl stores them."""
+
+    def __init__(self, path: str, patches: Mapping[str, Callable[[bytes], bytes]]) -> None:
+        super().__init__(path, "w", zipfile.ZIP_DEFLATED, allowZip64=True)
+        self._patches = patches
+
+    def write(self, filename: Any, arcname: str | None = None, *args: Any, **kwargs: Any) -> None:
+        patch = self._patches.get(arcname or "")
+        if patch is None:
+            super().write(filename, arcname, *args, **kwargs)
+            return
+        data = patch(Path(filename).read_bytes())
+        # large parts are readings: the fastest deflate level costs ~12 % in size, saves 2/3
+        # of the compression time
+        self.writestr(arcname, data, compresslevel=1 if len(data) > _LARGE_PART else None)
+
+
+def save_workbook(wb: Workbook, path: str | Path, cached: Mapping[str, Mapping[str, float]],
+                  tails: Mapping[str, Callable[[bytes], bytes]] | None = None) -> Path:
+    """Save ``wb`` to ``path`` atomically, with cached formula results and streamed rows.
+
+    ``cached`` maps sheet title → {cell coordinate: value}; ``tails`` maps sheet title → a
+    function that adds rows to the sheet's XML (see
+    :class:`calwork.report.wb_readings.ReadingsTail`).
+    """
+    path = Path(path)
+    tails = tails or {}
+    patches: dict[str, Callable[[bytes], bytes]] = {}
+    for i, ws in enumerate(wb.worksheets, 1):
+        values, tail = cached.get(ws.title), tails.get(ws.title)
+        steps = [step for step in (
+            (lambda xml, v=values: _inject(xml, v)) if values else None, tail) if step]
+        if steps:
+            patches[f"xl/worksheets/sheet{i}.xml"] = _chain(steps)
+    try:
+        path.parent.mkdir(parents=True, exist_ok=True)
+        fd, tmp = tempfile.mkstemp(prefix=".calwork-", suffix=".xlsx", dir=path.parent)
+        os.close(fd)
+        try:
+            ExcelWriter(wb, _PatchingZip(tmp, patches)).save()
+            os.replace(tmp, path)
+        finally:
+            if os.path.exists(tmp):
+                os.unlink(tmp)
+    except OSError as exc:
+        raise ExportError(f"cannot write the workbook ({exc.strerror or exc})", path=path) from None
+    return path
+
+
+def _chain(steps: list[Callable[[bytes], bytes]]) -> Callable[[bytes], bytes]:
+    def run(xml: bytes) -> bytes:
+        for step in steps:
+            xml = step(xml)
+        return xml
+
+    return run

@@ -1,0 +1,38 @@
+"""Fixed wording shared by the workbook and the reports (safety note, labels)."""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from typing import Any
+
+__all__ = ["SAFETY_NOTE", "SIMULATED_NOTE", "is_simulated", "simulated_runs"]
+
+#: The safety note every report and workbook carries.
+SAFETY_NOTE = (
+    "Safety: oxygen bombs are pressure vessels, charged with oxygen to about 3 MPa; the "
+    "combustion leaves nitric (and sulfuric) acid in the bomb; calibration heaters and "
+    "ignition circuits are electrical equipment. Follow the manufacturer's instructions for "
+    "the bomb, the calorimeter and the heaters, the pressure-vessel, electrical and chemical "
+    "safety codes that apply where you work, and your laboratory's licensed practice "
+    "(pressure ratings, periodic testing, shields, eye protection). calwork computes results "
+    "from data; it does not make a procedure safe."
+)
+
+#: Label for anything that comes from simulated (invented) data.
+SIMULATED_NOTE = (
+    "SIMULATED DATA: some or all of these logs were made by calwork's simulator "
+    "(invented data, not measurements)."
+)
+
+
+def is_simulated(thermogram: Any) -> bool:
+    """True when a thermogram's metadata says it is simulated (``simulated: true``)."""
+    meta: Mapping[str, str] = getattr(thermogram, "metadata", {}) or {}
+    return str(meta.get("simulated", "")).strip().lower() in ("true", "yes", "1")
+
+
+def simulated_runs(reduction: Any) -> list[str]:
+    """Run ids whose thermogram is simulated, in the reduction's order."""
+    thermograms = reduction.thermograms
+    return [r.run for r in reduction.runs
+            if r.run in thermograms and is_simulated(thermograms[r.run])]

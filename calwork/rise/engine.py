@@ -1,0 +1,223 @@
+"""``corrected_rise``: periods → method → uncertainty → diagnostics → :class:`RiseResult`."""
+
+from __future__ import annotations
+
+import math
+from dataclasses import replace
+from functools import cache
+
+import numpy as np
+
+from calwork.errors import CalworkError, check_choice
+from calwork.provenance import Provenance, calwork_version
+from calwork.rise.diagnostics import format_times, sampling_gaps, warning
+from calwork.rise.dickinson import DICKINSON_RULES
+from calwork.rise.methods import METHODS, reduce_dickinson, reduce_regnault_pfaundler
+from calwork.rise.periods import Periods, detect_periods
+from calwork.rise.result import RiseResult
+from calwork.rise.selection import MethodOutput, Selection, select
+from calwork.rise.uncertainty import combine
+from calwork.thermogram import Thermogram
+
+__all__ = ["corrected_rise"]
+
+#: Band around the jacket temperature inside which T_∞ is plausible, K: T_∞ − T_j = u/k is the
+#: stirring and thermometer heat over the conductance, normally well below 1 K (common practice).
+JACKET_BAND_K = 1.0
+#: Durbin–Watson below this flags serially correlated drift residuals (ρ₁ ≳ 0.25).
+DW_LIMIT = 1.5
+#: Relative noise (σ/|ΔT_c|) above which the noise level is flagged.
+NOISE_RELATIVE_LIMIT = 1e-3
+
+
+#: Readings by which the after period is shortened to measure the boundary-choice spread.
+BOUNDARY_SHIFT_READINGS = 16
+
+
+@cache
+def _version() -> str:
+    return calwork_version()
+
+
+def _apply_overrides(thermogram: Thermogram, periods: Periods | None, fire_time_s,
+                     main_end_s) -> Periods:
+    if periods is None:
+        return detect_periods(thermogram, fire_time_s=fire_time_s, main_end_s=main_end_s)
+    if not isinstance(periods, Periods):
+        raise CalworkError("periods must be a calwork.rise.Periods record",
+                           found=type(periods).__name__)
+    changes = {}
+    if fire_time_s is not None:
+        changes["fire_time_s"] = float(fire_time_s)
+        changes["fire_source"] = "given"
+    if main_end_s is not None:
+        changes["main_end_s"] = float(main_end_s)
+        changes["main_end_source"] = "given"
+        changes["after_period_s"] = (float(main_end_s), periods.after_period_s[1])
+    return replace(periods, **changes) if changes else periods
+
+
+def _boundary_component(thermogram: Thermogram, sel: Selection, out: MethodOutput,
+                        periods: Periods, reduce) -> float | None:
+    """Spread of ΔT_c over plausible boundaries when they were detected automatically.
+
+    End of the main period: the method is repeated with the after period starting
+    :data:`BOUNDARY_SHIFT_READINGS` readings later (at most a quarter of it); a transient not
+    yet died out at ``t_f`` sits in exactly those readings, while the noise of the two nested
+    estimates mostly cancels. Start: the rise re-evaluated with ``t_i`` one reading earlier.
+    """
+    parts = []
+    if periods.main_end_source == "detected":
+        after_t = sel.t[sel.after]
+        shift = min(BOUNDARY_SHIFT_READINGS, after_t.size // 4)
+        if shift >= 1:
+            t_alt = float(after_t[shift])
+            alt = replace(periods, main_end_s=t_alt,
+                          after_period_s=(t_alt, periods.after_period_s[1]))
+            try:
+                parts.append(abs(reduce(select(thermogram, alt)).rise_K - out.rise_K))
+            except CalworkError:
+                pass
+    if periods.fire_source != "given":
+        earlier = sel.previous_reading_s(1)
+        if earlier < sel.t_i and earlier > periods.fore_period_s[0]:
+            try:
+                parts.append(abs(out.rise_at(earlier, sel.t_f) - out.rise_K))
+            except (ValueError, CalworkError):
+                pass
+    if not parts:
+        return None
+    return math.sqrt(sum(p * p for p in parts))
+
+
+def _diagnostics(thermogram: Thermogram, sel: Selection, out: MethodOutput,
+                 u_rise: float, method: str) -> tuple[list[str], dict[str, float]]:
+    warns: list[str] = []
+    cross: dict[str, float] = {}
+    gaps = sampling_gaps(sel.t)
+    if gaps:
+        text = ", ".join(f"{a:.6g}–{b:.6g} s" for a, b in gaps[:5])
+        warns.append(warning("sampling-gap", f"{len(gaps)} gap(s) in the sampling: {text}"))
+    if out.k_per_s <= 0:
+        warns.append(warning("drift-implausible", f"k = {out.k_per_s:.3g} 1/s is not positive "
+                             "(the drift periods do not show Newtonian exchange with a jacket)"))
+    jacket = thermogram.channels.get("jacket_K")
+    if jacket is not None and math.isfinite(out.T_inf_K):
+        T_j = float(np.mean(jacket))
+        band = max(JACKET_BAND_K, 3.0 * out.u_T_inf_K if math.isfinite(out.u_T_inf_K) else 0.0)
+        if abs(out.T_inf_K - T_j) > band:
+            warns.append(warning("drift-implausible", f"T_inf = {out.T_inf_K:.4f} K is "
+                                 f"{out.T_inf_K - T_j:+.3g} K from the jacket ({T_j:.4f} K)"))
+    if out.durbin_watson < DW_LIMIT:
+        warns.append(warning("autocorrelated-residuals", f"Durbin–Watson {out.durbin_watson:.2f}"
+                             f" (lag-1 ρ = {out.rho1:.2f}); fit covariance inflated "
+                             f"×{(1 + max(out.rho1, 0)) / (1 - min(max(out.rho1, 0), 0.95)):.2f}"))
+    rise = out.rise_K
+    if rise != 0 and out.sigma_K / abs(rise) > NOISE_RELATIVE_LIMIT:
+        warns.append(warning("noise-high", f"reading noise {out.sigma_K * 1e3:.3g} mK is "
+                             f"{out.sigma_K / abs(rise):.2g} of the rise"))
+    if method == "newton-fit":
+        try:
+            rp = reduce_regnault_pfaundler(sel)
+        except CalworkError:
+            rp = None
+        if rp is not None:
+            cross["regnault-pfaundler"] = rp.rise_K
+            u_rp = math.sqrt(sum(v * v for v in rp.budget.values()))
+            lim = 2.0 * math.hypot(u_rise, u_rp)
+            if abs(rp.rise_K - rise) > lim:
+                warns.append(warning("methods-disagree", f"newton-fit {rise:.6f} K and "
+                                     f"Regnault–Pfaundler {rp.rise_K:.6f} K differ by "
+                                     f"{(rp.rise_K - rise) * 1e6:+.3g} µK (> {lim * 1e6:.3g} µK,"
+                                     " twice the combined uncertainty)"))
+    return warns, cross
+
+
+def corrected_rise(thermogram: Thermogram, method: str = "newton-fit",
+                   periods: Periods | None = None, *, fire_time_s: float | None = None,
+                   main_end_s: float | None = None, dickinson_rule: str = "equal-area",
+                   ) -> RiseResult:
+    """The corrected (adiabatic) temperature rise of a thermogram.
+
+    Parameters
+    ----------
+    thermogram
+        The temperature record (:class:`~calwork.thermogram.Thermogram`).
+    method
+        ``'newton-fit'`` (joint Newtonian fit, default), ``'regnault-pfaundler'`` or
+        ``'dickinson'`` (see :data:`calwork.rise.METHODS`).
+    periods
+        Explicit :class:`~calwork.rise.Periods`; detected with :func:`detect_periods` if
+        ``None``.
+    fire_time_s
+        Known start of the main period, s (overrides detection or ``periods``).
+    main_end_s
+        Known end of the main period, s (overrides detection or ``periods``).
+    dickinson_rule
+        For ``method='dickinson'``: ``'equal-area'`` (exact ``t_x`` (1.7), default) or
+        ``'60-percent'`` (the fuel standards' shortcut (1.8); for routine fuel work only).
+
+    Returns
+    -------
+    RiseResult
+        ``corrected_rise_K`` with its standard uncertainty, the fitted drift model, periods
+        and machine-readable warnings.
+
+    Raises
+    ------
+    ChoiceError
+        Unknown ``method`` or ``dickinson_rule`` (the message lists the valid ones).
+    PeriodDetectionError
+        No event, or too short fore/after periods.
+    UncertaintyError
+        The uncertainty cannot be propagated (never reported as zero instead).
+
+    Examples
+    --------
+    >>> from calwork.simulate import CalorimeterParams, CombustionPulse, simulate_run
+    >>> run = simulate_run(CalorimeterParams.bomb_preset(bomb_water_conductance_W_per_K=None),
+    ...                    CombustionPulse(energy_J=26434.0, fire_time_s=600.0),
+    ...                    duration_s=2400.0, seed=1)
+    >>> res = corrected_rise(run.thermogram)
+    >>> abs(res.corrected_rise_K / run.truth.adiabatic_rise_K - 1) < 1e-4
+    True
+    """
+    check_choice("method", method, METHODS)
+    check_choice("dickinson_rule", dickinson_rule, DICKINSON_RULES)
+    periods = _apply_overrides(thermogram, periods, fire_time_s, main_end_s)
+    sel = select(thermogram, periods)
+    if method == "dickinson":
+        def reduce(s: Selection) -> MethodOutput:
+            return reduce_dickinson(s, dickinson_rule)
+    else:
+        reduce = METHODS[method]
+    out = reduce(sel)
+    budget = dict(out.budget)
+    boundary = _boundary_component(thermogram, sel, out, periods, reduce)
+    if boundary is not None:
+        budget["boundary"] = boundary
+    try:
+        u = combine(budget)
+    except CalworkError as exc:
+        raise exc.with_context(path=thermogram.provenance.source_path) from None
+    warns, cross = _diagnostics(thermogram, sel, out, u, method)
+    all_warnings = [*periods.warnings, *out.warnings, *warns]
+    if periods.spikes_s and not any(w.startswith("spikes-removed") for w in all_warnings):
+        all_warnings.append(warning("spikes-removed", f"{len(periods.spikes_s)} reading(s) "
+                                    f"left out at t = {format_times(periods.spikes_s)}"))
+    return RiseResult(
+        corrected_rise_K=out.rise_K, u_corrected_rise_K=u, method=method, periods=periods,
+        fire_time_s=periods.fire_time_s, main_end_s=periods.main_end_s,
+        fore_period_s=periods.fore_period_s, after_period_s=periods.after_period_s,
+        k_per_s=out.k_per_s, u_k_per_s=out.u_k_per_s, T_inf_K=out.T_inf_K,
+        u_T_inf_K=out.u_T_inf_K, T_initial_K=out.T_initial_K, T_final_K=out.T_final_K,
+        exchange_correction_K=out.exchange_K, fore_drift=out.fore_drift,
+        after_drift=out.after_drift, t_x_s=out.t_x_s,
+        dickinson_rule=dickinson_rule if method == "dickinson" else None,
+        noise_K=out.sigma_K, durbin_watson=out.durbin_watson, rho1=out.rho1,
+        uncertainty_budget=budget, cross_check=cross, warnings=tuple(all_warnings),
+        provenance=Provenance(method=method if method != "dickinson" else
+                              f"dickinson ({dickinson_rule})",
+                              importer="calwork.rise.corrected_rise",
+                              parents=(thermogram.provenance,), calwork_version=_version()),
+    )

@@ -1,0 +1,121 @@
+"""``plot_rise``: readings, periods, drift model, corrected rise and residuals.
+
+Readable in greyscale and for colour-blind readers: the Okabe–Ito palette (a colour-blind-safe
+set, common practice), distinct line styles and markers, and hatching as well as tint for the
+periods.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from calwork.errors import ExportError
+from calwork.rise.result import RiseResult
+from calwork.thermogram import Thermogram
+
+__all__ = ["plot_rise"]
+
+#: Okabe–Ito colours (Okabe & Ito 2008, "Color Universal Design").
+_BLACK, _ORANGE, _SKY, _GREEN, _BLUE, _VERMILION = (
+    "#000000", "#E69F00", "#56B4E9", "#009E73", "#0072B2", "#D55E00")
+
+
+def plot_rise(thermogram: Thermogram, result: RiseResult, path_or_ax: Any) -> Any:
+    """Draw a thermogram with its periods, drift model and corrected rise.
+
+    Parameters
+    ----------
+    thermogram
+        The record the result was computed from.
+    result
+        Its :class:`~calwork.rise.result.RiseResult`.
+    path_or_ax
+        A file name (``.png``, ``.pdf``, ``.svg``; the figure is written and closed) or a
+        matplotlib ``Axes`` to draw the thermogram panel into (no residual panel then).
+
+    Returns
+    -------
+    pathlib.Path or matplotlib.axes.Axes
+        The file written, or the axes drawn into.
+
+    Raises
+    ------
+    ExportError
+        The file cannot be written.
+    """
+    import matplotlib
+
+    if isinstance(path_or_ax, (str, Path)):
+        matplotlib.use("Agg", force=False)
+        from matplotlib.figure import Figure
+
+        fig = Figure(figsize=(8.0, 6.0), layout="constrained")
+        ax, axr = fig.subplots(2, 1, sharex=True, height_ratios=(3, 1))
+        _draw(thermogram, result, ax, axr)
+        path = Path(path_or_ax)
+        try:
+            fig.savefig(path, dpi=120)
+        except (OSError, ValueError) as exc:
+            raise ExportError(f"cannot write the plot: {exc}", path=path) from None
+        return path
+    _draw(thermogram, result, path_or_ax, None)
+    return path_or_ax
+
+
+def _draw(th: Thermogram, res: RiseResult, ax, axr) -> None:
+    t = th.time_s
+    T = th.temperature_K
+    t0 = float(t[0])
+    x = (t - t0) / 60.0
+
+    def xm(v: float) -> float:
+        return (v - t0) / 60.0
+
+    spikes = np.isin(t, np.asarray(res.periods.spikes_s))
+    for (a, b), label, colour, hatch in (
+        (res.fore_period_s, "fore period", _SKY, "//"),
+        ((res.fire_time_s, res.main_end_s), "main period", _ORANGE, ".."),
+        (res.after_period_s, "after period", _GREEN, "\\\\"),
+    ):
+        ax.axvspan(xm(a), xm(b), facecolor=colour, alpha=0.18, hatch=hatch, edgecolor=colour,
+                   linewidth=0.0, label=label)
+    ax.plot(x[~spikes], T[~spikes], linestyle="none", marker="o", markersize=2.5,
+            color=_BLACK, label="readings")
+    if spikes.any():
+        ax.plot(x[spikes], T[spikes], linestyle="none", marker="x", markersize=7,
+                color=_VERMILION, label="spikes (left out)")
+    tt = np.linspace(res.fore_period_s[0], res.main_end_s, 200)
+    ta = np.linspace(res.fire_time_s, res.after_period_s[1], 200)
+    ax.plot(xm(tt), res.fore_curve(tt), linestyle="--", color=_BLUE, linewidth=1.4,
+            label="fore drift (extended)")
+    ax.plot(xm(ta), res.after_curve(ta), linestyle="-.", color=_VERMILION, linewidth=1.4,
+            label="after drift (extended)")
+    if res.t_x_s is not None:
+        lo, hi = res.fore_curve(res.t_x_s), res.after_curve(res.t_x_s)
+        ax.plot([xm(res.t_x_s)] * 2, [lo, hi], color=_BLACK, linewidth=2.5, linestyle="-",
+                marker="_", markersize=12,
+                label=f"ΔT_c = {res.corrected_rise_K:.5f} K at t_x")
+    rule = f", {res.dickinson_rule}" if res.dickinson_rule else ""
+    ax.set_title(f"Corrected temperature rise ({res.method}{rule}): "
+                 f"{res.corrected_rise_K:.6f} ± {res.u_corrected_rise_K:.2g} K (u)")
+    ax.set_ylabel("temperature / K")
+    ax.legend(loc="best", fontsize=7, framealpha=0.85)
+    ax.grid(True, linewidth=0.3, color="0.8")
+    if axr is None:
+        ax.set_xlabel("time / min")
+        return
+    keep = ~spikes
+    fore = keep & (t >= res.fore_period_s[0]) & (t <= res.fore_period_s[1])
+    after = keep & (t >= res.after_period_s[0]) & (t <= res.after_period_s[1])
+    axr.axhline(0.0, color="0.5", linewidth=0.8)
+    axr.plot(x[fore], (T[fore] - res.fore_curve(t[fore])) * 1e3, linestyle="none",
+             marker="o", markersize=2.5, color=_BLUE, label="fore residuals")
+    axr.plot(x[after], (T[after] - res.after_curve(t[after])) * 1e3, linestyle="none",
+             marker="^", markersize=2.5, color=_VERMILION, label="after residuals")
+    axr.set_ylabel("residual / mK")
+    axr.set_xlabel("time / min")
+    axr.legend(loc="best", fontsize=7)
+    axr.grid(True, linewidth=0.3, color="0.8")

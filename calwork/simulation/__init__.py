@@ -1,0 +1,1 @@
+"""Calorimeter simulator internals; import the public names from :mod:`calwork.simulate`."""

@@ -1,0 +1,141 @@
+"""Benchmark of the Hess network solver on synthetic networks.
+
+    python tests/benchmarks/bench_network.py [--quick]
+
+A synthetic network of N species C_xH_yO_z(g,sK) (distinct labelled states) and M random
+balanced reactions among 2–3 of them (closed with C(cr,graphite), H2(g), O2(g)), plus
+priors on 10 % of the species, with enthalpies from known Δ_fH plus noise of the stated u.
+Reported: seconds (solve incl. assembly, diagnostics and the covariance of 100 selected
+species) and peak memory (tracemalloc, a separate run), for the sparse solver at
+5 000 species / 20 000 determinations, a dense (SVD) vs sparse comparison at a size where
+dense fits, and scaling with the number of determinations. Synthetic data, not measurements.
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import sys
+import time
+import tracemalloc
+from fractions import Fraction
+from pathlib import Path
+
+# one core, as the goal states (and no thread oversubscription on a shared machine)
+for _var in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
+    os.environ.setdefault(_var, "1")
+
+import numpy as np  # noqa: E402
+
+sys.path.insert(0, str(Path(__file__).resolve().parents[2]))
+
+from calwork.hess.network import Network, solve_network  # noqa: E402
+from calwork.hess.reactions import Reaction  # noqa: E402
+from calwork.hess.species import Species  # noqa: E402
+
+_REF = {"C": ("C(cr,graphite)", Fraction(1)), "H": ("H2(g)", Fraction(1, 2)),
+        "O": ("O2(g)", Fraction(1, 2))}
+
+
+def synthetic_network(n_species: int, n_reactions: int, seed: int = 1
+                      ) -> tuple[Network, dict[Species, float]]:
+    """A random, balanced, fully determined network with known Δ_fH (kJ/mol)."""
+    rng = np.random.default_rng(seed)
+    refs = {el: Species(name=name, formula=name.split("(")[0], charge=0,
+                        state=name.split("(")[1][:-1],
+                        elements={el: 1 / per}) for el, (name, per) in _REF.items()}
+    species = []
+    for k in range(n_species):
+        c, h, o = int(rng.integers(1, 9)), int(rng.integers(0, 19)), int(rng.integers(0, 5))
+        formula = f"C{c}H{h}O{o}"
+        elements = {"C": Fraction(c), "H": Fraction(h), "O": Fraction(o)}
+        species.append(Species(name=f"{formula}(g,s{k})", formula=formula, charge=0,
+                               state=f"g,s{k}", elements={e: n for e, n in elements.items()
+                                                           if n}))
+    truth = {sp: float(rng.normal(-200, 150)) for sp in species}
+
+    def close(stoich: dict[Species, Fraction]) -> dict[Species, Fraction]:
+        totals = {"C": Fraction(0), "H": Fraction(0), "O": Fraction(0)}
+        for sp, coef in stoich.items():
+            for el, n in sp.elements.items():
+                totals[el] += coef * n
+        out = dict(stoich)
+        for el, total in totals.items():
+            if total:
+                out[refs[el]] = -total * _REF[el][1]
+        return out
+
+    rows = []
+    for j in range(n_reactions):
+        k = int(rng.integers(2, 4))
+        picks = rng.choice(n_species, size=k, replace=False)
+        coefs = rng.choice([-2, -1, 1, 2], size=k)
+        stoich = close({species[p]: Fraction(int(c)) for p, c in zip(picks, coefs, strict=True)})
+        u = float(rng.uniform(0.2, 3.0))
+        dh = sum(float(c) * truth.get(sp, 0.0) for sp, c in stoich.items())
+        rows.append(Reaction(stoichiometry=stoich, delta_r_H_kJ_per_mol=dh + rng.normal(0, u),
+                             u_delta_r_H_kJ_per_mol=u, id=f"r{j}"))
+    priors = []
+    for p in rng.choice(n_species, size=max(1, n_species // 10), replace=False):
+        sp = species[p]
+        priors.append(Reaction(stoichiometry={sp: Fraction(1)},
+                               delta_r_H_kJ_per_mol=truth[sp] + rng.normal(0, 1.0),
+                               u_delta_r_H_kJ_per_mol=1.0, id=f"p{p}"))
+    return Network(determinations=tuple(rows), priors=tuple(priors)), truth
+
+
+def run(network: Network, method: str, wanted: list[Species]) -> tuple[float, float, object]:
+    t0 = time.perf_counter()
+    res = solve_network(network, key_values=False, worst_offender="none", method=method,
+                        covariance_species=wanted)
+    seconds = time.perf_counter() - t0
+    tracemalloc.start()
+    solve_network(network, key_values=False, worst_offender="none", method=method,
+                  covariance_species=wanted)
+    _, peak = tracemalloc.get_traced_memory()
+    tracemalloc.stop()
+    return seconds, peak / 2**20, res
+
+
+def main(argv: list[str] | None = None) -> int:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--quick", action="store_true", help="small sizes (a smoke run)")
+    args = parser.parse_args(argv)
+    big = (1000, 4000) if args.quick else (5000, 20000)
+    cmp_size = (300, 1200) if args.quick else (1000, 4000)
+    print("calwork network solver benchmark (synthetic data)")
+
+    net, truth = synthetic_network(*big)
+    wanted = list(truth)[:100]
+    secs, mem, res = run(net, "sparse", wanted)
+    err = max(abs(res.values[sp.name] - truth[sp]) / res.uncertainties[sp.name]
+              for sp in wanted)
+    print(f"sparse  {big[0]:>6} species {big[1]:>6} determinations: {secs:7.2f} s, "
+          f"peak {mem:8.1f} MiB, χ²/ν = {res.chi2 / res.dof:.3f}, undetermined "
+          f"{len(res.undetermined)}, max |error|/u of 100 species = {err:.2f}")
+
+    net_c, truth_c = synthetic_network(*cmp_size, seed=2)
+    wanted_c = list(truth_c)[:100]
+    s_sec, s_mem, s_res = run(net_c, "sparse", wanted_c)
+    d_sec, d_mem, d_res = run(net_c, "dense", wanted_c)
+    diff = max(abs(s_res.values[n] - d_res.values[n]) for n in s_res.species
+               if d_res.values[n] is not None)
+    print(f"compare {cmp_size[0]:>6} species {cmp_size[1]:>6} determinations: dense "
+          f"{d_sec:.2f} s / {d_mem:.1f} MiB, sparse {s_sec:.2f} s / {s_mem:.1f} MiB; ratio "
+          f"dense/sparse time {d_sec / s_sec:.1f}, memory {d_mem / s_mem:.1f}; "
+          f"max |Δ value| {diff:.1e} kJ/mol")
+
+    print("scaling (species = determinations / 4), sparse:")
+    base = None
+    sizes = (1000, 2000, 4000) if args.quick else (5000, 10000, 20000)
+    for m in sizes:
+        net_s, truth_s = synthetic_network(m // 4, m, seed=3)
+        secs, mem, _ = run(net_s, "sparse", list(truth_s)[:100])
+        base = base or secs / m
+        print(f"  {m:>6} determinations: {secs:6.2f} s ({secs / m / base:4.2f} × linear), "
+              f"peak {mem:7.1f} MiB")
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
