@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import hashlib
+from functools import cache
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -10,6 +11,7 @@ from typing import Any
 __all__ = ["Provenance", "calwork_version", "sha256_bytes", "sha256_file"]
 
 
+@cache
 def calwork_version() -> str:
     """The installed calwork version (from the package metadata)."""
     from importlib.metadata import PackageNotFoundError, version
@@ -45,7 +47,7 @@ class Provenance:
     sha256
         Hex SHA-256 of the file's bytes.
     importer
-        Name of the importer or producer (e.g. ``'calwork.io.logs.read_log'``).
+        Name of the importer or producer (e.g. ``'calwork.io.read_log'``).
     first_row, last_row
         1-based line (or spreadsheet row) numbers of the first and last data rows.
     method

@@ -28,7 +28,7 @@ from typing import Any
 from calwork.bomb.calibration import DEFAULT_RSD_LIMIT_PERCENT
 from calwork.bomb.chain import reduce_calibration_run, reduce_combustion_run, run_error
 from calwork.bomb.series import calibration_series, formation_enthalpies, sample_series
-from calwork.errors import CalworkError, RunError
+from calwork.errors import CalworkError, DuplicateRunError, RunError
 from calwork.provenance import Provenance
 from calwork.results import CalibrationResult, Reduction, RunResult, SampleResult
 from calwork.runinfo import RunInfo
@@ -134,6 +134,12 @@ def reduce_runs(
     from calwork.errors import check_choice
 
     check_choice("method", method, _methods())
+    seen: set[str] = set()
+    for r in runs:
+        if r.run in seen:
+            raise DuplicateRunError("run id used twice", run=r.run, column="run",
+                                    found=r.run, expected="unique run ids")
+        seen.add(r.run)
     rows = [r if r.calorimeter else replace(r, calorimeter=_DEFAULT_CALORIMETER) for r in runs]
     warnings: list[str] = []
     unnamed = [r.run for r in runs if not r.calorimeter]

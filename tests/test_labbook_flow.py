@@ -160,6 +160,12 @@ def test_list_with_filters(shared_book, capsys):
     window = _json(capsys, "labbook", "list", "--labbook", shared_book,
                    "--since", dates[1], "--until", dates[3])
     assert [r["date"] for r in window["runs"]] == dates[1:4]
+    one = _json(capsys, "labbook", "list", "--labbook", shared_book, "--sample", "benzoic acid")
+    assert [r["run"] for r in one["runs"]] == ["cal-01", "cal-02", "cal-03"]
+    assert one["samples"] == []
+    code, _, err = run_cli(capsys, "labbook", "list", "--labbook", shared_book, "--kind", "x")
+    assert code == 2
+    assert "kind must be one of" in err
     none = _json(capsys, "labbook", "list", "--labbook", shared_book, "--calorimeter", "nope")
     assert none["runs"] == []
     assert none["calibrations"] == []
@@ -419,3 +425,23 @@ def test_labbook_help_lists_subcommands(capsys):
                  "export-raw", "export", "backup"):
         assert name in out
     assert run_cli(capsys, "labbook")[0] == 2
+
+
+def test_toml_sheet_round_trip_and_parallel_recompute(bomb_dir, tmp_path, capsys):
+    from calwork.io import read_run_sheet, write_run_sheet
+
+    data = _copy(bomb_dir, tmp_path / "data")
+    rows = [{k: v for k, v in info.given().items()} for info in read_run_sheet(data / "runs.csv")]
+    write_run_sheet(rows, data / "runs.toml")
+    book = tmp_path / "book.sqlite"
+    code, out, err = run_cli(capsys, "labbook", "add", data / "runs.toml", "--labbook", book)
+    assert code == 0, err
+    assert "recorded sheet #1 runs.toml: 6 runs" in out
+    shutil.rmtree(data)
+    assert run_cli(capsys, "labbook", "void", "sample-03", "--reason", "leak", "--labbook",
+                   book)[0] == 0  # a second reduction (version 2), from the stored bytes
+    one = _json(capsys, "labbook", "recompute", "--labbook", book)
+    assert one["reductions"] == 2
+    two = _json(capsys, "labbook", "recompute", "--labbook", book, "--jobs", "2")
+    assert one["agree"]
+    assert one == two

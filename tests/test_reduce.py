@@ -257,11 +257,14 @@ def test_cli_json_and_outputs(dataset, tmp_path, capsys):
 
 def test_cli_out_writes_plots(reduction, tmp_path):
     pytest.importorskip("calwork.rise.plot")
+    from dataclasses import replace
+
     from calwork.cli.reduce import write_outputs
 
-    files = write_outputs(reduction, tmp_path, plots=True)
+    three = replace(reduction, runs=reduction.runs[4:7])   # plots are slow: three runs
+    files = write_outputs(three, tmp_path, plots=True)
     pngs = [f for f in files if f.suffix == ".png"]
-    assert len(pngs) == 11
+    assert sorted(f.stem for f in pngs) == ["cal4", "cal5", "s0"]
     assert all(f.stat().st_size > 1000 for f in pngs)
 
 

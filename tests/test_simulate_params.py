@@ -82,6 +82,8 @@ def test_adiabatic_params_have_no_convergence_temperature():
         ("jacket_temperature_K", 0.0),
         ("stirring_power_W", -0.01),
         ("thermometer_lag_s", -1.0),
+        ("thermometer_lag_s", 5e-324),   # 1/τ overflows: rejected, not NaN readings
+        ("bomb_water_conductance_W_per_K", 1e300),
         ("sampling_interval_s", 0.0),
         ("noise_K", -1e-4),
         ("quantisation_K", -1e-5),

@@ -69,9 +69,11 @@ def test_dissolution_end_to_end_within_0_1_percent():
         assert r.details["calibration_basis"] == "mean"
         # the reported uncertainty covers the actual error
         assert abs(r.molar_enthalpy_kJ_per_mol - truth[r.run]) < 3 * r.u_molar_enthalpy_kJ_per_mol
-        assert len(r.rise) == 3 and r.details["reaction_event_index"] == 1
+        assert len(r.rise) == 3
+        assert r.details["reaction_event_index"] == 1
     (s,) = samples
-    assert s.n_runs == 3 and s.kind == "solution"
+    assert s.n_runs == 3
+    assert s.kind == "solution"
     assert s.molar_enthalpy_kJ_per_mol == pytest.approx(sum(truth.values()) / 3, rel=1e-3)
 
 
@@ -138,9 +140,10 @@ def test_electrical_series_with_standard_resistor_serves_runs_without_calibratio
                              standard_resistor_ohm=10.0))
     logs["D1"] = _log(-30.0, seed=210, heaters=(False, False))
     infos.append(_info("D1", amount_mol=0.0015, sample="no-cal"))
-    runs, (cal,), (s,) = reduce_solution_runs(infos, thermograms=logs)
+    runs, (cal,), (_s,) = reduce_solution_runs(infos, thermograms=logs)
     assert [r.error for r in runs] == [None] * 4
-    assert cal.n_runs == 3 and cal.method == "electrical"
+    assert cal.n_runs == 3
+    assert cal.method == "electrical"
     assert cal.energy_equivalent_J_per_K == pytest.approx(EPS, rel=5e-4)
     assert cal.u_energy_equivalent_J_per_K > 0
     d = runs[-1]
@@ -151,7 +154,8 @@ def test_electrical_series_with_standard_resistor_serves_runs_without_calibratio
     # missing R_s: the electrical run fails naming the column; the others still reduce
     bad = [replace(infos[0], standard_resistor_ohm=None), *infos[1:]]
     runs, (cal,), _ = reduce_solution_runs(bad, thermograms=logs)
-    assert runs[0].error is not None and "standard_resistor_ohm" in runs[0].error
+    assert runs[0].error is not None
+    assert "standard_resistor_ohm" in runs[0].error
     assert "'E0'" in runs[0].error
     assert cal.n_runs == 2
 
@@ -167,11 +171,13 @@ def test_sheet_heater_power_and_times_without_channels():
     assert r.error is None, r.error
     assert r.heater_energy_J == pytest.approx(15.0)
     assert r.energy_equivalent_J_per_K == pytest.approx(EPS, rel=5e-4)
-    assert cal.n_runs == 1 and cal.warnings
+    assert cal.n_runs == 1
+    assert cal.warnings
     # heater power given without the on/off times -> error naming the column
     (r,), cals, _ = reduce_solution_runs([replace(info, heater_on_s=None, heater_off_s=None)],
                                          thermograms={"E1": bare})
-    assert "heater_on_s" in r.error and cals == []
+    assert "heater_on_s" in r.error
+    assert cals == []
     # an electrical run with no heater data at all
     (r,), _, _ = reduce_solution_runs([replace(info, heater_power_W=None, heater_on_s=None,
                                                heater_off_s=None)], thermograms={"E1": bare})
@@ -191,12 +197,14 @@ def test_failing_runs_are_returned_with_their_error():
             "D": LogFormatError("no temperature column", path="d.csv", line=3)}
     runs, _, samples = reduce_solution_runs(infos, thermograms=logs)
     assert [r.run for r in runs] == ["A", "B", "C", "D", "E"]
-    assert "amount_mol" in runs[0].error and "'A'" in runs[0].error
+    assert "amount_mol" in runs[0].error
+    assert "'A'" in runs[0].error
     assert "formula" in runs[1].error
     assert "kind" in runs[2].error
     assert "d.csv:3" in runs[3].error
     assert runs[4].error is None
-    assert samples[0].n_runs == 1 and samples[0].runs == ("E",)
+    assert samples[0].n_runs == 1
+    assert samples[0].runs == ("E",)
 
 
 def test_simulated_day_kcl_series_blanks_and_infinite_dilution(tmp_path):

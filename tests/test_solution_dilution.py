@@ -137,7 +137,8 @@ def test_series_fit_recovers_a_known_intercept_and_slope():
     u = np.full(m.size, 0.01)
     exact = extrapolate_to_infinite_dilution(m, H, u, model="pitzer", electrolyte="KCl")
     assert exact.infinite_dilution_enthalpy_kJ_per_mol == pytest.approx(17.23, abs=1e-12)
-    assert exact.slope_kJ_kg_per_mol2 is None and exact.method.startswith("weighted mean")
+    assert exact.slope_kJ_kg_per_mol2 is None
+    assert exact.method.startswith("weighted mean")
     fit = extrapolate_to_infinite_dilution(m, H, u, model="extended", electrolyte="KCl")
     assert fit.slope_kJ_kg_per_mol2 is not None
     # the β1 term of B^L is not linear in m (g(α√I) falls from 1), so the linear fit leaves a
@@ -161,7 +162,8 @@ def test_weighted_fit_against_numpy_polyfit_and_the_straight_line_formula():
     det = w.sum() * (w * m * m).sum() - (w * m).sum() ** 2
     assert r.u_infinite_dilution_enthalpy_kJ_per_mol == pytest.approx(
         math.sqrt((w * m * m).sum() / det), rel=1e-10)
-    assert r.dof == m.size - 2 and r.chi2 is not None
+    assert r.dof == m.size - 2
+    assert r.chi2 is not None
 
 
 def test_intercept_uncertainty_by_monte_carlo():

@@ -48,7 +48,8 @@ def test_events_found_in_a_calibration_reaction_calibration_log(energy_J):
     for a, b in zip(ev.events, ev.events[1:], strict=False):
         assert a.window_end_s < b.start_s
         assert b.window_start_s > a.active_end_s
-    assert ev.events[0].window_start_s == 0.0 and ev.events[-1].window_end_s == 2700.0
+    assert ev.events[0].window_start_s == 0.0
+    assert ev.events[-1].window_end_s == 2700.0
     assert ev.warnings == ()
 
 
@@ -68,7 +69,8 @@ def test_given_start_and_no_reaction():
     with pytest.raises(PeriodDetectionError, match="fire_time_s"):
         find_events(t, T, heaters)
     ev = find_events(t, T, heaters, fire_time_s=1200.0)
-    assert ev.reaction.source == "given" and ev.reaction.start_s == 1200.0
+    assert ev.reaction.source == "given"
+    assert ev.reaction.start_s == 1200.0
     periods = event_periods(ev.reaction, t[(t >= ev.reaction.window_start_s)
                                             & (t <= ev.reaction.window_end_s)])
     assert periods.main_end_s == pytest.approx(1200.0 + 120.0)  # undetected: fixed length

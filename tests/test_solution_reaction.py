@@ -60,8 +60,8 @@ def test_referral_rule_with_different_initial_and_final_energy_equivalents():
     H_Ti, dCp, eps_f, dT = _tris_adiabatic_run(m, eps_i, Ti)
     assert eps_f != eps_i
     budget = {"heater_rise": 0.05}
-    kwargs = dict(T_initial_K=Ti, corrected_rise_K=dT, before=(eps_i, budget),
-                  after=(eps_f, budget))
+    kwargs = {"T_initial_K": Ti, "corrected_rise_K": dT, "before": (eps_i, budget),
+                  "after": (eps_f, budget)}
     after = refer_energy_equivalent(basis="after", **kwargs)
     before = refer_energy_equivalent(basis="before", **kwargs)
     mean = refer_energy_equivalent(basis="mean", **kwargs)
@@ -87,7 +87,8 @@ def test_auto_basis_and_missing_calibrations():
     assert r.basis == "after"
     r = refer_energy_equivalent(T_initial_K=298.15, corrected_rise_K=0.1,
                                 series=(300.0, {"calibration_series": 0.1}))
-    assert r.basis == "series" and r.reference_temperature_K == pytest.approx(298.25)
+    assert r.basis == "series"
+    assert r.reference_temperature_K == pytest.approx(298.25)
     with pytest.raises(CalibrationError, match="calorimeter"):
         refer_energy_equivalent(T_initial_K=298.15, corrected_rise_K=0.1)
     with pytest.raises(CalibrationError, match="heater_V"):
@@ -166,7 +167,8 @@ def test_blank_correction_statistics():
     assert b.u_J == pytest.approx(s * math.sqrt(1 + 1 / 4))
     assert "mJ" in b.report()
     one = blank_correction([0.012], runs=["b1"], u_values_J=[0.003])
-    assert one.u_spread_J == 0.003 and one.warnings
+    assert one.u_spread_J == 0.003
+    assert one.warnings
     with pytest.raises(UncertaintyError, match="single blank"):
         blank_correction([0.012], runs=["b1"])
     with pytest.raises(UncertaintyError, match="identical"):

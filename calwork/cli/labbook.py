@@ -104,6 +104,8 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     _filters(p, kind=False)
     p.add_argument("--tolerance", type=float, default=1e-12, metavar="REL",
                    help="relative tolerance (default 1e-12)")
+    p.add_argument("--jobs", type=int, default=1, metavar="N",
+                   help="recompute sheets in N worker processes (default 1)")
     p.add_argument("--json", action="store_true", help="print one JSON object")
     _common(p)
     p.set_defaults(func=_recompute)
@@ -266,7 +268,8 @@ def _void(args: argparse.Namespace) -> int:
 
 def _recompute(args: argparse.Namespace) -> int:
     with _open(args) as book:
-        report = book.recompute(_make_filters(args), tolerance=args.tolerance)
+        report = book.recompute(_make_filters(args), tolerance=args.tolerance,
+                                jobs=args.jobs)
     if args.json:
         print_json(report)
     else:

@@ -31,7 +31,7 @@ __all__ = [
 _SEPARATORS: tuple[str | None, ...] = ("\t", ";", ",", None)
 SEPARATOR_NAMES = {"\t": "tab", ";": "semicolon", ",": "comma", None: "whitespace"}
 SNIFF_CHARS = 64 * 1024
-_SNIFF_LINES = 400
+SNIFF_LINES = 400
 _RUN = 3  # consistent value-like lines that make a block of readings
 _COMMENT = ("#", "//", "%")
 
@@ -191,7 +191,7 @@ def _sample_end(lines: list[str]) -> int:
     size, run = 0, 0
     for i, line in enumerate(lines):
         size += len(line) + 1
-        if size > SNIFF_CHARS or i >= _SNIFF_LINES:
+        if size > SNIFF_CHARS or i >= SNIFF_LINES:
             return i + 1
         head = line.lstrip()[:1]
         if head and (head.isdigit() or head in "+-.,"):

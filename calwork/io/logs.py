@@ -40,6 +40,7 @@ from calwork.io._text import (
     ISO,
     SEPARATOR_NAMES,
     SNIFF_CHARS,
+    SNIFF_LINES,
     decode_bytes,
     is_comment,
     parse_preamble,
@@ -89,9 +90,11 @@ class _Table:
         self.numbers = numbers
         self.detected = detected
         head = text[:SNIFF_CHARS]
-        self.head = split_lines(head)
-        if len(head) < len(text) and not head.endswith("\n") and self.head:
-            self.head.pop()  # a line cut by the sniffing limit
+        self.head = head.split("\n", SNIFF_LINES)
+        if len(self.head) > SNIFF_LINES or len(head) < len(text):
+            self.head.pop()  # the rest of the text, or a line cut by the sniffing limit
+        elif self.head and self.head[-1] == "":
+            self.head.pop()
         self._lines: list[str] | None = None
 
     @property

@@ -2,13 +2,15 @@
 
 from __future__ import annotations
 
+import functools
 import json
 import os
 import sqlite3
+from collections.abc import Callable
 from pathlib import Path
-from typing import Any
+from typing import Any, TypeVar
 
-from calwork.errors import LabbookError
+from calwork.errors import LabbookBusyError, LabbookError, LabbookFormatError
 from calwork.labbook import audit, ingest, queries, store
 from calwork.labbook import backup as _backup
 from calwork.labbook import export as _export
@@ -17,6 +19,28 @@ from calwork.labbook import verify as _verify
 from calwork.results import Reduction
 
 __all__ = ["Labbook", "open_labbook"]
+
+_T = TypeVar("_T")
+
+
+def _guarded(method: Callable[..., _T]) -> Callable[..., _T]:
+    """Turn SQLite exceptions escaping a lab-book operation into calwork's errors."""
+
+    @functools.wraps(method)
+    def wrapper(self: Labbook, *args: Any, **kwargs: Any) -> _T:
+        try:
+            return method(self, *args, **kwargs)
+        except sqlite3.IntegrityError as exc:
+            raise LabbookError(f"lab book refused the change: {exc}", path=self.path) from None
+        except sqlite3.OperationalError as exc:
+            if store.is_busy(exc):
+                raise LabbookBusyError("lab book is busy (another process is writing); retry",
+                                       path=self.path) from None
+            raise LabbookError(f"lab book error: {exc}", path=self.path) from None
+        except sqlite3.DatabaseError as exc:
+            raise LabbookFormatError(f"corrupt lab book: {exc}", path=self.path) from None
+
+    return wrapper
 
 
 class Labbook:
@@ -54,6 +78,7 @@ class Labbook:
         return self._conn
 
     # --- changes ------------------------------------------------------------------------------
+    @_guarded
     def add_sheet(self, sheet: str | os.PathLike[str], *,
                   method: str = "newton-fit") -> ingest.AddResult:
         """Import and reduce a run sheet; store its raw bytes and results in one transaction.
@@ -64,43 +89,52 @@ class Labbook:
         """
         return ingest.add_sheet(self._conn, self.path, sheet, method=method, user=self.user)
 
+    @_guarded
     def void(self, run: str, *, reason: str) -> audit.AuditEntry:
         """Mark ``run`` void with a reason (audited; the run stays on record) and re-reduce
         its sheet without it, so later series exclude it."""
         return ingest.void_run(self._conn, self.path, run, reason=reason, user=self.user)
 
     # --- reading ------------------------------------------------------------------------------
+    @_guarded
     def runs(self, filters: queries.Filters | None = None, *,
              include_void: bool = True) -> list[dict[str, Any]]:
         """Runs (with status and latest numbers), ordered by date then run id."""
         return queries.list_runs(self._conn, filters, include_void=include_void)
 
+    @_guarded
     def calibrations(self, filters: queries.Filters | None = None) -> list[dict[str, Any]]:
         """Current calibrations per calorimeter with their validity."""
         return queries.list_calibrations(self._conn, filters)
 
+    @_guarded
     def samples(self, filters: queries.Filters | None = None) -> list[dict[str, Any]]:
         """Current sample results."""
         return queries.list_samples(self._conn, filters)
 
+    @_guarded
     def show(self, run: str) -> dict[str, Any]:
         """Everything about one run, down to the blob hashes of its raw files."""
         return queries.show_run(self._conn, run)
 
+    @_guarded
     def history(self, run: str) -> list[audit.AuditEntry]:
         """Audit entries about one run."""
         return queries.history(self._conn, run)
 
+    @_guarded
     def audit_log(self) -> list[audit.AuditEntry]:
         """The whole audit log, oldest first."""
         return audit.entries(self._conn)
 
+    @_guarded
     def calibration_series(self, calorimeter: str,
                            filters: queries.Filters | None = None,
                            ) -> tuple[list[dict[str, Any]], list[str]]:
         """ε of each active calibration run of ``calorimeter`` (for QA) and notes."""
         return queries.calibration_series(self._conn, calorimeter, filters)
 
+    @_guarded
     def first_series_runs(self, calorimeter: str) -> list[str]:
         """Run ids of the first recorded calibration series of ``calorimeter``."""
         row = self._conn.execute(
@@ -111,28 +145,37 @@ class Labbook:
         return [] if row is None else list(json.loads(row[0]).get("runs") or [])
 
     # --- checks and copies --------------------------------------------------------------------
+    @_guarded
     def recompute(self, filters: queries.Filters | None = None, *,
-                  tolerance: float = _recompute.DEFAULT_TOLERANCE) -> _recompute.RecomputeReport:
-        """Recompute stored results from the stored raw bytes and compare."""
-        return _recompute.recompute(self._conn, filters=filters, tolerance=tolerance)
+                  tolerance: float = _recompute.DEFAULT_TOLERANCE,
+                  jobs: int = 1) -> _recompute.RecomputeReport:
+        """Recompute stored results from the stored raw bytes and compare (``jobs``
+        worker processes)."""
+        return _recompute.recompute(self._conn, filters=filters, tolerance=tolerance,
+                                    jobs=jobs)
 
+    @_guarded
     def verify(self) -> _verify.VerifyReport:
         """Check the audit chain, the blobs, the results and the triggers."""
         return _verify.verify(self._conn)
 
+    @_guarded
     def export_raw(self, run: str, dest: str | os.PathLike[str]) -> list[Path]:
         """Write the run's sheet and log bytes into ``dest``."""
         return _export.export_raw(self._conn, run, dest)
 
+    @_guarded
     def reduction(self, filters: queries.Filters | None = None, *,
                   thermograms: bool = True) -> Reduction:
         """A Reduction of the selected active runs rebuilt from the store."""
         return _export.rebuild_reduction(self._conn, filters, thermograms=thermograms)
 
+    @_guarded
     def backup(self, dest: str | os.PathLike[str]) -> Path:
         """Consistent copy to ``dest`` with SQLite's online backup API (safe while in use)."""
         return _backup.backup(self._conn, dest)
 
+    @_guarded
     def counts(self) -> dict[str, int]:
         """Row counts of the main tables."""
         out = {}

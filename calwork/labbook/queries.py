@@ -12,8 +12,9 @@ from dataclasses import dataclass, fields
 from datetime import date, datetime
 from typing import Any
 
-from calwork.errors import LabbookError, ValueCellError
+from calwork.errors import LabbookError, ValueCellError, check_choice
 from calwork.labbook import audit
+from calwork.runinfo import RUN_KINDS
 
 __all__ = ["Filters", "calibration_series", "history", "list_calibrations", "list_runs",
            "list_samples", "natural_key", "show_run"]
@@ -44,6 +45,8 @@ class Filters:
     until: str | None = None
 
     def __post_init__(self) -> None:
+        if self.kind is not None:
+            check_choice("kind", self.kind, RUN_KINDS)
         object.__setattr__(self, "since", _iso_bound(self.since, "since"))
         object.__setattr__(self, "until", _iso_bound(self.until, "until"))
 

@@ -11,10 +11,13 @@ original one. A different calwork version is noted, not counted as a difference.
 
 from __future__ import annotations
 
+import itertools
 import json
 import math
+import multiprocessing
 import sqlite3
 from collections.abc import Mapping
+from concurrent.futures import ProcessPoolExecutor
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -149,55 +152,105 @@ def _selected(conn: sqlite3.Connection, filters: Filters) -> list[tuple]:
     return [r for r in rows if r[1] in keep]
 
 
+@dataclass
+class _Tally:
+    differences: list[Difference] = field(default_factory=list)
+    notes: set[str] = field(default_factory=set)
+    records: int = 0
+    numbers: int = 0
+    runs: int = 0
+
+    def add(self, other: _Tally) -> None:
+        self.differences += other.differences
+        self.notes |= other.notes
+        self.records += other.records
+        self.numbers += other.numbers
+        self.runs += other.runs
+
+
+def _recompute_one(conn: sqlite3.Connection, row: tuple, tolerance: float) -> _Tally:
+    """Recompute one stored reduction and compare it record by record."""
+    red_id, sheet_id, _version, method, runs_json, full_sheet, summary_text = row
+    tally = _Tally()
+    run_ids = json.loads(runs_json)
+    stored = conn.execute(
+        "SELECT type, key, json FROM results WHERE reduction_id = ? ORDER BY seq",
+        (red_id,)).fetchall()
+    tally.runs = len(run_ids)
+    try:
+        again = reduce_stored(conn, sheet_id, run_ids, method=method,
+                              full_sheet=bool(full_sheet))
+    except CalworkError as exc:
+        tally.differences.append(Difference(
+            sheet_id=sheet_id, reduction_id=red_id, record="reduction", field="(whole sheet)",
+            stored="reduced", recomputed=f"error: {exc}"))
+        return tally
+    pairs = [("reduction", json.loads(summary_text), json.loads(json.dumps(again.summary)))]
+    new_by_key: dict[tuple[str, str], list[Any]] = {}
+    for kind, key, rec in again.results:
+        new_by_key.setdefault((kind, key), []).append(json.loads(json.dumps(rec)))
+    for kind, key, text in stored:
+        new_list = new_by_key.get((kind, key)) or []
+        pairs.append((f"{kind} {key}", json.loads(text),
+                      new_list.pop(0) if new_list else _MISSING))
+    pairs += [(f"{kind} {key}", _MISSING, rec)
+              for (kind, key), left in new_by_key.items() for rec in left]
+    for label, old, new in pairs:
+        tally.records += 1
+        if old is _MISSING or new is _MISSING:
+            tally.differences.append(Difference(
+                sheet_id=sheet_id, reduction_id=red_id, record=label, field="(record)",
+                stored="present" if old is not _MISSING else _MISSING,
+                recomputed="present" if new is not _MISSING else _MISSING))
+            continue
+        _version_notes(old, new, tally.notes)
+        found, count = compare(old, new, tolerance)
+        tally.numbers += count
+        tally.differences += [Difference(sheet_id=sheet_id, reduction_id=red_id, record=label,
+                                         field=f, stored=a, recomputed=b, relative=rel)
+                              for f, a, b, rel in found]
+    return tally
+
+
+_WORKER: dict[str, sqlite3.Connection] = {}
+
+
+def _worker_init(path: str) -> None:
+    conn = sqlite3.connect(f"file:{path}?mode=ro", uri=True, isolation_level=None)
+    conn.execute("PRAGMA trusted_schema = OFF")
+    _WORKER["conn"] = conn
+
+
+def _worker_task(row: tuple, tolerance: float) -> _Tally:
+    return _recompute_one(_WORKER["conn"], row, tolerance)
+
+
 def recompute(conn: sqlite3.Connection, *, filters: Filters | None = None,
-              tolerance: float = DEFAULT_TOLERANCE) -> RecomputeReport:
-    """Recompute the selected reductions (see the module docstring)."""
+              tolerance: float = DEFAULT_TOLERANCE, jobs: int = 1) -> RecomputeReport:
+    """Recompute the selected reductions (see the module docstring).
+
+    ``jobs`` > 1 recomputes sheets in that many worker processes (each with its own
+    read-only connection); the report is the same as with one process.
+    """
     filters = filters or Filters()
     if not tolerance >= 0:
         raise CalworkError("tolerance must be a relative difference >= 0", found=tolerance)
-    diffs: list[Difference] = []
-    notes: set[str] = set()
-    n_records = n_numbers = n_runs = 0
+    if not (isinstance(jobs, int) and jobs >= 1):
+        raise CalworkError("jobs must be a whole number >= 1", found=jobs)
     rows = _selected(conn, filters)
-    for red_id, sheet_id, _version, method, runs_json, full_sheet, summary_text in rows:
-        run_ids = json.loads(runs_json)
-        stored = conn.execute(
-            "SELECT type, key, json FROM results WHERE reduction_id = ? ORDER BY seq",
-            (red_id,)).fetchall()
-        n_runs += len(run_ids)
-        try:
-            again = reduce_stored(conn, sheet_id, run_ids, method=method,
-                                  full_sheet=bool(full_sheet))
-        except CalworkError as exc:
-            diffs.append(Difference(sheet_id=sheet_id, reduction_id=red_id, record="reduction",
-                                    field="(whole sheet)", stored="reduced",
-                                    recomputed=f"error: {exc}"))
-            continue
-        pairs = [("reduction", json.loads(summary_text), json.loads(json.dumps(again.summary)))]
-        new_by_key: dict[tuple[str, str], list[Any]] = {}
-        for kind, key, rec in again.results:
-            new_by_key.setdefault((kind, key), []).append(json.loads(json.dumps(rec)))
-        for kind, key, text in stored:
-            new_list = new_by_key.get((kind, key)) or []
-            pairs.append((f"{kind} {key}", json.loads(text),
-                          new_list.pop(0) if new_list else _MISSING))
-        pairs += [(f"{kind} {key}", _MISSING, rec)
-                  for (kind, key), left in new_by_key.items() for rec in left]
-        for label, old, new in pairs:
-            n_records += 1
-            if old is _MISSING or new is _MISSING:
-                diffs.append(Difference(sheet_id=sheet_id, reduction_id=red_id, record=label,
-                                        field="(record)",
-                                        stored="present" if old is not _MISSING else _MISSING,
-                                        recomputed="present" if new is not _MISSING
-                                        else _MISSING))
-                continue
-            _version_notes(old, new, notes)
-            found, count = compare(old, new, tolerance)
-            n_numbers += count
-            diffs += [Difference(sheet_id=sheet_id, reduction_id=red_id, record=label,
-                                 field=f, stored=a, recomputed=b, relative=rel)
-                      for f, a, b, rel in found]
-    return RecomputeReport(tolerance=tolerance, reductions=len(rows), records=n_records,
-                           numbers=n_numbers, runs=n_runs, differences=tuple(diffs),
-                           notes=tuple(sorted(notes)), filters=filters.to_dict())
+    total = _Tally()
+    if jobs > 1 and len(rows) > 1:
+        path = conn.execute("PRAGMA database_list").fetchone()[2]
+        methods = multiprocessing.get_all_start_methods()
+        context = multiprocessing.get_context("fork" if "fork" in methods else "spawn")
+        with ProcessPoolExecutor(max_workers=min(jobs, len(rows)), mp_context=context,
+                                 initializer=_worker_init, initargs=(path,)) as pool:
+            for tally in pool.map(_worker_task, rows, itertools.repeat(tolerance)):
+                total.add(tally)
+    else:
+        for row in rows:
+            total.add(_recompute_one(conn, row, tolerance))
+    return RecomputeReport(tolerance=tolerance, reductions=len(rows), records=total.records,
+                           numbers=total.numbers, runs=total.runs,
+                           differences=tuple(total.differences),
+                           notes=tuple(sorted(total.notes)), filters=filters.to_dict())

@@ -44,6 +44,7 @@ __all__ = [
     "DEFAULT_TIMEOUT_S",
     "connect_checked",
     "crash_point",
+    "is_busy",
     "resolve_labbook_path",
     "write_transaction",
 ]
@@ -89,7 +90,8 @@ def crash_point(step: str) -> None:
         os._exit(86)
 
 
-def _is_busy(exc: sqlite3.Error) -> bool:
+def is_busy(exc: sqlite3.Error) -> bool:
+    """Whether an SQLite error means another connection holds a lock."""
     name = getattr(exc, "sqlite_errorname", "")
     return name.startswith(("SQLITE_BUSY", "SQLITE_LOCKED")) or "locked" in str(exc)
 
@@ -146,7 +148,7 @@ def write_transaction(conn: sqlite3.Connection, path: Path | None = None, *,
     try:
         conn.execute("BEGIN IMMEDIATE")
     except sqlite3.OperationalError as exc:
-        if _is_busy(exc):
+        if is_busy(exc):
             raise LabbookBusyError(
                 "lab book is busy (another process is writing); retry", path=path
             ) from None
@@ -159,7 +161,7 @@ def write_transaction(conn: sqlite3.Connection, path: Path | None = None, *,
     except BaseException as exc:
         if conn.in_transaction:
             conn.execute("ROLLBACK")
-        if isinstance(exc, sqlite3.OperationalError) and _is_busy(exc):
+        if isinstance(exc, sqlite3.OperationalError) and is_busy(exc):
             raise LabbookBusyError(
                 "lab book is busy (another process is writing); retry", path=path
             ) from None
@@ -175,28 +177,45 @@ def _create(path: Path, timeout_s: float, user: str) -> None:
     tmp = path.with_name(f".{path.name}.{os.getpid()}.{secrets.token_hex(4)}.creating")
     conn = sqlite3.connect(str(tmp), timeout=timeout_s, isolation_level=None)
     try:
-        _configure(conn)
-        conn.execute("PRAGMA journal_mode = WAL")
-        with write_transaction(conn, tmp):
-            conn.execute(f"PRAGMA application_id = {APPLICATION_ID:d}")
-            migrate(conn, 0)
-            for key, value in (
-                ("magic", MAGIC),
-                ("created_utc", audit.utc_now()),
-                ("created_by_calwork", calwork_version()),
-            ):
-                conn.execute("INSERT INTO meta (key, value) VALUES (?, ?)", (key, value))
-            audit.append(conn, user=user, action="create", obj="labbook",
-                         details={"schema_version": SCHEMA_VERSION,
-                                  "calwork_version": calwork_version()})
+        _build_new(conn, tmp, user)
         conn.close()
-        with contextlib.suppress(FileExistsError):  # another process created it first
-            os.link(tmp, path)
+        _link_into_place(tmp, path)
+    except sqlite3.Error as exc:
+        raise LabbookError(f"cannot create the lab book: {exc}", path=path) from None
     finally:
         conn.close()
         for suffix in ("", "-wal", "-shm"):
             with contextlib.suppress(FileNotFoundError):
                 os.unlink(f"{tmp}{suffix}")
+
+
+def _link_into_place(tmp: Path, path: Path) -> None:
+    """Put the finished file at ``path`` without ever replacing a file that is there."""
+    try:
+        os.link(tmp, path)
+    except FileExistsError:  # another process created it first: use theirs
+        return
+    except OSError:  # no hard links on this file system: rename if still absent
+        if not path.exists():
+            os.rename(tmp, path)
+
+
+def _build_new(conn: sqlite3.Connection, tmp: Path, user: str) -> None:
+    """Create the schema, marks and the first audit entry in the new file."""
+    _configure(conn)
+    conn.execute("PRAGMA journal_mode = WAL")
+    with write_transaction(conn, tmp):
+        conn.execute(f"PRAGMA application_id = {APPLICATION_ID:d}")
+        migrate(conn, 0)
+        for key, value in (
+            ("magic", MAGIC),
+            ("created_utc", audit.utc_now()),
+            ("created_by_calwork", calwork_version()),
+        ):
+            conn.execute("INSERT INTO meta (key, value) VALUES (?, ?)", (key, value))
+        audit.append(conn, user=user, action="create", obj="labbook",
+                     details={"schema_version": SCHEMA_VERSION,
+                              "calwork_version": calwork_version()})
 
 
 def connect_checked(path: Path, *, create: bool, timeout_s: float,
@@ -222,6 +241,8 @@ def connect_checked(path: Path, *, create: bool, timeout_s: float,
     _check_file_header(path)
     try:
         conn = _connect(path, timeout_s)
+    except sqlite3.OperationalError as exc:
+        raise LabbookError(f"cannot open the lab book: {exc}", path=path) from None
     except sqlite3.Error as exc:
         raise LabbookFormatError(f"cannot open the lab book: {exc}", path=path) from None
     try:
@@ -260,7 +281,7 @@ def _check_identity(conn: sqlite3.Connection, path: Path, user: str) -> None:
         if version < SCHEMA_VERSION:
             _migrate_file(conn, path, version, user)
     except sqlite3.DatabaseError as exc:
-        if isinstance(exc, sqlite3.OperationalError) and _is_busy(exc):
+        if isinstance(exc, sqlite3.OperationalError) and is_busy(exc):
             raise LabbookBusyError("lab book is busy; retry", path=path) from None
         raise LabbookFormatError(f"corrupt lab book: {exc}", path=path) from None
 

@@ -213,7 +213,7 @@ class _Bin(Expr):
         # a - (b + c) and a / (b * c) need brackets; so does a negative operand on the right
         if self.right.prec < self.prec or (
             self.right.prec == self.prec and self.op in "-/"
-        ) or self.right.prec == _NEG:
+        ) or self.right.prec == _NEG or right.startswith("-"):
             right = f"({right})"
         return f"{left}{self.op}{right}"
 

@@ -14,11 +14,10 @@ formula-like text gets the quote-prefix style (see :mod:`.sanitise`).
 from __future__ import annotations
 
 import math
-import os
 import re
-import tempfile
 import zipfile
 from collections.abc import Callable, Mapping, Sequence
+from contextlib import suppress
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
@@ -29,7 +28,6 @@ from openpyxl.styles import Alignment, Border, Font, PatternFill, Side
 from openpyxl.utils import get_column_letter
 from openpyxl.writer.excel import ExcelWriter
 
-from calwork.errors import ExportError
 from calwork.report.formulas import Expr, Ref
 from calwork.report.sanitise import cell_text, is_formula_like
 
@@ -252,11 +250,12 @@ class _PatchingZip(zipfile.ZipFile):
 
 def save_workbook(wb: Workbook, path: str | Path, cached: Mapping[str, Mapping[str, float]],
                   tails: Mapping[str, Callable[[bytes], bytes]] | None = None) -> Path:
-    """Save ``wb`` to ``path`` atomically, with cached formula results and streamed rows.
+    """Save ``wb`` to ``path`` with the cached formula results and the streamed rows.
 
     ``cached`` maps sheet title → {cell coordinate: value}; ``tails`` maps sheet title → a
     function that adds rows to the sheet's XML (see
-    :class:`calwork.report.wb_readings.ReadingsTail`).
+    :class:`calwork.report.wb_readings.ReadingsTail`). Use it inside
+    :func:`calwork.report.output.atomic_target`.
     """
     path = Path(path)
     tails = tails or {}
@@ -268,17 +267,12 @@ def save_workbook(wb: Workbook, path: str | Path, cached: Mapping[str, Mapping[s
         if steps:
             patches[f"xl/worksheets/sheet{i}.xml"] = _chain(steps)
     try:
-        path.parent.mkdir(parents=True, exist_ok=True)
-        fd, tmp = tempfile.mkstemp(prefix=".calwork-", suffix=".xlsx", dir=path.parent)
-        os.close(fd)
-        try:
-            ExcelWriter(wb, _PatchingZip(tmp, patches)).save()
-            os.replace(tmp, path)
-        finally:
-            if os.path.exists(tmp):
-                os.unlink(tmp)
-    except OSError as exc:
-        raise ExportError(f"cannot write the workbook ({exc.strerror or exc})", path=path) from None
+        ExcelWriter(wb, _PatchingZip(str(path), patches)).save()
+    except OSError:
+        for ws in wb.worksheets:  # finish the streamed sheets so their temporary files close
+            with suppress(OSError, ValueError):
+                ws.close()
+        raise
     return path
 
 

@@ -13,6 +13,7 @@ from collections.abc import Mapping
 from typing import Any
 
 from calwork.constants import T_REF_K, R_J_per_mol_K
+from calwork.errors import CalworkError
 from calwork.formula import ATOMIC_WEIGHT_SOURCE, element_counts
 from calwork.report.formulas import Const, Expr, Ref, average, count, func, quadrature, sqrt
 from calwork.report.formulas import stdev as stdev_of
@@ -119,6 +120,9 @@ def plan_summary_calibrations(plan: Plan) -> None:
         mean = stats.get("mean") or cal_table.put(row, "eps", c.energy_equivalent_J_per_K)
         if mean is not None:
             plan.refs[("eps_mean", c.calorimeter)] = mean
+        sm = stats.get("sm")
+        if sm is not None:
+            plan.refs[("eps_sm", c.calorimeter)] = sm
         plan.refs[("cal_row", c.calorimeter)] = Ref(SUMMARY, row, 1, 0.0)
     plan.tables["summary_cals"] = cal_table
 
@@ -140,10 +144,13 @@ def plan_summary_samples(plan: Plan) -> None:
         table.put(row, "warnings", "; ".join(s.warnings) or None)
         table.put(row, "k", s.coverage_factor)
         refs = runs_of(plan.refs, "du", s.runs)
-        _series_stats(plan, table, row, refs,
-                      {"n": s.n_runs, "mean": s.massic_energy_J_per_g},
-                      {"mean": "du", "s": "s_du", "rsd": "rsd"},
-                      f"the massic energies of {s.sample}")
+        stats = _series_stats(plan, table, row, refs,
+                              {"n": s.n_runs, "mean": s.massic_energy_J_per_g},
+                              {"mean": "du", "s": "s_du", "rsd": "rsd"},
+                              f"the massic energies of {s.sample}")
+        for key in ("s", "n"):
+            if stats.get(key) is not None:
+                plan.refs[(f"du_{key}", s.sample)] = stats[key]
         if not refs:
             table.put(row, "n", s.n_runs)
         refs0 = runs_of(plan.refs, "du0", s.runs)
@@ -158,19 +165,115 @@ def plan_summary_samples(plan: Plan) -> None:
         plan.refs[("summary_row", s.sample)] = Ref(SUMMARY, row, 1, 0.0)
 
 
-def _components(plan: Plan, table: Table, row: int, series: str, quantity: str, unit: str,
-                budget: Mapping[str, float]) -> tuple[list[Ref], int]:
-    refs = []
-    for name, value in budget.items():
-        table.put(row, "series", series)
-        table.put(row, "quantity", quantity)
-        table.put(row, "component", name)
-        table.put(row, "unit", unit)
-        ref = table.put(row, "value", float(value))
-        if ref is not None:
-            refs.append(ref)
+def _budget_row(table: Table, row: int, series: str, quantity: str, component: str,
+                content: Any, unit: str, how: str | None = None) -> Ref | None:
+    table.put(row, "series", series)
+    table.put(row, "quantity", quantity)
+    table.put(row, "component", component)
+    table.put(row, "unit", unit)
+    table.put(row, "how", how)
+    return table.put(row, "value", content)
+
+
+def _unit(key: str) -> str:
+    for suffix, unit in (("_J_per_K", "J/K"), ("_J_per_g", "J/g"), ("_kJ_per_mol", "kJ/mol"),
+                         ("_percent", "%"), ("_relative", "1")):
+        if key.endswith(suffix):
+            return unit
+    return ""
+
+
+def _calibration_budget(plan: Plan, table: Table, row: int, c: Any) -> int:
+    b = dict(c.budget)
+    name, q = c.calorimeter, "energy equivalent ε"
+    sm_ref = plan.refs.get(("eps_sm", name))
+    mean_ref = plan.refs.get(("eps_mean", name))
+    parts: list[Ref] = []
+    if {"std_dev_of_mean_J_per_K", "certificate_J_per_K", "certificate_relative"} <= set(b):
+        sm = b.pop("std_dev_of_mean_J_per_K")
+        content = sm if sm_ref is None else plan.checked(sm_ref, sm, f"s(ε)/√n of {name}")
+        parts.append(_budget_row(table, row, name, q, "repeatability s(ε)/√n", content, "J/K",
+                                 "Summary (or the rise uncertainty of a single run)"))
+        u_r = _budget_row(table, row + 1, name, q, "certificate, relative u_r",
+                          b.pop("certificate_relative"), "1", "reference-material certificate")
+        cert = b.pop("certificate_J_per_K")
+        content = cert if mean_ref is None or u_r is None else plan.checked(
+            mean_ref * u_r, cert, f"certificate part of u(ε) of {name}")
+        parts.append(_budget_row(table, row + 2, name, q, "certificate ε̄·u_r", content, "J/K",
+                                 "formula"))
+        row += 3
+        parts = [p for p in parts if p is not None]
+        total_content: Any = c.u_energy_equivalent_J_per_K
+        if len(parts) == 2:
+            total_content = plan.checked(quadrature(*parts), c.u_energy_equivalent_J_per_K,
+                                         f"u(ε) of {name}")
+    else:
+        total_content = c.u_energy_equivalent_J_per_K
+    for key, value in b.items():
+        if isinstance(value, (int, float)) and math.isfinite(value):
+            _budget_row(table, row, name, q, f"(information) {key}", float(value), _unit(key))
+            row += 1
+    ref = _budget_row(table, row, name, q, "combined u(ε) = √(Σ u_i²)", total_content, "J/K",
+                      "formula" if not isinstance(total_content, float) else "calwork")
+    if ref is not None:
+        plan.tables["summary_cals"].put(plan.refs[("cal_row", name)].cell.row, "u", ref)
+    return row + 2
+
+
+_BOMB_PARTS = ("scatter_J_per_g", "calibration_J_per_g", "certificate_J_per_g",
+               "corrections_J_per_g")
+_PART_NAMES = {"scatter_J_per_g": "scatter of the series s(Δu)/√n",
+               "calibration_J_per_g": "calibration series (systematic)",
+               "certificate_J_per_g": "reference-material certificate (systematic)",
+               "corrections_J_per_g": "corrections (ignition, fuse, acids...)",
+               "washburn_J_per_g": "Washburn correction data"}
+
+
+def _sample_budget(plan: Plan, table: Table, row: int, s: Any) -> int:
+    b = dict(s.budget)
+    name = s.sample
+    summary = plan.tables["summary_samples"]
+    srow = plan.refs[("summary_row", name)].cell.row
+    s_ref, n_ref = plan.refs.get(("du_s", name)), plan.refs.get(("du_n", name))
+    if set(_BOMB_PARTS) <= set(b):
+        q = "massic energy Δu"
+        parts = []
+        for key in _BOMB_PARTS:
+            value = b.pop(key)
+            content: Any = value
+            how = "calwork (GUM propagation)"
+            if key == "scatter_J_per_g" and s_ref is not None and n_ref is not None:
+                content = plan.checked(s_ref / sqrt(n_ref), value, f"scatter of {name}")
+                how = "formula (Summary)"
+            parts.append(_budget_row(table, row, name, q, _PART_NAMES[key], content, "J/g",
+                                     how))
+            row += 1
+        u_reported = b.pop("u_massic_energy_J_per_g", s.u_massic_energy_J_per_g)
+        u_du = _budget_row(table, row, name, q, "combined u(Δu) = √(Σ u_i²)",
+                           plan.checked(quadrature(*parts), u_reported, f"u(Δu) of {name}"),
+                           "J/g", "formula")
+        plan.refs[("u_du", name)] = u_du
         row += 1
-    return refs, row
+        if "washburn_J_per_g" in b and u_du is not None:
+            q0 = "standard massic energy Δu°"
+            w = _budget_row(table, row, name, q0, _PART_NAMES["washburn_J_per_g"],
+                            b.pop("washburn_J_per_g"), "J/g", "calwork (GUM propagation)")
+            u0 = b.pop("u_standard_massic_energy_J_per_g", s.u_standard_massic_energy_J_per_g)
+            plan.refs[("u_du0", name)] = _budget_row(
+                table, row + 1, name, q0, "combined u(Δu°) = √(u²(Δu) + u²(Washburn))",
+                plan.checked(quadrature(u_du, w), u0, f"u(Δu°) of {name}"), "J/g", "formula")
+            row += 2
+    for key, value in b.items():
+        if key in ("key_values_kJ_per_mol", "u_delta_c_H_kJ_per_mol", "u_delta_f_H_kJ_per_mol"):
+            continue  # these are written as formulas on the Formation sheet
+        if isinstance(value, (int, float)) and math.isfinite(value):
+            _budget_row(table, row, name, "", key, float(value), _unit(key), "calwork")
+            row += 1
+    for key, attr in (("u_du", "u_massic_energy_J_per_g"),
+                      ("u_du0", "u_standard_massic_energy_J_per_g")):
+        ref = plan.refs.get((key, name))
+        summary.put(srow, key, ref if ref is not None else getattr(s, attr))
+    return row + 1
 
 
 def plan_budget(plan: Plan) -> None:
@@ -179,75 +282,29 @@ def plan_budget(plan: Plan) -> None:
     grid = plan.grid(BUDGET)
     table = Table(grid, 1, [
         ("series", "series", None), ("quantity", "quantity", None),
-        ("component", "component", None), ("value", "contribution to u (unit →)", "0.0000"),
-        ("unit", "unit", None), ("note", "note", None),
+        ("component", "component", None),
+        ("value", "standard uncertainty u_i (unit →)", "0.00000"),
+        ("unit", "unit", None), ("how", "from", None),
     ])
     row = 2
     for c in red.calibrations:
-        refs, row = _components(plan, table, row, c.calorimeter, "energy equivalent ε", "J/K",
-                                c.budget)
-        table.put(row, "series", c.calorimeter)
-        table.put(row, "component", "combined u(ε) = √Σ u_i²")
-        table.put(row, "unit", "J/K")
-        content: Expr | float | None = c.u_energy_equivalent_J_per_K
-        if refs:
-            content = plan.checked(quadrature(*refs), c.u_energy_equivalent_J_per_K,
-                                   f"combined u(ε) of {c.calorimeter}")
-        ref = table.put(row, "value", content)
-        if ref is not None:
-            summary = plan.tables["summary_cals"]
-            summary.put(plan.refs[("cal_row", c.calorimeter)].cell.row, "u", ref)
-        row += 2
-    candidates = [("u_massic_energy_J_per_g", "massic energy Δu", "J/g", "u_du"),
-                  ("u_standard_massic_energy_J_per_g", "standard massic energy Δu°", "J/g",
-                   "u_du0"),
-                  ("u_delta_c_U_kJ_per_mol", "ΔcU°", "kJ/mol", "u_dcU"),
-                  ("u_delta_f_H_kJ_per_mol", "ΔfH°", "kJ/mol", "u_dfH")]
-    summary = plan.tables["summary_samples"]
+        row = _calibration_budget(plan, table, row, c)
     for s in red.samples:
-        values = [float(v) for v in s.budget.values()]
-        rss = math.sqrt(math.fsum(v * v for v in values)) if values else math.nan
-        match = next((c for c in candidates if getattr(s, c[0]) is not None and
-                      math.isclose(rss, getattr(s, c[0]), rel_tol=1e-10)), None)
-        quantity, unit = (match[1], match[2]) if match else ("(see components)", "")
-        refs, row = _components(plan, table, row, s.sample, quantity, unit, s.budget)
-        if match and refs:
-            table.put(row, "series", s.sample)
-            table.put(row, "quantity", quantity)
-            table.put(row, "component", f"combined u({quantity}) = √Σ u_i²")
-            table.put(row, "unit", unit)
-            ref = table.put(row, "value", plan.checked(quadrature(*refs), getattr(s, match[0]),
-                                                      f"combined u of {s.sample}"))
-            plan.refs[(match[3], s.sample)] = ref
-            row += 1
-        elif s.budget:
-            table.put(row - 1, "note", "components as propagated by calwork (combined with "
-                      "their correlations; not a plain root sum of squares)")
-        row += 1
-    for s in red.samples:
-        srow = plan.refs[("summary_row", s.sample)].cell.row
-        for key, attr in (("u_du", "u_massic_energy_J_per_g"),
-                          ("u_du0", "u_standard_massic_energy_J_per_g")):
-            ref = plan.refs.get((key, s.sample))
-            summary.put(srow, key, ref if ref is not None else getattr(s, attr))
-    grid.put(row + 1, 1, "Components are standard uncertainties (k = 1) in the unit shown, as "
-             "propagated by calwork (GUM law of propagation, JCGM 100:2008).", kind="note")
+        row = _sample_budget(plan, table, row, s)
+    grid.put(row + 1, 1, "Components are standard uncertainties (k = 1) in the unit shown, "
+             "propagated by calwork (GUM law of propagation, JCGM 100:2008); the calibration "
+             "and certificate parts are systematic for every run on that calorimeter and are "
+             "not averaged down (METHODS.md §4).", kind="note")
 
 
-def _key_value(sample: Any, species: str) -> tuple[float, float] | None:
-    raw = sample.key_values_used.get(species)
-    if raw is None:
-        return None
-    if isinstance(raw, Mapping):
-        value = raw.get("delta_f_H_kJ_per_mol", raw.get("value_kJ_per_mol"))
-        u = raw.get("u_kJ_per_mol", raw.get("u_delta_f_H_kJ_per_mol"))
-    elif isinstance(raw, (tuple, list)) and len(raw) == 2:
-        value, u = raw
-    else:
-        return None
-    if value is None or u is None:
-        return None
-    return float(value), float(u)
+def _key_values(samples: list[Any]) -> dict[str, dict[str, Any]]:
+    """Key values used, by species (from ``SampleResult.key_values_used['values']``)."""
+    out: dict[str, dict[str, Any]] = {}
+    for s in samples:
+        for kv in s.key_values_used.get("values", ()) or ():
+            if isinstance(kv, Mapping) and kv.get("species") and kv.get("equation") is None:
+                out.setdefault(str(kv["species"]), dict(kv))
+    return out
 
 
 _FORM_COLS = [
@@ -260,9 +317,10 @@ _FORM_COLS = [
     ("u_dcU", "u(ΔcU°) = M·u(Δu°)/1000 (kJ/mol)", "0.000"),
     ("dn", "Δn_gas = c/2 + d/2 − b/4 (mol/mol)", "0.###"),
     ("dcH", "ΔcH° = ΔcU° + Δn_gas·R·T/1000 (kJ/mol)", "0.000"),
-    ("u_dcH", "u(ΔcH°) (kJ/mol)", "0.000"),
+    ("u_dcH", "u(ΔcH°) = u(ΔcU°) (kJ/mol)", "0.000"),
     ("dfH", "ΔfH° = a·ΔfH°(CO2) + b/2·ΔfH°(H2O) − ΔcH° (kJ/mol)", "0.000"),
-    ("u_dfH", "u(ΔfH°) = √(u²(ΔcH°) + a²u²(CO2) + (b/2)²u²(H2O)) (kJ/mol)", "0.000"),
+    ("u_kv", "u from key values = √((a·u(CO2))² + (b/2·u(H2O))²) (kJ/mol)", "0.000"),
+    ("u_dfH", "u(ΔfH°) = √(u²(ΔcH°) + u²(key values)) (kJ/mol)", "0.000"),
     ("U_dfH", "U(ΔfH°) = k·u (kJ/mol)", "0.000"), ("note", "note", None),
 ]
 _CHON = ("C", "H", "O", "N")
@@ -270,45 +328,41 @@ _CHON = ("C", "H", "O", "N")
 
 def plan_formation(plan: Plan) -> None:
     """ΔcU°, ΔcH° and ΔfH° of every combustion sample with a CHON formula, as formulas."""
+    import periodictable  # the atomic weights behind calwork.formula
+
     red = plan.reduction
     samples = [s for s in red.samples if s.kind == "combustion"]
     grid = plan.grid(FORMATION)
     table = Table(grid, 1, _FORM_COLS)
-    # constants block below the table: R, T, key values, atomic weights
     base = len(samples) + 4
     grid.put(base, 1, "Constants and key values used", kind="title")
-    grid.header(base + 1, ["quantity", "value", "unit / u", "source"])
+    grid.header(base + 1, ["quantity", "value", "u (k = 1)", "unit", "source"])
     r = base + 2
     grid.put(r, 1, "molar gas constant R")
     R = grid.put(r, 2, R_J_per_mol_K, "0.000000000")
-    grid.put(r, 3, "J/(mol·K)")
-    grid.put(r, 4, "CODATA 2018 (exact, N_A·k)")
+    grid.put(r, 4, "J/(mol·K)")
+    grid.put(r, 5, "CODATA 2018 (exact, N_A·k)")
     grid.put(r + 1, 1, "reference temperature T")
     T = grid.put(r + 1, 2, T_REF_K, "0.00")
-    grid.put(r + 1, 3, "K")
-    grid.put(r + 1, 4, "thermochemical reference temperature (common practice)")
+    grid.put(r + 1, 4, "K")
+    grid.put(r + 1, 5, "thermochemical reference temperature (common practice)")
     r += 2
     kv_refs: dict[str, tuple[Ref, Ref]] = {}
-    for species in ("CO2(g)", "H2O(l)"):
-        kv = next((_key_value(s, species) for s in samples if _key_value(s, species)), None)
-        if kv is None:
-            continue
-        src = next((str(s.key_values_used[species].get("source", ""))
-                    for s in samples if isinstance(s.key_values_used.get(species), Mapping)), "")
-        grid.put(r, 1, f"ΔfH°({species}) / u (kJ/mol)")
-        value = grid.put(r, 2, kv[0], "0.000")
-        u = grid.put(r, 3, kv[1], "0.000")
-        grid.put(r, 4, src or "calwork key values")
-        kv_refs[species] = (value, u)
+    for species, kv in _key_values(samples).items():
+        grid.put(r, 1, f"ΔfH°({species})")
+        value = grid.put(r, 2, kv.get("value_kJ_per_mol"), "0.000")
+        u = grid.put(r, 3, kv.get("u_kJ_per_mol"), "0.0000")
+        grid.put(r, 4, "kJ/mol")
+        grid.put(r, 5, f"{kv.get('source', '')} (status: {kv.get('status', '?')})")
+        if value is not None and u is not None:
+            kv_refs[species] = (value, u)
         r += 1
-    weights: dict[str, Ref] = {}
-    import periodictable  # only here: the atomic weights behind calwork.formula
-
+    weights = {}
     for el in _CHON:
         grid.put(r, 1, f"atomic weight A_r({el})")
         weights[el] = grid.put(r, 2, float(periodictable.elements.symbol(el).mass), "0.00000")
-        grid.put(r, 3, "g/mol")
-        grid.put(r, 4, ATOMIC_WEIGHT_SOURCE)
+        grid.put(r, 4, "g/mol")
+        grid.put(r, 5, ATOMIC_WEIGHT_SOURCE)
         r += 1
 
     summary = plan.tables["summary_samples"]
@@ -326,66 +380,72 @@ def plan_formation(plan: Plan) -> None:
             summary.put(srow, key, ref if ref is not None else getattr(s, attr))
 
 
-def _formation_row(plan: Plan, table: Table, row: int, s: Any, R: Ref, T: Ref,
-                   kv: Mapping[str, tuple[Ref, Ref]], weights: Mapping[str, Ref]
-                   ) -> dict[str, Ref | None]:
-    out: dict[str, Ref | None] = {}
-    try:
-        counts = element_counts(s.formula) if s.formula else {}
-    except Exception:  # a formula calwork could not read: the chain reported why
-        counts = {}
-    du0 = plan.refs.get(("du0_mean", s.sample))
-    u_du0 = plan.refs.get(("u_du0", s.sample))
+def _plain_formation(table: Table, row: int, s: Any, why: str) -> dict[str, Ref | None]:
+    table.put(row, "note", f"values from calwork ({why})")
     plain = {"dcU": s.delta_c_U_kJ_per_mol, "u_dcU": s.u_delta_c_U_kJ_per_mol,
              "dcH": s.delta_c_H_kJ_per_mol, "u_dcH": s.u_delta_c_H_kJ_per_mol,
              "dfH": s.delta_f_H_kJ_per_mol, "u_dfH": s.u_delta_f_H_kJ_per_mol,
              "U_dfH": s.U_delta_f_H_kJ_per_mol}
-    chon = bool(counts) and set(counts) <= set(_CHON)
-    if not chon or du0 is None or len(kv) < 2:
-        why = ("formula has elements other than C, H, O, N" if counts and not chon
-               else "no formula" if not counts else "no standard massic energy or key values")
-        table.put(row, "note", f"values from calwork ({why})")
-        for key, value in plain.items():
-            out[key] = table.put(row, key, value)
-        return out
+    return {key: table.put(row, key, value) for key, value in plain.items()}
+
+
+def _formation_row(plan: Plan, table: Table, row: int, s: Any, R: Ref, T: Ref,
+                   kv: Mapping[str, tuple[Ref, Ref]], weights: Mapping[str, Ref]
+                   ) -> dict[str, Ref | None]:
+    try:
+        counts = element_counts(s.formula) if s.formula else {}
+    except CalworkError:
+        counts = {}
+    du0 = plan.refs.get(("du0_mean", s.sample))
+    if not counts:
+        return _plain_formation(table, row, s, "no formula")
+    if not set(counts) <= set(_CHON):
+        return _plain_formation(table, row, s, "formula has elements other than C, H, O, N")
+    if du0 is None or s.delta_c_U_kJ_per_mol is None:
+        return _plain_formation(table, row, s, "no standard massic energy")
+    if not {"CO2(g)", "H2O(l)"} <= set(kv):
+        return _plain_formation(table, row, s, "key values of CO2(g) and H2O(l) not recorded")
+    out: dict[str, Ref | None] = {}
     n = {el: table.put(row, k, counts.get(el, 0.0)) for el, k in zip(_CHON, "abcd", strict=True)}
-    M = table.put(row, "M", _sum(n[el] * weights[el] for el in _CHON if counts.get(el)))
+    M = table.put(row, "M", _sum([n[el] * weights[el] for el in _CHON if counts.get(el)]))
     du0 = table.put(row, "du0", du0)
     name = s.sample
-    dcU = table.put(row, "dcU", plan.checked(M * du0 / 1000.0, s.delta_c_U_kJ_per_mol,
-                                             f"ΔcU° of {name}"))
-    out["dcU"] = dcU
+    out["dcU"] = dcU = table.put(row, "dcU", plan.checked(
+        M * du0 / 1000.0, s.delta_c_U_kJ_per_mol, f"ΔcU° of {name}"))
+    u_du0 = plan.refs.get(("u_du0", name))
     u_du0 = table.put(row, "u_du0", s.u_standard_massic_energy_J_per_g if u_du0 is None
                       else u_du0)
+    u_dcU = None
     if u_du0 is not None:
-        out["u_dcU"] = table.put(row, "u_dcU", plan.checked(
+        u_dcU = table.put(row, "u_dcU", plan.checked(
             M * u_du0 / 1000.0, s.u_delta_c_U_kJ_per_mol, f"u(ΔcU°) of {name}"))
     else:
-        out["u_dcU"] = table.put(row, "u_dcU", s.u_delta_c_U_kJ_per_mol)
+        table.put(row, "u_dcU", s.u_delta_c_U_kJ_per_mol)
+    out["u_dcU"] = u_dcU
     dn = table.put(row, "dn", n["O"] / 2.0 + n["N"] / 2.0 - n["H"] / 4.0)
-    dcH = table.put(row, "dcH", plan.checked(dcU + dn * R * T / 1000.0, s.delta_c_H_kJ_per_mol,
-                                             f"ΔcH° of {name}"))
-    out["dcH"] = dcH
-    u_dcH = table.put(row, "u_dcH", s.u_delta_c_H_kJ_per_mol)
+    out["dcH"] = dcH = table.put(row, "dcH", plan.checked(
+        dcU + dn * R * T / 1000.0, s.delta_c_H_kJ_per_mol, f"ΔcH° of {name}"))
+    u_dcH = table.put(row, "u_dcH", s.u_delta_c_H_kJ_per_mol if u_dcU is None else
+                      plan.checked(u_dcU + 0.0, s.u_delta_c_H_kJ_per_mol, f"u(ΔcH°) of {name}"))
     out["u_dcH"] = u_dcH
     (co2, u_co2), (h2o, u_h2o) = kv["CO2(g)"], kv["H2O(l)"]
     out["dfH"] = table.put(row, "dfH", plan.checked(
         n["C"] * co2 + n["H"] / 2.0 * h2o - dcH, s.delta_f_H_kJ_per_mol, f"ΔfH° of {name}"))
-    if u_dcH is not None:
-        u_dfH = table.put(row, "u_dfH", plan.checked(
-            quadrature(u_dcH, n["C"] * u_co2, n["H"] / 2.0 * u_h2o), s.u_delta_f_H_kJ_per_mol,
-            f"u(ΔfH°) of {name}"))
-        out["u_dfH"] = u_dfH
+    u_kv = table.put(row, "u_kv", plan.checked(
+        quadrature(n["C"] * u_co2, n["H"] / 2.0 * u_h2o), s.budget.get("key_values_kJ_per_mol"),
+        f"key-value part of u(ΔfH°) of {name}"))
+    if u_dcH is not None and u_kv is not None:
+        out["u_dfH"] = u_dfH = table.put(row, "u_dfH", plan.checked(
+            quadrature(u_dcH, u_kv), s.u_delta_f_H_kJ_per_mol, f"u(ΔfH°) of {name}"))
         if u_dfH is not None:
-            k = Const(float(s.coverage_factor))
             out["U_dfH"] = table.put(row, "U_dfH", plan.checked(
-                k * u_dfH, s.U_delta_f_H_kJ_per_mol, f"U(ΔfH°) of {name}"))
+                Const(float(s.coverage_factor)) * u_dfH, s.U_delta_f_H_kJ_per_mol,
+                f"U(ΔfH°) of {name}"))
     return out
 
 
-def _sum(terms: Any) -> Expr:
-    items = list(terms)
-    out = items[0]
-    for t in items[1:]:
+def _sum(terms: list[Expr]) -> Expr:
+    out = terms[0]
+    for t in terms[1:]:
         out = out + t
     return out

@@ -1,8 +1,17 @@
 """Per-run sheets of the workbook: Corrections, Calibration runs, Sample runs, Solution runs.
 
-Arithmetic is written as formulas (energy equivalent of a calibration run, massic energy of a
-combustion run, sums of corrections); corrected rises and their uncertainties come from fits and
-are plain numbers with the method named beside them.
+The formulas are those of the bomb chain (:mod:`calwork.bomb.chain`, METHODS.md (3.1)–(3.4)):
+
+* mass in vacuum ``m = m_weighed · b`` (b = buoyancy factor, 1 for masses in vacuum);
+* Jessup's factor ``f = 1 + 10⁻⁶ [a (p/atm − p₀) + b (m/V − s₀) + c (w/V − w₀) + d (t − t₀)]``
+  with the reference material's coefficients (:mod:`calwork.bomb.certificate`);
+* contents referral to T_ref ``R = ε^i (T_i − T_ref) + ε^f (T_ref − T_i − ΔT_c)``;
+* calibration ``ε = (m·q·f + Σ corrections + R) / ΔT_c``;
+* combustion ``Δu = −(ε·ΔT_c − R − Σ corrections) / m`` and ``Δu° = Δu + ΔU_Σ / m``.
+
+Corrected rises and their uncertainties come from fits, the contents' energy equivalents from
+the bomb-gas model and the Washburn correction from its own computation: those are plain
+numbers, with the method named.
 """
 
 from __future__ import annotations
@@ -10,7 +19,9 @@ from __future__ import annotations
 from collections.abc import Iterable
 from typing import Any
 
-from calwork.report.formulas import Ref, total
+from calwork.constants import T_REF_K, STANDARD_ATMOSPHERE_Pa
+from calwork.errors import CalworkError
+from calwork.report.formulas import Const, Expr, Ref, total
 from calwork.report.plan import Plan, Table, detail
 
 __all__ = [
@@ -25,23 +36,34 @@ __all__ = [
 
 SOLUTION_KINDS = ("electrical", "solution", "blank")
 
-# Names of the RunResult.details keys the chain fills in (calwork.bomb.chain).
-MASS_KEYS = ("mass_vacuum_g", "mass_in_vacuum_g", "sample_mass_vacuum_g")
-CERT_KEYS = ("certified_J_per_g", "certified_massic_energy_J_per_g")
-FACTOR_KEYS = ("certificate_factor", "jessup_factor")
-
 CORRECTIONS = "Corrections"
 CALIBRATION_RUNS = "Calibration runs"
 SAMPLE_RUNS = "Sample runs"
 SOLUTION_RUNS = "Solution runs"
 
+_TAIL = [("date", "date", None), ("operator", "operator", None), ("notes", "notes", None),
+         ("warnings", "warnings", None), ("error", "error", None)]
+_MASS = [
+    ("mass_w", "mass weighed (g)", "0.00000"),
+    ("buoy", "buoyancy factor b (1 = weighed in vacuum)", "0.0000000"),
+    ("mass", "mass in vacuum m = mass·b (g)", "0.000000"),
+]
+_CONTENTS = [
+    ("eps_i", "ε^i of the bomb contents (J/K)", "0.000"),
+    ("eps_f", "ε^f of the bomb contents (J/K)", "0.000"),
+    ("T_i", "T_i, start of main period (K, fitted)", "0.00000"),
+    ("T_ref", "T_ref (K)", "0.00"),
+    ("rise", "corrected rise ΔT_c (K, fitted)", "0.000000"),
+    ("u_rise", "u(ΔT_c) (K)", "0.000000"),
+    ("method", "rise method", None),
+    ("referral", "contents referral R = ε^i(T_i − T_ref) + ε^f(T_ref − T_i − ΔT_c) (J)",
+     "0.000"),
+    ("corr", "Σ corrections (J)", "0.000"),
+]
+
 
 def _infos(plan: Plan) -> dict[str, Any]:
     return {info.run: info for info in plan.reduction.run_infos}
-
-
-def _text_list(items: Iterable[str]) -> str:
-    return "; ".join(str(i) for i in items)
 
 
 def _ordered_runs(plan: Plan, kind: str, groups: Iterable[Iterable[str]]) -> list[Any]:
@@ -57,6 +79,18 @@ def _ordered_runs(plan: Plan, kind: str, groups: Iterable[Iterable[str]]) -> lis
     return out
 
 
+def ordered_bomb_runs(plan: Plan) -> tuple[list[Any], list[Any]]:
+    """Calibration runs (by series) and combustion runs (by sample series), in sheet order."""
+    red = plan.reduction
+    return (_ordered_runs(plan, "calibration", [c.runs for c in red.calibrations]),
+            _ordered_runs(plan, "combustion", [s.runs for s in red.samples]))
+
+
+def runs_of(refs: dict, what: str, ids: Iterable[str]) -> list[Ref]:
+    """The cells of ``what`` for the run ids that have one."""
+    return [refs[(what, rid)] for rid in ids if (what, rid) in refs]
+
+
 def plan_corrections(plan: Plan, runs: list[Any]) -> None:
     """One row per bomb run, one column per correction (J, + = heat released), and Σ."""
     names: list[str] = []
@@ -65,30 +99,28 @@ def plan_corrections(plan: Plan, runs: list[Any]) -> None:
     grid = plan.grid(CORRECTIONS)
     cols = [("run", "run", None), ("kind", "kind", None)]
     cols += [(f"c:{n}", f"{n} (J)", "0.000") for n in names]
-    cols += [("sum", "Σ corrections (J)", "0.000")]
+    cols += [("sum", "Σ corrections (J)", "0.000"), ("constants", "constants used", None)]
     table = Table(grid, 1, cols)
-    note_row = len(runs) + 3
-    grid.put(note_row, 1, "Correction energies in J, positive when the process releases heat "
-             "into the calorimeter (ignition, fuse, cotton, auxiliary material, nitric acid...), "
-             "as computed by calwork from the run-sheet columns and the cited constants.",
-             kind="note")
     for i, run in enumerate(runs):
         row = 2 + i
         table.put(row, "run", run.run)
         table.put(row, "kind", run.kind)
-        refs = []
-        for name, value in run.corrections_J.items():
-            ref = table.put(row, f"c:{name}", float(value))
-            if ref is not None:
-                refs.append(ref)
-        if refs:
-            content = plan.checked(total(refs), sum(float(v) for v in run.corrections_J.values()),
-                                   f"Σ corrections of run {run.run}")
-        else:
-            content = 0.0
+        refs = [ref for name, value in run.corrections_J.items()
+                if (ref := table.put(row, f"c:{name}", float(value))) is not None]
+        constants = run.details.get("correction_constants") or {}
+        table.put(row, "constants", "; ".join(f"{k}: {v}" for k, v in constants.items())
+                  or None)
+        if not refs:
+            continue
+        content = plan.checked(total(refs), sum(float(v) for v in run.corrections_J.values()),
+                               f"Σ corrections of run {run.run}")
         ref = table.put(row, "sum", content)
         if ref is not None:
             plan.refs[("corr", run.run)] = ref
+    grid.put(len(runs) + 3, 1, "Correction energies in J, positive when the process releases "
+             "heat into the calorimeter (ignition, fuse, cotton, auxiliary material, acids), "
+             "negative for soot; computed by calwork.bomb.corrections from the run-sheet "
+             "columns with the constants named.", kind="note")
 
 
 def _common(table: Table, row: int, run: Any, info: Any) -> None:
@@ -98,28 +130,87 @@ def _common(table: Table, row: int, run: Any, info: Any) -> None:
         table.put(row, "date", info.date)
         table.put(row, "operator", info.operator)
         table.put(row, "notes", info.notes)
-    table.put(row, "warnings", _text_list(run.warnings) or None)
+    table.put(row, "warnings", "; ".join(run.warnings) or None)
     table.put(row, "error", run.error)
 
 
-_TAIL = [("date", "date", None), ("operator", "operator", None), ("notes", "notes", None),
-         ("warnings", "warnings", None), ("error", "error", None)]
+def _mass(plan: Plan, table: Table, row: int, run: Any, info: Any) -> Ref | None:
+    weighed = None if info is None else info.mass_g
+    m_vac = detail(run.details, "mass_vacuum_g")
+    mass_w = table.put(row, "mass_w", weighed)
+    buoy = table.put(row, "buoy", detail(run.details, "buoyancy_factor") or 1.0)
+    if mass_w is None or m_vac is None:
+        return table.put(row, "mass", m_vac)
+    return table.put(row, "mass", plan.checked(mass_w * buoy, m_vac,
+                                               f"mass in vacuum of run {run.run}"))
+
+
+def _referral(plan: Plan, table: Table, row: int, run: Any) -> tuple[Ref | None, ...]:
+    """ε^i, ε^f, T_i, T_ref, ΔT_c cells and the contents referral R (formula when included)."""
+    d = run.details
+    rise = table.put(row, "rise", run.corrected_rise_K)
+    table.put(row, "u_rise", run.u_corrected_rise_K)
+    table.put(row, "method", getattr(run.rise, "method", None) or plan.reduction.method)
+    if not d.get("contents_included"):
+        referral = table.put(row, "referral", 0.0 if run.error is None else None)
+        return rise, referral
+    eps_i = table.put(row, "eps_i", detail(d, "eps_initial_contents_J_per_K"))
+    eps_f = table.put(row, "eps_f", detail(d, "eps_final_contents_J_per_K"))
+    T_i = table.put(row, "T_i", getattr(run.rise, "T_initial_K", None))
+    T_ref = table.put(row, "T_ref", T_REF_K)
+    reported = detail(d, "contents_referral_J")
+    if None in (eps_i, eps_f, T_i, T_ref, rise):
+        return rise, table.put(row, "referral", reported)
+    expr = eps_i * (T_i - T_ref) + eps_f * (T_ref - T_i - rise)
+    return rise, table.put(row, "referral", plan.checked(expr, reported,
+                                                        f"contents referral of run {run.run}"))
+
+
+def _jessup(plan: Plan, table: Table, row: int, run: Any, info: Any, m: Ref | None
+            ) -> Ref | None:
+    """Jessup's factor as a formula of the bomb conditions (when the bomb volume is known)."""
+    d = run.details
+    reported = detail(d, "jessup_factor")
+    if reported is None:
+        return table.put(row, "factor", 1.0)
+    try:
+        from calwork.bomb.certificate import load_reference_material
+        from calwork.bomb.chain import bomb_conditions
+
+        cond = bomb_conditions(info)
+        material = load_reference_material(str(d.get("reference_material", "benzoic acid")))
+    except (CalworkError, AttributeError, TypeError):
+        return table.put(row, "factor", reported)
+    p = table.put(row, "p", cond.o2_pressure_MPa)
+    t = table.put(row, "t", detail(d, "jessup_temperature_C"))
+    if not cond.complete or m is None or t is None or p is None:
+        return table.put(row, "factor", reported)
+    V = table.put(row, "V", cond.bomb_volume_L)
+    w = table.put(row, "w", cond.bomb_water_g)
+    c, s = material.jessup_ppm, material.standard_conditions
+    atm = STANDARD_ATMOSPHERE_Pa / 1e6
+    ppm = (Const(c["per_atm"]) * (p / atm - s["o2_pressure_atm"])
+           + Const(c["per_sample_g_per_L"]) * (m / V - s["sample_g_per_L"])
+           + Const(c["per_water_g_per_L"]) * (w / V - s["water_g_per_L"])
+           + Const(c["per_K"]) * (t - s["temperature_C"]))
+    return table.put(row, "factor", plan.checked(1.0 + ppm / 1e6, reported,
+                                                 f"Jessup factor of run {run.run}"))
 
 
 def plan_calibration_runs(plan: Plan, runs: list[Any]) -> None:
-    """ε = (m·q·f + Σ corrections)/ΔT_c for every calibration run, as a formula."""
+    """ε = (m·q·f + Σ corrections + R)/ΔT_c for every calibration run, as a formula."""
     grid = plan.grid(CALIBRATION_RUNS)
     cols = [
         ("run", "run", None), ("calorimeter", "calorimeter", None),
-        ("material", "reference material", None),
-        ("mass", "mass in vacuum m (g)", "0.00000"),
+        ("material", "reference material", None), *_MASS,
         ("cert", "certified massic energy q (J/g, positive)", "0.0"),
-        ("factor", "certificate factor f (Jessup, 1 = certificate conditions)", "0.0000000"),
-        ("corr", "Σ corrections (J)", "0.000"),
-        ("rise", "corrected rise ΔT_c (K, fitted)", "0.000000"),
-        ("u_rise", "u(ΔT_c) (K)", "0.000000"),
-        ("method", "rise method", None),
-        ("eps", "energy equivalent ε = (m·q·f + Σ corr)/ΔT_c (J/K)", "0.000"),
+        ("p", "O2 pressure p (MPa)", "0.000"), ("V", "bomb volume V (L)", "0.0000"),
+        ("w", "water in bomb w (g)", "0.000"),
+        ("t", "temperature of the bomb process t (°C)", "0.00"),
+        ("factor", ("Jessup factor f = 1 + 1e-6·[a(p/atm − 30) + b(m/V − 3) + c(w/V − 3) + "
+                   "d(t − 25)]"), "0.00000000"),
+        *_CONTENTS,
+        ("eps", "energy equivalent ε = (m·q·f + Σ corr + R)/ΔT_c (J/K)", "0.000"),
         *_TAIL,
     ]
     table = Table(grid, 1, cols)
@@ -128,40 +219,37 @@ def plan_calibration_runs(plan: Plan, runs: list[Any]) -> None:
         row = 2 + i
         info = infos.get(run.run)
         _common(table, row, run, info)
-        table.put(row, "material", (info.reference_material if info else None) or run.sample)
-        m = table.put(row, "mass", detail(run.details, *MASS_KEYS))
-        q = table.put(row, "cert", detail(run.details, *CERT_KEYS))
-        factor = detail(run.details, *FACTOR_KEYS)
-        f = table.put(row, "factor", 1.0 if factor is None else factor)
+        table.put(row, "material", run.details.get("reference_material") or run.sample)
+        m = _mass(plan, table, row, run, info)
+        q = table.put(row, "cert", detail(run.details, "certified_J_per_g"))
+        f = _jessup(plan, table, row, run, info, m)
         corr = plan.refs.get(("corr", run.run))
-        if corr is not None:
-            corr = table.put(row, "corr", corr)
-        rise = table.put(row, "rise", run.corrected_rise_K)
-        table.put(row, "u_rise", run.u_corrected_rise_K)
-        table.put(row, "method", getattr(run.rise, "method", None) or plan.reduction.method)
+        corr = table.put(row, "corr", corr) if corr is not None else None
+        rise, referral = _referral(plan, table, row, run)
         eps = run.energy_equivalent_J_per_K
-        if None not in (m, q, f, corr, rise):
-            content = plan.checked((m * q * f + corr) / rise, eps,
-                                   f"energy equivalent of calibration run {run.run}")
+        if run.error is None and None not in (m, q, f, corr, rise, referral):
+            content: Expr | float | None = plan.checked(
+                (m * q * f + corr + referral) / rise, eps,
+                f"energy equivalent of calibration run {run.run}")
         else:
             content = eps
         ref = table.put(row, "eps", content)
         if ref is not None and run.error is None:
             plan.refs[("eps", run.run)] = ref
+    grid.put(len(runs) + 3, 1, "Jessup coefficients a, b, c, d are those of the reference "
+             "material's data file (calwork/data/benzoic_acid.toml; recalled from memory, as "
+             "printed on SRM 39 certificates). ε^i, ε^f from the bomb-gas model "
+             "(calwork.bomb.contents).", kind="note")
 
 
 def plan_sample_runs(plan: Plan, runs: list[Any]) -> None:
-    """Δu = −(ε·ΔT_c − Σ corrections)/m and Δu° = Δu + ΔU_Σ/m per combustion run."""
+    """Δu = −(ε·ΔT_c − R − Σ corrections)/m and Δu° = Δu + ΔU_Σ/m per combustion run."""
     grid = plan.grid(SAMPLE_RUNS)
     cols = [
         ("run", "run", None), ("sample", "sample", None), ("calorimeter", "calorimeter", None),
-        ("mass", "mass in vacuum m (g)", "0.00000"),
-        ("eps", "energy equivalent ε used (J/K)", "0.000"),
-        ("rise", "corrected rise ΔT_c (K, fitted)", "0.000000"),
-        ("u_rise", "u(ΔT_c) (K)", "0.000000"),
-        ("method", "rise method", None),
-        ("corr", "Σ corrections (J)", "0.000"),
-        ("du", "massic energy Δu = −(ε·ΔT_c − Σ corr)/m (J/g)", "0.00"),
+        *_MASS, ("eps", "energy equivalent ε used (J/K, mean of the calibration)", "0.000"),
+        *_CONTENTS,
+        ("du", "massic energy Δu = −(ε·ΔT_c − R − Σ corr)/m (J/g)", "0.00"),
         ("washburn", "standard-state (Washburn) correction ΔU_Σ (J)", "0.000"),
         ("du0", "standard massic energy Δu° = Δu + ΔU_Σ/m (J/g)", "0.00"),
         *_TAIL,
@@ -172,24 +260,17 @@ def plan_sample_runs(plan: Plan, runs: list[Any]) -> None:
         row = 2 + i
         _common(table, row, run, infos.get(run.run))
         table.put(row, "sample", run.sample)
-        m = table.put(row, "mass", detail(run.details, *MASS_KEYS))
-        eps_value = run.energy_equivalent_J_per_K
+        m = _mass(plan, table, row, run, infos.get(run.run))
         mean = plan.refs.get(("eps_mean", run.calorimeter or ""))
-        if mean is not None and eps_value is not None:
-            eps = table.put(row, "eps", plan.checked(mean, eps_value,
-                                                     f"energy equivalent used for run {run.run}"))
-        else:
-            eps = table.put(row, "eps", eps_value)
-        rise = table.put(row, "rise", run.corrected_rise_K)
-        table.put(row, "u_rise", run.u_corrected_rise_K)
-        table.put(row, "method", getattr(run.rise, "method", None) or plan.reduction.method)
+        eps = table.put(row, "eps", mean if mean is not None and run.error is None
+                        else run.energy_equivalent_J_per_K)
+        rise, referral = _referral(plan, table, row, run)
         corr = plan.refs.get(("corr", run.run))
-        if corr is not None:
-            corr = table.put(row, "corr", corr)
+        corr = table.put(row, "corr", corr) if corr is not None else None
         du_value = run.massic_energy_J_per_g
-        if None not in (m, eps, rise, corr) and run.error is None:
-            du = table.put(row, "du", plan.checked(-(eps * rise - corr) / m, du_value,
-                                                   f"massic energy of run {run.run}"))
+        if run.error is None and None not in (m, eps, rise, referral, corr):
+            du = table.put(row, "du", plan.checked(-(eps * rise - referral - corr) / m,
+                                                   du_value, f"massic energy of run {run.run}"))
         else:
             du = table.put(row, "du", du_value)
         w = table.put(row, "washburn", run.washburn_J)
@@ -204,6 +285,8 @@ def plan_sample_runs(plan: Plan, runs: list[Any]) -> None:
                 plan.refs[("du", run.run)] = du
             if du0 is not None:
                 plan.refs[("du0", run.run)] = du0
+    grid.put(len(runs) + 3, 1, "ΔU_Σ: the standard-state (Washburn) correction of the whole "
+             "bomb content (calwork.bomb.washburn).", kind="note")
 
 
 def plan_solution_runs(plan: Plan, runs: list[Any]) -> None:
@@ -240,15 +323,3 @@ def plan_solution_runs(plan: Plan, runs: list[Any]) -> None:
     grid.put(len(runs) + 3, 1, "Solution-calorimetry values as computed by calwork.solution "
              "(electrical calibration, blanks, vaporisation and dilution corrections).",
              kind="note")
-
-
-def ordered_bomb_runs(plan: Plan) -> tuple[list[Any], list[Any]]:
-    """Calibration runs (by series) and combustion runs (by sample series), in sheet order."""
-    red = plan.reduction
-    return (_ordered_runs(plan, "calibration", [c.runs for c in red.calibrations]),
-            _ordered_runs(plan, "combustion", [s.runs for s in red.samples]))
-
-
-def runs_of(refs: dict, what: str, ids: Iterable[str]) -> list[Ref]:
-    """The cells of ``what`` for the run ids that have one."""
-    return [refs[(what, rid)] for rid in ids if (what, rid) in refs]

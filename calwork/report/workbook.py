@@ -26,6 +26,7 @@ from typing import Any
 from calwork.errors import ExportError
 from calwork.provenance import calwork_version
 from calwork.report.grid import new_workbook, save_workbook
+from calwork.report.output import atomic_target
 from calwork.report.plan import Plan, Table
 from calwork.report.sanitise import safe_sheet_title
 from calwork.report.texts import SAFETY_NOTE, is_simulated
@@ -171,16 +172,18 @@ def write_workbook(reduction: Any, path: str | Path, *, include_readings: bool =
                 title = safe_sheet_title(f"Log {run.run}", taken)
                 taken.append(title)
                 log_titles[run.run] = title
-    plan = plan_workbook(reduction, log_titles=log_titles)
-    wb = new_workbook()
-    cached: dict[str, dict[str, float]] = {}
-    for grid in plan.grids.values():
-        if grid.cells:
-            grid.write(wb, cached)
-    by_id = {r.run: r for r in reduction.runs}
-    tails = {
-        title: write_log_sheet(wb, title, by_id[rid], reduction.thermograms[rid],
-                               method=reduction.method, charts=charts)
-        for rid, title in log_titles.items()
-    }
-    return save_workbook(wb, path, cached, tails)
+    with atomic_target(path, what="workbook") as tmp:
+        plan = plan_workbook(reduction, log_titles=log_titles)
+        wb = new_workbook()
+        cached: dict[str, dict[str, float]] = {}
+        for grid in plan.grids.values():
+            if grid.cells:
+                grid.write(wb, cached)
+        by_id = {r.run: r for r in reduction.runs}
+        tails = {
+            title: write_log_sheet(wb, title, by_id[rid], reduction.thermograms[rid],
+                                   method=reduction.method, charts=charts)
+            for rid, title in log_titles.items()
+        }
+        save_workbook(wb, tmp, cached, tails)
+    return path

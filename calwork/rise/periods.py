@@ -211,9 +211,15 @@ def _locate_event(t: np.ndarray, Tm: np.ndarray, sigma: float, where: dict) -> _
                   sign=1 if dev[j] > 0 else -1)
 
 
-def _detect_onset(t: np.ndarray, T: np.ndarray, sigma: float, peak: int, sign: int,
+def _detect_onset(t: np.ndarray, T: np.ndarray, sigma: float, peak: int, lo: int, sign: int,
                   where: dict) -> tuple[int, float]:
-    """Index of the first departing reading and the fire-confidence score."""
+    """Index of the first departing reading and the fire-confidence score.
+
+    The search starts a little before the steep part of the event (``2W`` readings, or three
+    times the steep part's lead to the peak, before ``lo``), so that a slow settling of the
+    calorimeter early in the fore period is not taken for the onset; if nothing departs
+    there, the whole fore record is searched.
+    """
     m = ONSET_PERSISTENCE
     dt = float(np.median(np.diff(t)))
     W = int(min(max(8, round(120.0 / dt)), 60, peak - m - 1))
@@ -223,20 +229,26 @@ def _detect_onset(t: np.ndarray, T: np.ndarray, sigma: float, peak: int, sign: i
             found=f"{peak} readings before the steepest rise", expected="at least 10", **where)
     tc = t - t[peak]
     y = T - T[0]
-    z = np.zeros(1)
-    cs = [np.concatenate([z, np.cumsum(v)]) for v in (tc, tc * tc, y, tc * y)]
-    J = np.arange(W, peak + 1)
-    a, b = J - W, J
-    st, stt, sy, sty = (c[b] - c[a] for c in cs)
-    sxx = stt - st * st / W
-    slope = (sty - st * sy / W) / sxx
-    icpt = (sy - slope * st) / W
-    tbar = st / W
-    idx = np.minimum(J[:, None] + np.arange(m + 1)[None, :], t.size - 1)
-    pred = icpt[:, None] + slope[:, None] * tc[idx]
-    var = 1.0 + 1.0 / W + (tc[idx] - tbar[:, None]) ** 2 / sxx[:, None]
-    zscore = sign * (y[idx] - pred) / (sigma * np.sqrt(var))
-    hits = np.flatnonzero(np.all(zscore > ONSET_SIGMA, axis=1))
+    zero = np.zeros(1)
+    cs = [np.concatenate([zero, np.cumsum(v)]) for v in (tc, tc * tc, y, tc * y)]
+
+    def scan(start: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        J = np.arange(start, peak + 1)
+        a, b = J - W, J
+        st, stt, sy, sty = (c[b] - c[a] for c in cs)
+        sxx = stt - st * st / W
+        slope = (sty - st * sy / W) / sxx
+        icpt = (sy - slope * st) / W
+        idx = np.minimum(J[:, None] + np.arange(m + 1)[None, :], t.size - 1)
+        pred = icpt[:, None] + slope[:, None] * tc[idx]
+        var = 1.0 + 1.0 / W + (tc[idx] - (st / W)[:, None]) ** 2 / sxx[:, None]
+        zscore = sign * (y[idx] - pred) / (sigma * np.sqrt(var))
+        return J, zscore, np.flatnonzero(np.all(zscore > ONSET_SIGMA, axis=1))
+
+    start = max(W, lo - max(2 * W, 3 * (peak - lo)))
+    J, zscore, hits = scan(start)
+    if hits.size == 0 and start > W:
+        J, zscore, hits = scan(W)
     if hits.size == 0:
         raise PeriodDetectionError(
             "no onset of a heat event found: the readings never depart from the fore-period "
@@ -407,7 +419,8 @@ def detect_periods(thermogram: Thermogram, *, fire_time_s: float | None = None,
     heater = _heater_interval(thermogram, t_all)
     heater_off = heater[1] if heater else None
     try:
-        j_on, conf = _detect_onset(t, T, sigma0, peak, event.sign, where)
+        lo_g = int(np.searchsorted(t, t_all[event.lo]))
+        j_on, conf = _detect_onset(t, T, sigma0, peak, lo_g, event.sign, where)
         onset_s = float(t[j_on])
     except PeriodDetectionError:
         if fire_time_s is None and heater is None:

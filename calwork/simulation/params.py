@@ -27,6 +27,8 @@ PRESETS = ("bomb", "solution")
 #: of the inner body and the thermometer have died out, water at ``initial_temperature_K``);
 #: ``'uniform'`` = every body and the thermometer at ``initial_temperature_K``.
 INITIAL_STATES = ("steady", "uniform")
+#: Shortest time constant the integrator accepts, s (shorter ones: model the body as one).
+_MIN_TIME_CONSTANT_S = 1e-9
 
 
 def _finite(name: str, value: Any) -> float:
@@ -126,10 +128,23 @@ class CalorimeterParams:
         _finite("jacket_drift_K_per_s", self.jacket_drift_K_per_s)
         _non_negative("stirring_power_W", self.stirring_power_W)
         _non_negative("thermometer_lag_s", self.thermometer_lag_s)
+        if 0 < self.thermometer_lag_s < _MIN_TIME_CONSTANT_S:
+            raise SimulationError("thermometer lag too short to integrate", column=
+                                  "thermometer_lag_s", found=self.thermometer_lag_s,
+                                  expected=f"0 (no lag) or at least {_MIN_TIME_CONSTANT_S} s")
         _positive("sampling_interval_s", self.sampling_interval_s)
         _non_negative("noise_K", self.noise_K)
         _non_negative("quantisation_K", self.quantisation_K)
         _positive("initial_temperature_K", self.initial_temperature_K)
+        cmin = min(self.bomb_heat_capacity_J_per_K, self.water_heat_capacity_J_per_K)
+        for name in ("bomb_water_conductance_W_per_K", "exchange_conductance_W_per_K"):
+            value = getattr(self, name)
+            if value is not None and value / cmin > 1 / _MIN_TIME_CONSTANT_S:
+                raise SimulationError(
+                    "conductance too large for the heat capacities (time constant below "
+                    f"{_MIN_TIME_CONSTANT_S} s)", column=name, found=value,
+                    expected=f"at most {cmin / _MIN_TIME_CONSTANT_S:.3g} W/K (or None for one "
+                    "body)")
         _non_negative("electrical_noise_relative", self.electrical_noise_relative)
         try:
             check_choice("initial_state", self.initial_state, INITIAL_STATES)

@@ -162,9 +162,11 @@ def simulate_solution_day(
         q_break = float(rng.normal(_BREAK_MEAN_J, _BREAK_SD_J))
         q_vap = vaporisation_correction_J(gas_mL, 298.15).correction_J
         energy = -n * H * 1000.0 + q_break + q_vap
-        # start so that the break happens half the dissolution's fall above 298.15 K
-        T0 = 298.15 - heat_rise - energy / eps / 2.0
-        p = CalorimeterParams.solution_preset(initial_temperature_K=T0)
+        # the jacket is set so that the mean temperature of the dissolution is 298.15 K (the
+        # cell starts in its steady state; one correction for the first heating's remainder)
+        target = 298.15 - energy / eps / 2.0
+        offset = base.stirring_power_W / base.exchange_conductance_W_per_K  # T_inf − T_j
+        jacket = target - offset
         inputs = [
             HeaterInterval(power_W=_HEATER_POWER_W, on_s=300.0, off_s=300.0 + _HEATER_S,
                            resistance_ohm=_HEATER_OHM),
@@ -172,7 +174,13 @@ def simulate_solution_day(
             HeaterInterval(power_W=_HEATER_POWER_W, on_s=1800.0, off_s=1800.0 + _HEATER_S,
                            resistance_ohm=_HEATER_OHM),
         ]
-        sim = simulate_run(p, inputs, duration_s=2700.0, seed=int(rng.integers(2**31)))
+        noise_seed = int(rng.integers(2**31))
+        for _ in range(2):
+            p = CalorimeterParams.solution_preset(jacket_temperature_K=jacket,
+                                                  initial_temperature_K=jacket + offset)
+            sim = simulate_run(p, inputs, duration_s=2700.0, seed=noise_seed)
+            at_break = float(np.interp(1200.0, sim.thermogram.time_s, sim.water_temperature_K))
+            jacket += target - at_break
         emit(run, "solution", sim.thermogram,
              {"molar_enthalpy_kJ_per_mol": H, "final_molality_mol_per_kg": m,
               "ampoule_breaking_J": q_break, "vaporisation_J": q_vap, "heat_released_J": energy},

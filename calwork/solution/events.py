@@ -29,6 +29,7 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 from dataclasses import dataclass, field
+from functools import cache
 
 import numpy as np
 
@@ -157,12 +158,26 @@ def _robust_sigma(r: np.ndarray) -> float:
     return float(1.4826 * np.median(np.abs(r - np.median(r))))
 
 
+def _line(x: np.ndarray, y: np.ndarray) -> np.ndarray:
+    """Least-squares line ``y = c x + a`` (closed form), as ``[c, a]``."""
+    xm, ym = x.mean(), y.mean()
+    dx = x - xm
+    sxx = float(dx @ dx)
+    c = float(dx @ (y - ym)) / sxx if sxx > 0 else 0.0
+    return np.array([c, ym - c * xm])
+
+
+@cache
+def _pairs(n: int) -> tuple[np.ndarray, np.ndarray]:
+    return np.triu_indices(n, k=1)
+
+
 def _theil_sen(x: np.ndarray, y: np.ndarray, max_points: int = 120) -> np.ndarray:
     """Median-of-pairwise-slopes line ``y = c x + a`` (on at most ``max_points`` readings)."""
     if x.size > max_points:
-        pick = np.linspace(0, x.size - 1, max_points).round().astype(int)
+        pick = (np.arange(max_points) * (x.size - 1)) // (max_points - 1)
         x, y = x[pick], y[pick]
-    i, j = np.triu_indices(x.size, k=1)
+    i, j = _pairs(x.size)
     dx = x[j] - x[i]
     ok = np.abs(dx) > 0
     if not np.any(ok):
@@ -237,11 +252,10 @@ def find_events(
     r = slope - (coef[0] * (T - T[0]) + coef[1])
     sigma = _robust_sigma(r[quiet])
     use = quiet & (np.abs(r) < 5.0 * sigma) if sigma > 0 else quiet.copy()
-    for _ in range(4):
+    for _ in range(3):
         if np.count_nonzero(use) < 10:
             break
-        A = np.column_stack([T[use] - T[0], np.ones(np.count_nonzero(use))])
-        coef, *_ = np.linalg.lstsq(A, slope[use], rcond=None)
+        coef = _line(T[use] - T[0], slope[use])
         r = slope - (coef[0] * (T - T[0]) + coef[1])
         sigma = _robust_sigma(r[use])
         if sigma <= 0:

@@ -85,6 +85,10 @@ def main(argv: list[str] | None = None) -> int:
             t0 = time.perf_counter()
             ok = book.verify().ok
             t_ver = time.perf_counter() - t0
+            t0 = time.perf_counter()
+            n_listed = len(book.runs())
+            points, _ = book.calibration_series("sim-bomb-1")
+            t_list = time.perf_counter() - t0
             blob_raw, blob_stored, n_blobs = book.connection.execute(
                 "SELECT SUM(size), SUM(length(data)), COUNT(*) FROM blobs").fetchone()
             n_logs = book.connection.execute(
@@ -103,7 +107,8 @@ def main(argv: list[str] | None = None) -> int:
               "(import, reduce, store)")
         print(f"recompute:   {report.runs} runs in {t_rec:.1f} s = {report.runs / t_rec:.0f} "
               f"runs/s ({report.numbers} numbers compared; all agree)")
-        print(f"verify:      {t_ver:.1f} s ({'ok' if ok else 'FAILED'})")
+        print(f"verify:      {t_ver:.1f} s ({'ok' if ok else 'FAILED'}); list of {n_listed} "
+              f"runs + QA series of {len(points)} calibrations: {t_list:.2f} s")
         print(f"lab book:    {size / 1e6:.1f} MB = {size / n_runs / 1024:.2f} KiB per run; "
               f"raw log bytes {raw_logs / 1e6:.1f} MB = {raw_per_run / 1024:.2f} KiB per run "
               f"-> {size / raw_logs:.3f}x as measured (shared logs stored once: "

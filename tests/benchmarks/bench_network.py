@@ -6,7 +6,7 @@ A synthetic network of N species C_xH_yO_z(g,sK) (distinct labelled states) and 
 balanced reactions among 2–3 of them (closed with C(cr,graphite), H2(g), O2(g)), plus
 priors on 10 % of the species, with enthalpies from known Δ_fH plus noise of the stated u.
 Reported: seconds (solve incl. assembly, diagnostics and the covariance of 100 selected
-species) and peak memory (tracemalloc, a separate run), for the sparse solver at
+species; best of two runs) and peak memory (tracemalloc, a separate run), for the sparse solver at
 5 000 species / 20 000 determinations, a dense (SVD) vs sparse comparison at a size where
 dense fits, and scaling with the number of determinations. Synthetic data, not measurements.
 """
@@ -85,10 +85,12 @@ def synthetic_network(n_species: int, n_reactions: int, seed: int = 1
 
 
 def run(network: Network, method: str, wanted: list[Species]) -> tuple[float, float, object]:
-    t0 = time.perf_counter()
-    res = solve_network(network, key_values=False, worst_offender="none", method=method,
-                        covariance_species=wanted)
-    seconds = time.perf_counter() - t0
+    seconds = float("inf")
+    for _ in range(2):  # best of two: the machine is shared
+        t0 = time.perf_counter()
+        res = solve_network(network, key_values=False, worst_offender="none", method=method,
+                            covariance_species=wanted)
+        seconds = min(seconds, time.perf_counter() - t0)
     tracemalloc.start()
     solve_network(network, key_values=False, worst_offender="none", method=method,
                   covariance_species=wanted)

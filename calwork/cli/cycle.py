@@ -1,0 +1,56 @@
+"""``calwork cycle FILE``: a thermochemical cycle of enthalpies of solution."""
+
+from __future__ import annotations
+
+import argparse
+
+from calwork.cli._common import format_table, print_json
+
+__all__ = ["register", "run"]
+
+_HELP = """\
+Combine enthalpies of solution (and other reaction enthalpies) with the bundled CODATA key
+values into a thermochemical cycle and give the standard enthalpy of formation of the target
+(e.g. a hydrate from its anhydrous salt and water) with its uncertainty.
+
+FILE is a cycle file (TOML): a [cycle] table (name, target, target_reaction, key_values,
+omit_key_values), [[dissolution]] entries (solute, final_state or dilution_ratio or
+infinite_dilution, delta_sol_H_kJ_per_mol, u_delta_sol_H_kJ_per_mol), optional [[reaction]],
+[[species]] (known ΔfH° not bundled) and [[correlation]] tables. Uncertainties are standard
+uncertainties (k = 1). --export-network writes the cycle as a network CSV that
+`calwork network` reads.
+
+Caution: the dissolution enthalpies come from calorimeters with electrical heaters and glass
+ampoules; follow the instrument maker's instructions and local safety rules.
+"""
+
+
+def register(subparsers: argparse._SubParsersAction) -> None:
+    p = subparsers.add_parser("cycle", help="thermochemical cycle from enthalpies of solution",
+                              description=_HELP,
+                              formatter_class=argparse.RawDescriptionHelpFormatter)
+    p.add_argument("file", metavar="FILE", help="cycle file (.toml)")
+    p.add_argument("--json", action="store_true", help="print one JSON object")
+    p.add_argument("--coverage-factor", type=float, default=2.0, metavar="K",
+                   help="coverage factor of the expanded uncertainty (default 2)")
+    p.add_argument("--export-network", metavar="CSV",
+                   help="also write the cycle's determinations and priors as a network CSV")
+    p.set_defaults(func=run)
+
+
+def run(args: argparse.Namespace) -> int:
+    from calwork.solution.cycles import cycle_network, solve_cycle, write_network_csv
+
+    result = solve_cycle(args.file, coverage_factor=args.coverage_factor)
+    if args.export_network:
+        network, _ = cycle_network(args.file)
+        write_network_csv([*network.determinations, *network.priors], args.export_network)
+    if args.json:
+        print_json(result)
+        return 0
+    rows = [[r.id, r.equation, f"{r.delta_r_H_kJ_per_mol:.3f}",
+             f"{r.u_delta_r_H_kJ_per_mol:.3f}"] for r in result.determinations]
+    print(format_table(["id", "equation", "ΔrH / kJ·mol⁻¹", "u (k=1)"], rows))
+    print()
+    print(result.report())
+    return 0

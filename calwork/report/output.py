@@ -1,0 +1,39 @@
+"""Writing output files safely: a temporary file beside the target, renamed when complete."""
+
+from __future__ import annotations
+
+import os
+import tempfile
+from collections.abc import Iterator
+from contextlib import contextmanager
+from pathlib import Path
+
+from calwork.errors import ExportError
+
+__all__ = ["atomic_target"]
+
+
+@contextmanager
+def atomic_target(path: str | Path, *, what: str = "file") -> Iterator[Path]:
+    """Yield a temporary path beside ``path``; rename it onto ``path`` if the block succeeds.
+
+    A reader never sees a half-written file, and a failed export leaves the old file alone.
+    Problems with the folder or the disk raise :class:`~calwork.errors.ExportError` (before
+    any work is done when the folder cannot be written).
+    """
+    path = Path(path)
+    try:
+        path.parent.mkdir(parents=True, exist_ok=True)
+        fd, name = tempfile.mkstemp(prefix=".calwork-", suffix=path.suffix, dir=path.parent)
+        os.close(fd)
+    except OSError as exc:
+        raise ExportError(f"cannot write the {what} ({exc.strerror or exc})", path=path) from None
+    tmp = Path(name)
+    try:
+        yield tmp
+        os.replace(tmp, path)
+    except OSError as exc:
+        raise ExportError(f"cannot write the {what} ({exc.strerror or exc})", path=path) from None
+    finally:
+        if tmp.exists():
+            tmp.unlink()
