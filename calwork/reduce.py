@@ -162,7 +162,9 @@ def reduce_runs(
     rises: dict[str, Any] = {}
     solution_rows: list[RunInfo] = []
     for info in rows:
-        if info.kind in SOLUTION_KINDS:
+        if info.problems:  # found while reading the sheet leniently: report, don't drop
+            results[info.run] = run_error(info, info.problems[0])
+        elif info.kind in SOLUTION_KINDS:
             from calwork.io import load_run_log
 
             try:
@@ -279,7 +281,7 @@ def reduce_sheet(
     """
     from calwork.io import read_run_sheet
 
-    runs = read_run_sheet(path)
+    runs = read_run_sheet(path, strict=False)
     red = reduce_runs(runs, method=method, progress=progress,
                       rsd_limit_percent=rsd_limit_percent)
     return replace(red, sheet_path=str(path))

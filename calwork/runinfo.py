@@ -139,9 +139,13 @@ class RunInfo:
     sheet_path: Path | None = None
     line: int | None = None
     extra: Mapping[str, str] = field(default_factory=dict)
+    #: Row-level problems found while reading a sheet leniently (``strict=False``): the
+    #: errors themselves, so the run can be reported as failed instead of stopping the sheet.
+    problems: tuple[Exception, ...] = ()
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "extra", MappingProxyType(dict(self.extra)))
+        object.__setattr__(self, "problems", tuple(self.problems))
 
     def given(self) -> dict[str, object]:
         """The sheet columns that were filled in (contract and extension columns)."""

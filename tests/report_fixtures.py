@@ -1,10 +1,9 @@
-"""A small Reduction for the report and workbook tests, built without fitting.
+"""A Reduction for the report and workbook tests, built in memory (no files).
 
 Calibration (benzoic acid) and combustion runs with simulated thermograms
-(``calwork.simulate``; invented data, labelled ``simulated``). The corrected rise of each run is
-taken from the simulator's truth (plus a small seeded error) instead of being fitted, so that
-the fixture is quick; everything after the rise goes through the real bomb chain
-(``calwork.bomb.chain``, ``calwork.bomb.series``) exactly as ``calwork.reduce`` does, so the
+(``calwork.simulate``; invented data, labelled ``simulated``), their corrected rises
+(``calwork.rise.corrected_rise``) and the real bomb chain (``calwork.bomb.chain``,
+``calwork.bomb.series``, ``calwork.hess``) run exactly as ``calwork.reduce`` runs it, so the
 numbers follow the chain's definitions:
 
 * calibration run: ε = (m·q_cert·f + Σ corrections + contents referral) / ΔT_c;
@@ -17,7 +16,7 @@ is NIST SRM 39j (REFERENCES.md §2).
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field, replace
+from dataclasses import replace
 from typing import Any
 
 import numpy as np
@@ -27,53 +26,12 @@ from calwork.bomb.series import calibration_series, formation_enthalpies, sample
 from calwork.errors import CalworkError
 from calwork.provenance import Provenance, sha256_bytes
 from calwork.results import Reduction
+from calwork.rise import corrected_rise
 from calwork.runinfo import RunInfo
 from calwork.simulate import CalorimeterParams, CombustionPulse, simulate_run
 
 CERTIFIED_J_PER_G = 26434.0  # NIST SRM 39j, mass in vacuum (REFERENCES.md §2, confirmed)
 SAMPLE_J_PER_G = 40_230.0  # invented massic energy of the simulated sample, J/g
-
-
-@dataclass(frozen=True, kw_only=True)
-class FixtureRise:
-    """The RiseResult fields the chain and the reports use (Newtonian drift either side)."""
-
-    corrected_rise_K: float
-    u_corrected_rise_K: float
-    method: str
-    fire_time_s: float
-    main_end_s: float
-    fore_period_s: tuple[float, float]
-    after_period_s: tuple[float, float]
-    k_per_s: float
-    T_inf_K: float
-    T_initial_K: float
-    T_final_K: float
-    warnings: tuple[str, ...] = ()
-    extra: dict[str, Any] = field(default_factory=dict)
-
-    def fore_curve(self, t_s):
-        t = np.asarray(t_s, dtype=float)
-        return self.T_inf_K + (self.T_initial_K - self.T_inf_K) * np.exp(
-            -self.k_per_s * (t - self.fire_time_s))
-
-    def after_curve(self, t_s):
-        t = np.asarray(t_s, dtype=float)
-        return self.T_inf_K + (self.T_final_K - self.T_inf_K) * np.exp(
-            -self.k_per_s * (t - self.main_end_s))
-
-
-def _rise(sim, fire_s: float, main_end_s: float, rng, method: str) -> FixtureRise:
-    th, truth = sim.thermogram, sim.truth
-    t_i = float(np.interp(fire_s, th.time_s, th.temperature_K))
-    t_f = float(np.interp(main_end_s, th.time_s, th.temperature_K))
-    return FixtureRise(
-        corrected_rise_K=float(truth.adiabatic_rise_K * (1.0 + 2e-5 * rng.standard_normal())),
-        u_corrected_rise_K=1.5e-4, method=method, fire_time_s=fire_s, main_end_s=main_end_s,
-        fore_period_s=(float(th.time_s[0]), fire_s),
-        after_period_s=(main_end_s, float(th.time_s[-1])), k_per_s=truth.drift_rate_per_s,
-        T_inf_K=float(truth.convergence_temperature_K), T_initial_K=t_i, T_final_K=t_f,
-    )
 
 
 def _log(sim, rid: str):
@@ -86,7 +44,7 @@ def _log(sim, rid: str):
 
 
 def demo_reduction(*, sample: str = "naphthalene", formula: str = "C10H8",
-                   notes: str | None = "weighed twice", duration_s: float = 1200.0,
+                   notes: str | None = "weighed twice", duration_s: float = 2400.0,
                    sampling_interval_s: float = 5.0, n_calibrations: int = 3,
                    n_samples: int = 1, runs_per_sample: int = 3, seed: int = 20240611,
                    method: str = "newton-fit", failed_run: bool = False) -> Reduction:
@@ -99,21 +57,21 @@ def demo_reduction(*, sample: str = "naphthalene", formula: str = "C10H8",
     """
     rng = np.random.default_rng(seed)
     params = CalorimeterParams.bomb_preset(sampling_interval_s=sampling_interval_s)
-    fire_s, main_end_s = 300.0, 700.0
+    fire_s = 600.0
     common = {"calorimeter": "bomb-A", "ignition_J": 1.0, "fuse_burnt_cm": 8.0,
               "fuse_J_per_cm": 9.6, "o2_pressure_MPa": 3.04, "bomb_volume_L": 0.342,
               "bomb_water_g": 1.0, "acid_titrant_mol_per_L": 0.1, "operator": "A. N. Other",
               "notes": notes}
     infos: list[RunInfo] = []
-    rises: dict[str, FixtureRise] = {}
+    rises: dict[str, Any] = {}
     thermograms: dict[str, Any] = {}
 
     def simulate(info: RunInfo, massic_J_per_g: float, k: int) -> None:
         heat = info.mass_g * massic_J_per_g + 1.0 + 76.8 + 6.0 * info.acid_titre_mL
         sim = simulate_run(params, CombustionPulse(energy_J=heat, fire_time_s=fire_s),
                            duration_s=duration_s, seed=seed + k)
-        rises[info.run] = _rise(sim, fire_s, main_end_s, rng, method)
         thermograms[info.run] = _log(sim, info.run)
+        rises[info.run] = corrected_rise(thermograms[info.run], method)
         infos.append(info)
 
     for i in range(n_calibrations):

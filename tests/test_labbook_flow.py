@@ -344,6 +344,18 @@ def test_verify_catches_a_result_edited_with_its_hash(shared_book, tmp_path, cap
                for p in problems)
 
 
+def test_verify_catches_an_edited_run_row(shared_book, tmp_path, capsys):
+    book = tmp_path / "book.sqlite"
+    shutil.copy(shared_book, book)
+    conn = sqlite3.connect(book)
+    conn.execute("DROP TRIGGER runs_no_update")
+    conn.execute("UPDATE runs SET calorimeter = 'other' WHERE run = 'cal-01'")
+    conn.commit()
+    conn.close()
+    problems = _verify_json(capsys, book)["problems"]
+    assert any(p.startswith("runs of sheet #1: rows differ") for p in problems)
+
+
 def test_paths_in_sheets_cannot_escape(bomb_dir, tmp_path, capsys):
     data = _copy(bomb_dir, tmp_path / "data")
     (tmp_path / "outside.csv").write_bytes((data / "cal-01.csv").read_bytes())
@@ -431,7 +443,7 @@ def test_toml_sheet_round_trip_and_parallel_recompute(bomb_dir, tmp_path, capsys
     from calwork.io import read_run_sheet, write_run_sheet
 
     data = _copy(bomb_dir, tmp_path / "data")
-    rows = [{k: v for k, v in info.given().items()} for info in read_run_sheet(data / "runs.csv")]
+    rows = [info.given() for info in read_run_sheet(data / "runs.csv")]
     write_run_sheet(rows, data / "runs.toml")
     book = tmp_path / "book.sqlite"
     code, out, err = run_cli(capsys, "labbook", "add", data / "runs.toml", "--labbook", book)
@@ -445,3 +457,34 @@ def test_toml_sheet_round_trip_and_parallel_recompute(bomb_dir, tmp_path, capsys
     two = _json(capsys, "labbook", "recompute", "--labbook", book, "--jobs", "2")
     assert one["agree"]
     assert one == two
+
+
+def test_export_without_the_report_module_is_a_clear_error(shared_book, tmp_path, capsys,
+                                                           monkeypatch):
+    import sys
+
+    monkeypatch.setitem(sys.modules, "calwork.report", None)  # as if not installed
+    code, _, err = run_cli(capsys, "labbook", "export", "--xlsx", tmp_path / "x.xlsx",
+                           "--labbook", shared_book)
+    assert code == 2
+    assert "workbook writer (calwork.report.write_workbook) is not available" in err
+    assert not (tmp_path / "x.xlsx").exists()
+
+
+def test_a_file_changed_during_the_add_is_not_recorded(bomb_dir, tmp_path, monkeypatch):
+    from calwork.errors import LabbookError
+    from calwork.labbook import ingest
+
+    data = _copy(bomb_dir, tmp_path / "data")
+    original = ingest.reduce_from_path
+
+    def reduce_while_someone_edits(sheet, **kwargs):
+        with (data / "sample-01.csv").open("ab") as fh:
+            fh.write(b"\n")
+        return original(sheet, **kwargs)
+
+    monkeypatch.setattr(ingest, "reduce_from_path", reduce_while_someone_edits)
+    with open_labbook(tmp_path / "book.sqlite", create=True) as lb:
+        with pytest.raises(LabbookError, match="file changed while it was being recorded"):
+            lb.add_sheet(data / "runs.csv")
+        assert lb.counts()["runs"] == 0

@@ -15,7 +15,7 @@ from calwork.errors import (
 )
 from calwork.labbook import audit, open_labbook, schema
 from calwork.labbook.blobs import get_blob, put_blob, safe_relative_path, write_inside
-from calwork.labbook.ingest import results_digest
+from calwork.labbook.ingest import bundle_digest, results_digest
 from calwork.labbook.store import resolve_labbook_path
 from calwork.provenance import sha256_bytes
 
@@ -141,8 +141,11 @@ def _v1_labbook(path):
     log = b"time_s,temperature_C\n0,25\n6,25.001\n"
     for data in (sheet, log):
         put_blob(conn, data)
+    bundle = bundle_digest([
+        {"role": "sheet", "rel_path": "runs.csv", "sha256": sha256_bytes(sheet)},
+        {"role": "log", "rel_path": "cal-1.csv", "sha256": sha256_bytes(log)}])
     conn.execute("INSERT INTO sheets VALUES (1, ?, ?, 'runs.csv', '/old/runs.csv', '[]',"
-                 " '2024-01-01T00:00:00Z', 'old')", ("b" * 64, sha256_bytes(sheet)))
+                 " '2024-01-01T00:00:00Z', 'old')", (bundle, sha256_bytes(sheet)))
     conn.execute("INSERT INTO files VALUES (1, 1, 'sheet', 'runs.csv', '/old/runs.csv', ?, ?)",
                  (sha256_bytes(sheet), len(sheet)))
     conn.execute("INSERT INTO files VALUES (2, 1, 'log', 'cal-1.csv', '/old/cal-1.csv', ?, ?)",
@@ -166,7 +169,7 @@ def _v1_labbook(path):
                      " VALUES (1, ?, ?, ?, ?, 'newton-fit', '0.0.1', '{}', ?, ?)",
                      (seq, kind, key, run_id, text, hashes[-1]))
     audit.append(conn, user="old", action="add", obj="sheet:1",
-                 details={"sheet": 1, "bundle_sha256": "b" * 64, "reduction": 1,
+                 details={"sheet": 1, "bundle_sha256": bundle, "reduction": 1,
                           "results_sha256": results_digest(summary, hashes)})
     conn.execute("COMMIT")
     conn.close()

@@ -88,3 +88,16 @@ def test_qa_errors(book, capsys):
     assert code == 0
     assert "pressure" in out
     assert "common SPC practice" in out
+
+
+def test_solution_runs_with_in_run_electrical_calibrations_are_points(tmp_path, capsys):
+    simulate_scenario("solution", tmp_path / "sol", runs=3, seed=2)
+    path = tmp_path / "book.sqlite"
+    with open_labbook(path, create=True) as lb:
+        lb.add_sheet(tmp_path / "sol" / "runs.csv")
+        eps = [r["energy_equivalent_J_per_K"] for r in lb.runs()]
+    code, out, err = _qa(capsys, "sim-solution-1", "--labbook", path, "--json")
+    assert code == 0, err
+    d = json.loads(out)
+    assert [p["value"] for p in d["points"]] == eps
+    assert any("no calibration series is recorded" in n for n in d["notes"])

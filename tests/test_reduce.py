@@ -358,3 +358,34 @@ def test_solution_rows_are_handed_over(dataset):
     assert "e1" in by_run
     assert by_run["e1"].kind == "electrical"
     assert all(by_run[i.run].error is None for i in infos)
+
+
+def test_bad_cells_in_the_sheet_file_fail_alone(dataset, tmp_path):
+    """A zero mass, text in a number cell and a missing log in the sheet *file* do not stop
+    the sheet: those runs come back with their error (file, line, column), the rest reduce."""
+    import shutil
+
+    sheet, rows = dataset
+    for row in rows:
+        shutil.copy(sheet.parent / row["log"], tmp_path / row["log"])
+    bad_rows = [dict(rows[-1], run="bad_mass", mass_g=0.0),
+                dict(rows[-1], run="bad_text", fuse_J="twelve"),
+                dict(rows[-1], run="bad_log", log="missing.csv")]
+    path = tmp_path / "runs.csv"
+    write_run_sheet([*rows, *bad_rows], path)
+    red = reduce_sheet(path)
+    by_run = {r.run: r for r in red.runs}
+    assert len(red.runs) == len(rows) + 3                 # nothing vanished
+    assert "column 'mass_g'" in by_run["bad_mass"].error
+    assert "runs.csv:" in by_run["bad_mass"].error        # names the file and line
+    assert "column 'fuse_J'" in by_run["bad_text"].error
+    assert "'twelve'" in by_run["bad_text"].error
+    assert "log file not found" in by_run["bad_log"].error
+    (s,) = red.samples
+    assert s.n_runs == 5
+    # strict reading (the default of read_run_sheet) still raises on the first bad cell
+    from calwork.errors import SheetError
+    from calwork.io import read_run_sheet
+
+    with pytest.raises(SheetError, match="mass_g"):
+        read_run_sheet(path)

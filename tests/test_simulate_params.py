@@ -200,3 +200,16 @@ def test_from_toml_errors_name_file_and_field(tmp_path, text, match):
 def test_from_toml_missing_file(tmp_path):
     with pytest.raises(InputFileError, match="not found"):
         CalorimeterParams.from_toml(tmp_path / "nope.toml")
+
+
+def test_truth_rates_for_vanishing_exchange():
+    # G → 0: the slow rate tends to G/ε and the effective energy equivalent to ε (first law);
+    # the closed form must not lose λ to cancellation (found by hypothesis at G = 1e-142)
+    p = CalorimeterParams(exchange_conductance_W_per_K=1e-142, noise_K=0.0)
+    run = simulate_run(p, (), duration_s=100.0)
+    assert run.truth.drift_rate_per_s == pytest.approx(1e-142 / 10_000.0, rel=1e-9)
+    assert run.truth.effective_energy_equivalent_J_per_K == pytest.approx(10_000.0, rel=1e-12)
+    zero = simulate_run(replace(p, exchange_conductance_W_per_K=0.0), (), duration_s=100.0)
+    assert zero.truth.drift_rate_per_s == 0.0
+    assert zero.truth.effective_energy_equivalent_J_per_K == pytest.approx(10_000.0, rel=1e-15)
+    assert zero.truth.convergence_temperature_K is None

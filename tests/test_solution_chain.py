@@ -232,6 +232,12 @@ def test_simulated_day_kcl_series_blanks_and_infinite_dilution(tmp_path):
             assert "ampoule_breaking" in r.corrections_J
             assert r.dilution_ratio == pytest.approx(
                 1000.0 / 18.015 / r.final_molality_mol_per_kg, rel=1e-9)
+    # the run nearest the SRM 1655 molality (0.111 mol/kg) reproduces the certified
+    # 17.584 ± 0.017 kJ/mol (Kilday 1980, recalled from memory) within that uncertainty
+    near = min((r for r in runs if r.kind == "solution"),
+               key=lambda r: abs(r.final_molality_mol_per_kg - 0.111))
+    assert abs(near.final_molality_mol_per_kg - 0.111) < 0.003
+    assert abs(near.molar_enthalpy_kJ_per_mol - 17.584) < 0.017
     # the series at 5 molalities extrapolated with Pitzer ΦL: the simulated truth
     # Δ_solH∞ = 17.584 − ΦL(0.111) = 17.236 kJ/mol (SRM 1655 value recalled from memory)
     assert kcl.n_runs == 5
@@ -241,3 +247,29 @@ def test_simulated_day_kcl_series_blanks_and_infinite_dilution(tmp_path):
     assert abs(kcl.infinite_dilution_enthalpy_kJ_per_mol - 17.28) < math.hypot(
         0.119, kcl.u_infinite_dilution_enthalpy_kJ_per_mol)
     assert 0.02 < kcl.final_molality_mol_per_kg < 0.15
+
+
+def test_sheet_heater_times_refine_the_channel_interval_and_options_are_checked():
+    tg = _log(-35.0, seed=17)
+    info = _info("H1", amount_mol=0.002, heater_on_s=300.0, heater_off_s=600.0)
+    (r,), _, _ = reduce_solution_runs([info], thermograms={"H1": tg})
+    cal = r.details["calibrations"][0]
+    assert cal["energy_source"] == "sheet times, channel power"
+    assert (cal["heater_on_s"], cal["heater_off_s"]) == (300.0, 600.0)
+    assert cal["heater_energy_J"] == pytest.approx(15.0, rel=1e-5)
+    assert r.details["calibrations"][1]["energy_source"] == "channels"
+    from calwork.errors import ChoiceError
+
+    with pytest.raises(ChoiceError, match="calibration"):
+        SolutionOptions(calibration="middle")
+    with pytest.raises(ChoiceError, match="phi_L_model"):
+        SolutionOptions(phi_L_model="debye")
+
+
+def test_public_names_resolve():
+    import calwork.solution as solution
+
+    for name in solution.__all__:
+        assert callable(getattr(solution, name))
+    with pytest.raises(AttributeError):
+        _ = solution.no_such_name

@@ -113,7 +113,7 @@ def cotton_energy_J(cotton_g: float | None, massic_energy_J_per_g: float | None 
 
     Examples
     --------
-    >>> cotton_energy_J(0.002)[0]
+    >>> round(cotton_energy_J(0.002)[0], 6)
     32.48
     """
     mass = _nonneg(cotton_g, "cotton_g")

@@ -100,7 +100,9 @@ def register(subparsers: argparse._SubParsersAction) -> None:
                        description="Rebuild every stored result from the stored raw bytes "
                        "(sheet and logs written to a temporary folder, reduced again with "
                        "the stored method) and compare every number. Exit 0 if all agree "
-                       "within the tolerance, 1 otherwise.")
+                       "within the tolerance, 1 otherwise. The filters select the sheets "
+                       "that hold matching runs; every stored version of a sheet's reduction "
+                       "is recomputed.")
     _filters(p, kind=False)
     p.add_argument("--tolerance", type=float, default=1e-12, metavar="REL",
                    help="relative tolerance (default 1e-12)")

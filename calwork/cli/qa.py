@@ -74,9 +74,12 @@ def _qa(args: argparse.Namespace) -> int:
         in_first = [lab for lab in labels if lab in set(first_series)]
         if len(in_first) >= 2:
             kwargs["baseline_labels"] = in_first
-        else:
+        elif first_series:
             notes.append("the first calibration series has fewer than 2 active runs here; "
                          "all points form the baseline")
+        else:
+            notes.append("no calibration series is recorded for this calorimeter; all points "
+                         "form the baseline")
     chart = control_chart(
         [p["energy_equivalent_J_per_K"] for p in points], labels,
         dates=[p["date"] for p in points], rules=rules,

@@ -141,13 +141,15 @@ def _resolve_log(text: str, folder: Path, where: dict[str, Any]) -> Path:
     return target
 
 
-def _build(records: Iterable[tuple[int | None, Mapping[str, Any]]], path: Path) -> list[RunInfo]:
+def _build(records: Iterable[tuple[int | None, Mapping[str, Any]]], path: Path,
+           strict: bool = True) -> list[RunInfo]:
     runs: list[RunInfo] = []
     seen: dict[str, int | None] = {}
     folder = path.parent
     for line, record in records:
         values: dict[str, Any] = {}
         extra: dict[str, str] = {}
+        problems: list[CalworkError] = []
         for key, raw in record.items():
             name = _BY_KEY.get(str(key).strip().lower())
             where = {"path": path, "line": line, "column": name or str(key)}
@@ -155,7 +157,12 @@ def _build(records: Iterable[tuple[int | None, Mapping[str, Any]]], path: Path) 
                 if raw is not None and str(raw).strip():
                     extra[str(key).strip()] = str(raw).strip()
                 continue
-            values[name] = _typed(name, raw, where)
+            try:
+                values[name] = _typed(name, raw, where)
+            except CalworkError as exc:
+                if strict or name in ("run", "kind"):
+                    raise
+                problems.append(exc)  # the run is reported as failed, the sheet goes on
         for required in ("run", "kind"):
             if values.get(required) is None:
                 raise SheetError("required cell is blank", path=path, line=line,
@@ -171,10 +178,15 @@ def _build(records: Iterable[tuple[int | None, Mapping[str, Any]]], path: Path) 
         seen[run] = line
         log_path = None
         if values.get("log") is not None:
-            log_path = _resolve_log(values["log"], folder,
-                                    {"path": path, "line": line, "column": "log", "run": run})
+            try:
+                log_path = _resolve_log(values["log"], folder,
+                                        {"path": path, "line": line, "column": "log", "run": run})
+            except LogPathError as exc:
+                if strict:
+                    raise
+                problems.append(exc)
         runs.append(RunInfo(**values, log_path=log_path, sheet_path=path, line=line,
-                            extra=extra))
+                            extra=extra, problems=[p.with_context(run=run) for p in problems]))
     if not runs:
         raise SheetError("the run sheet has no runs", path=path,
                          expected="a header row and one row per run")
@@ -252,7 +264,7 @@ def _toml_records(text: str, path: Path):
         yield line, record
 
 
-def read_run_sheet(path: str | Path) -> list[RunInfo]:
+def read_run_sheet(path: str | Path, *, strict: bool = True) -> list[RunInfo]:
     """Read a run sheet (CSV, XLSX or TOML) into :class:`~calwork.runinfo.RunInfo` records.
 
     Parameters
@@ -260,6 +272,11 @@ def read_run_sheet(path: str | Path) -> list[RunInfo]:
     path
         ``.csv`` (comma, semicolon or tab; any encoding :func:`calwork.io.read_log` reads),
         ``.xlsx`` (first sheet) or ``.toml`` (``[[run]]`` tables).
+    strict
+        If true (default) the first bad cell or log path raises. If false, a row-level problem
+        (a bad number, a non-positive mass, a missing or escaping log path) is kept in the
+        row's ``RunInfo.problems`` so that a batch can report that run as failed and reduce
+        the others; problems with the sheet as a whole (header, run ids, kinds) still raise.
 
     Returns
     -------
@@ -278,11 +295,11 @@ def read_run_sheet(path: str | Path) -> list[RunInfo]:
         _, rows = read_xlsx_rows(data, path, None, error=SheetError)
         cells = [(n, [c.isoformat() if hasattr(c, "isoformat") else c for c in v])
                  for n, v in rows]  # date cells as ISO 8601 text
-        return _build(_table_records(cells, path), path)
+        return _build(_table_records(cells, path), path, strict)
     text, _ = decode_bytes(data, path)
     if path.suffix.lower() == ".toml":
-        return _build(_toml_records(text, path), path)
-    return _build(_table_records(_csv_rows(text, path), path), path)
+        return _build(_toml_records(text, path), path, strict)
+    return _build(_table_records(_csv_rows(text, path), path), path, strict)
 
 
 def unknown_columns(runs: Iterable[RunInfo]) -> list[str]:

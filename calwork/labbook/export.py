@@ -85,11 +85,13 @@ def rebuild_reduction(conn: sqlite3.Connection, filters: Filters | None = None, 
         infos.append(_info(json.loads(row_json), original))
         methods.add(method)
         sheets.add(sheet_id)
-    cal_ids = {c["reduction_id"] for c in list_calibrations(conn, filters)}
+    wanted_cals = {(c["reduction_id"], c["calorimeter"])
+                   for c in list_calibrations(conn, filters)}
     calibrations = [
-        _build(CalibrationResult, json.loads(text)) for rid, text in conn.execute(
-            "SELECT reduction_id, json FROM results WHERE type = 'calibration' ORDER BY id")
-        if rid in cal_ids
+        _build(CalibrationResult, json.loads(text)) for rid, key, text in conn.execute(
+            "SELECT reduction_id, key, json FROM results WHERE type = 'calibration'"
+            " ORDER BY id")
+        if (rid, key) in wanted_cals
     ]
     samples = [_build(SampleResult, s) for s in list_samples(conn, filters)]
     traces = _thermograms(conn, infos, sheets) if thermograms else {}

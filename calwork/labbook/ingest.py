@@ -19,7 +19,13 @@ from datetime import date, datetime
 from pathlib import Path
 from typing import Any
 
-from calwork.errors import InputFileError, LabbookBusyError, LabbookError, LogPathError
+from calwork.errors import (
+    InputFileError,
+    LabbookBusyError,
+    LabbookError,
+    LogPathError,
+    check_choice,
+)
 from calwork.labbook import audit
 from calwork.labbook.blobs import put_blob
 from calwork.labbook.reducing import ReducedSheet, reduce_from_path, reduce_stored
@@ -27,7 +33,8 @@ from calwork.labbook.store import crash_point, write_transaction
 from calwork.provenance import sha256_bytes
 from calwork.results import jsonable
 
-__all__ = ["AddResult", "add_sheet", "date_key", "info_row", "void_run"]
+__all__ = ["AddResult", "add_sheet", "bundle_digest", "date_key", "info_row", "results_digest",
+           "runs_digest", "stored_bundle_digest", "void_run"]
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -104,11 +111,11 @@ def info_row(info: Any) -> dict[str, Any]:
     return jsonable(row)
 
 
-def _collect(sheet: Path, infos: Sequence[Any]) -> list[dict[str, Any]]:
+def _collect(sheet: Path, sheet_bytes: bytes, infos: Sequence[Any]) -> list[dict[str, Any]]:
     """The files of a sheet bundle: the sheet itself and each log, by relative path."""
     root = sheet.parent
     files = [{"role": "sheet", "rel_path": sheet.name, "original_path": str(sheet),
-              "data": sheet.read_bytes()}]
+              "data": sheet_bytes}]
     seen = {sheet.name}
     for info in infos:
         if info.log_path is None:
@@ -131,9 +138,25 @@ def _collect(sheet: Path, infos: Sequence[Any]) -> list[dict[str, Any]]:
     return files
 
 
-def _bundle_digest(files: Sequence[Mapping[str, Any]]) -> str:
+def bundle_digest(files: Sequence[Mapping[str, Any]]) -> str:
+    """SHA-256 identifying a sheet bundle: every file's role, relative path and hash."""
     return sha256_bytes(audit.canonical_json(
         sorted([f["role"], f["rel_path"], f["sha256"]] for f in files)).encode())
+
+
+def stored_bundle_digest(conn: sqlite3.Connection, sheet_id: int) -> str:
+    """The bundle digest of a stored sheet, recomputed from its ``files`` rows."""
+    rows = conn.execute("SELECT role, rel_path, sha256 FROM files WHERE sheet_id = ?",
+                        (sheet_id,)).fetchall()
+    return bundle_digest([{"role": r, "rel_path": p, "sha256": h} for r, p, h in rows])
+
+
+def runs_digest(conn: sqlite3.Connection, sheet_id: int) -> str:
+    """SHA-256 over a sheet's ``runs`` rows (recorded in the audit log; checked by verify)."""
+    rows = conn.execute(
+        "SELECT run, line, kind, calorimeter, sample, date, date_key, log_file_id, row_json"
+        " FROM runs WHERE sheet_id = ? ORDER BY id", (sheet_id,)).fetchall()
+    return sha256_bytes(audit.canonical_json([list(r) for r in rows]).encode())
 
 
 def _existing_sheet(conn: sqlite3.Connection, bundle: str) -> tuple | None:
@@ -167,14 +190,17 @@ def add_sheet(conn: sqlite3.Connection, path: Path, sheet_path: str | Path, *, m
               user: str) -> AddResult:
     """Record a run sheet, its raw files and its reduction (see the module docstring)."""
     from calwork.io import read_run_sheet
+    from calwork.rise import METHODS
 
+    check_choice("method", method, METHODS)
     sheet = Path(sheet_path)
     if not sheet.is_file():
         raise InputFileError("run sheet not found", path=sheet)
     sheet = sheet.resolve()
+    sheet_bytes = sheet.read_bytes()  # first, so that any later change is detected below
     infos = read_run_sheet(sheet)
-    files = _collect(sheet, infos)
-    bundle = _bundle_digest(files)
+    files = _collect(sheet, sheet_bytes, infos)
+    bundle = bundle_digest(files)
     found = _existing_sheet(conn, bundle)
     if found is not None:
         return _already(found, method, path)
@@ -219,7 +245,8 @@ def add_sheet(conn: sqlite3.Connection, path: Path, sheet_path: str | Path, *, m
                      "bundle_sha256": bundle,
                      "files": {f["rel_path"]: f["sha256"] for f in files},
                      "runs": [i.run for i in infos], "reduction": red_id,
-                     "method": method, "results_sha256": digest},
+                     "method": method, "results_sha256": digest,
+                     "runs_sha256": runs_digest(conn, sheet_id)},
         )
         crash_point("audit")
     crash_point("committed")

@@ -21,6 +21,9 @@ __all__ = ["Filters", "calibration_series", "history", "list_calibrations", "lis
 
 #: Run kinds whose per-run energy equivalent is a calibration point (bomb; electrical).
 CALIBRATION_KINDS = ("calibration", "electrical")
+#: Kinds whose ε is a calibration point when the run holds its own electrical calibrations
+#: (``details.calibrations``); a combustion run's ε is the one it *used*, never a point.
+IN_RUN_CALIBRATION_KINDS = ("solution", "blank")
 
 
 def _iso_bound(text: str | None, name: str) -> str | None:
@@ -106,6 +109,9 @@ def list_runs(conn: sqlite3.Connection, filters: Filters | None = None, *,
             "massic_energy_J_per_g": rec.get("massic_energy_J_per_g"),
             "molar_enthalpy_kJ_per_mol": rec.get("molar_enthalpy_kJ_per_mol"),
             "error": rec.get("error"), "_pk": pk,
+            "epsilon_is_calibration": kind in CALIBRATION_KINDS or (
+                kind in IN_RUN_CALIBRATION_KINDS
+                and bool((rec.get("details") or {}).get("calibrations"))),
         })
     out.sort(key=lambda r: (r["date_key"] is None, r["date_key"] or "", natural_key(r["run"])))
     for r in out:
@@ -248,13 +254,15 @@ def calibration_series(conn: sqlite3.Connection, calorimeter: str,
                        ) -> tuple[list[dict[str, Any]], list[str]]:
     """Per-run energy equivalents of a calorimeter's active calibration runs, by date then id.
 
-    Returns ``(points, notes)``; void runs and failed runs are left out (named in ``notes``).
+    Calibration points are bomb ``calibration`` and ``electrical`` runs, and solution runs
+    with their own electrical calibrations. Returns ``(points, notes)``; void runs and failed
+    runs are left out (named in ``notes``).
     """
     filters = filters or Filters()
     sel = Filters(calorimeter=calorimeter, since=filters.since, until=filters.until)
     points, notes = [], []
     for r in list_runs(conn, sel):
-        if r["kind"] not in CALIBRATION_KINDS:
+        if not r["epsilon_is_calibration"] and r["kind"] not in CALIBRATION_KINDS:
             continue
         if r["status"] == "void":
             notes.append(f"run {r['run']} is void ({r['void_reason']}); excluded")

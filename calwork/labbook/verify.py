@@ -10,8 +10,9 @@ Checks, each naming the failing row id or blob:
 5. every result row matches its own SHA-256, and every reduction's results digest matches the
    one recorded in the audit entry that created it (so a result edited together with its hash
    column is still caught);
-6. every sheet has its ``add`` audit entry with the same bundle hash, and every void has its
-   ``void`` audit entry (and vice versa).
+6. every sheet has its ``add`` audit entry with the same bundle hash (recomputed from the
+   ``files`` rows) and the same ``runs`` rows, and every void has its ``void`` audit entry
+   (and vice versa).
 """
 
 from __future__ import annotations
@@ -23,7 +24,7 @@ from typing import Any
 from calwork.errors import LabbookIntegrityError
 from calwork.labbook import audit
 from calwork.labbook.blobs import unpack
-from calwork.labbook.ingest import results_digest
+from calwork.labbook.ingest import results_digest, runs_digest, stored_bundle_digest
 from calwork.labbook.schema import EXPECTED_TRIGGERS
 from calwork.provenance import sha256_bytes
 
@@ -116,8 +117,14 @@ def _check_records(conn: sqlite3.Connection, entries: list[audit.AuditEntry],
         entry = adds.get(sheet_id)
         if entry is None:
             problems.append(f"sheets row {sheet_id}: no audit entry records it")
-        elif entry.details.get("bundle_sha256") != bundle:
+            continue
+        recorded = entry.details.get("bundle_sha256")
+        if recorded != bundle or recorded != stored_bundle_digest(conn, sheet_id):
             problems.append(f"sheets row {sheet_id}: raw files differ from those recorded by "
+                            f"audit row {entry.id}")
+        if "runs_sha256" in entry.details and \
+                entry.details["runs_sha256"] != runs_digest(conn, sheet_id):
+            problems.append(f"runs of sheet #{sheet_id}: rows differ from those recorded by "
                             f"audit row {entry.id}")
     voids = _audit_by(entries, "void")
     seen = set()

@@ -249,7 +249,7 @@ def control_chart(values: Sequence[float], labels: Sequence[str] | None = None, 
         raise CalibrationError("the baseline series has fewer than 2 points", found=len(base))
     if len(base) < MIN_BASELINE_RUNS:
         notes.append(f"baseline has {len(base)} runs; ASTM D240 §8.1 asks for at least "
-                     f"{MIN_BASELINE_RUNS} standardisation tests")
+                     f"{MIN_BASELINE_RUNS} standardisation tests (bomb calorimetry)")
     xb = x[list(base)]
     mean = float(np.mean(xb))
     std = float(np.std(xb, ddof=1))

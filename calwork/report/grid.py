@@ -31,7 +31,7 @@ from openpyxl.writer.excel import ExcelWriter
 from calwork.report.formulas import Expr, Ref
 from calwork.report.sanitise import cell_text, is_formula_like
 
-__all__ = ["Grid", "Text", "new_workbook", "save_workbook"]
+__all__ = ["Grid", "Text", "new_workbook", "save_workbook", "text_cell"]
 
 #: Plain numbers (inputs and fitted values) are dark blue, formulas black: the usual
 #: spreadsheet-modelling cue for "you may change this" versus "this is computed".
@@ -160,13 +160,9 @@ class Grid:
         if content is None:
             return None
         if isinstance(content, Text):
-            text = cell_text(content.text)
-            cell = WriteOnlyCell(ws, value=text)
-            cell.data_type = "s"  # never a formula, whatever the text begins with
-            if is_formula_like(text):
-                cell.quotePrefix = True
+            cell = text_cell(ws, content.text)
             styles.apply(cell, entry.kind)
-            if "\n" in text:
+            if "\n" in cell.value:
                 cell.alignment = Alignment(wrap_text=True, vertical="top")
             return cell
         if isinstance(content, Expr):
@@ -181,6 +177,20 @@ class Grid:
         if entry.fmt:
             cell.number_format = entry.fmt
         return cell
+
+
+def text_cell(ws: Any, value: object) -> WriteOnlyCell:
+    """A cell holding ``value`` as text: never a formula, whatever the text begins with.
+
+    Formula-like text (see :func:`~calwork.report.sanitise.is_formula_like`) also gets the
+    quote-prefix style, so a spreadsheet program keeps it as text when the cell is edited.
+    """
+    text = cell_text(value)
+    cell = WriteOnlyCell(ws, value=text)
+    cell.data_type = "s"  # openpyxl would otherwise take a leading '=' for a formula
+    if is_formula_like(str(value)) or is_formula_like(text):
+        cell.quotePrefix = True
+    return cell
 
 
 class _Styles:

@@ -58,9 +58,10 @@ def is_formula_like(text: str) -> bool:
 def cell_text(value: object) -> str:
     """``value`` as text a spreadsheet cell can hold (XML-illegal characters become U+FFFD).
 
-    Text longer than 32 767 characters is cut and marked with an ellipsis.
+    Line ends become ``\n`` (XML turns a carriage return into a line feed when it is read
+    back anyway); text longer than 32 767 characters is cut and marked with an ellipsis.
     """
-    text = _XML_ILLEGAL.sub("\ufffd", str(value))
+    text = _XML_ILLEGAL.sub("\ufffd", str(value).replace("\r\n", "\n").replace("\r", "\n"))
     if len(text) > MAX_CELL_TEXT:
         text = text[: MAX_CELL_TEXT - 1] + "…"
     return text

@@ -30,8 +30,9 @@ from openpyxl.chart import Reference, ScatterChart, Series
 from openpyxl.styles import Font, PatternFill
 
 from calwork.errors import CalworkError, ExportError
+from calwork.report.grid import text_cell
 from calwork.report.plots import OKABE_ITO
-from calwork.report.sanitise import cell_text, is_formula_like
+from calwork.report.sanitise import cell_text
 from calwork.report.texts import SIMULATED_NOTE, is_simulated
 
 __all__ = ["ReadingsTail", "write_log_sheet"]
@@ -54,11 +55,7 @@ _SERIES_STYLE = {
 
 def _text(ws: Any, value: Any, bold: bool = False) -> WriteOnlyCell:
     """A text cell (never a formula; formula-like text gets the quote prefix)."""
-    text = cell_text(value)
-    cell = WriteOnlyCell(ws, value=text)
-    cell.data_type = "s"  # never a formula, whatever the text begins with
-    if is_formula_like(text):
-        cell.quotePrefix = True
+    cell = text_cell(ws, value)
     if bold:
         cell.font = _BOLD
         cell.fill = _FILL

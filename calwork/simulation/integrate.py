@@ -80,11 +80,6 @@ class LinearModel:
     def n(self) -> int:
         return self.A.shape[0]
 
-    def thermal_rates_per_s(self) -> np.ndarray:
-        """Decay rates (−eigenvalues) of the calorimeter bodies (thermometer excluded), sorted."""
-        m = 2 if self.inner != self.water else 1
-        return np.sort(-np.linalg.eigvals(self.A[:m, :m]).real)
-
 
 class _Source:
     """One input: generator ``(F, B)``, analytic state ``z(t)``, active on ``[start, end)``."""

@@ -309,8 +309,8 @@ def simulate_run(
         for s in inputs
     )
     heat = math.fsum(e.energy_J for e in events)
-    drift = _drift_rate_per_s(params, model)
-    eff = _effective_energy_equivalent(params, drift)
+    drift = _drift_rate_per_s(params)
+    eff = _effective_energy_equivalent(params)
     truth = SimulationTruth(
         energy_equivalent_J_per_K=eps, heat_released_J=heat, adiabatic_rise_K=heat / eps,
         events=events, exchange_rate_per_s=params.exchange_rate_per_s,
@@ -330,20 +330,38 @@ def simulate_run(
                         sensor_temperature_K=_frozen(sensor))
 
 
-def _drift_rate_per_s(params: CalorimeterParams, model: LinearModel) -> float:
-    """Rate of the slow mode of the water temperature, 1/s (G/C_w if the inner body is
-    uncoupled, whose own zero mode never shows in the water)."""
+def _two_body_terms(params: CalorimeterParams) -> tuple[float, float, float]:
+    """``(a, trace, det)`` of the 2×2 thermal matrix: a = G_bw/C_b, det = a G/C_w."""
+    cb, cw = params.bomb_heat_capacity_J_per_K, params.water_heat_capacity_J_per_K
+    gbw, G = float(params.bomb_water_conductance_W_per_K), params.exchange_conductance_W_per_K
+    a = gbw / cb
+    return a, a + (gbw + G) / cw, a * G / cw
+
+
+def _drift_rate_per_s(params: CalorimeterParams) -> float:
+    """Rate of the slow mode of the water temperature, 1/s.
+
+    One body: G/ε. Two bodies: the smaller root of λ² − tr λ + det = 0 in the cancellation-free
+    form 2 det/(tr + √(tr² − 4 det)) (accurate down to G → 0). An uncoupled inner body
+    (G_bw = 0) leaves the water's own rate G/C_w.
+    """
+    if not params.two_body:
+        return params.exchange_rate_per_s
     if params.bomb_water_conductance_W_per_K == 0:
         return params.exchange_conductance_W_per_K / params.water_heat_capacity_J_per_K
-    return float(max(model.thermal_rates_per_s()[0], 0.0))
+    _, tr, det = _two_body_terms(params)
+    return 2 * det / (tr + math.sqrt(max(tr * tr - 4 * det, 0.0)))
 
 
-def _effective_energy_equivalent(params: CalorimeterParams, drift: float) -> float | None:
+def _effective_energy_equivalent(params: CalorimeterParams) -> float | None:
+    """G/λ (see SimulationTruth), written without dividing by a vanishing λ."""
+    if not params.two_body:
+        return params.energy_equivalent_J_per_K
     if params.bomb_water_conductance_W_per_K == 0:
         return None
-    if params.exchange_conductance_W_per_K == 0 or not params.two_body:
-        return params.energy_equivalent_J_per_K
-    return params.exchange_conductance_W_per_K / drift
+    a, tr, det = _two_body_terms(params)
+    cw = params.water_heat_capacity_J_per_K
+    return cw * (tr + math.sqrt(max(tr * tr - 4 * det, 0.0))) / (2 * a)
 
 
 def _frozen(a: np.ndarray) -> np.ndarray:

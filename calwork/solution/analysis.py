@@ -17,6 +17,7 @@ from typing import Any
 import numpy as np
 
 from calwork.errors import PeriodDetectionError, RunError, check_choice
+from calwork.rise import Periods, corrected_rise
 from calwork.solution.electrical import (
     POTENTIAL_LEADS,
     ElectricalEnergy,
@@ -207,8 +208,6 @@ def analyse_log(
     PeriodDetectionError
         No reaction found (give ``fire_time_s``), or overlapping events.
     """
-    from calwork.rise import corrected_rise  # the rise engine (lower layer)
-
     opts = options or SolutionOptions()
     tg = thermogram
     t = tg.time_s
@@ -248,11 +247,10 @@ def analyse_log(
                               "u_off": u_sheet, "source": "sheet"})
     events = find_events(
         t, tg.temperature_K,
-        [(i["on"], i["off"], i["u_on"], i["u_off"]) for i in intervals],
+        [(i["on"], i["off"], i["u_on"], i["u_off"], i["source"]) for i in intervals],
         fire_time_s=fire_time_s, expect_reaction=expect_reaction,
         half_width_s=opts.half_width_s, n_sigma=opts.n_sigma,
     )
-    source_by_on = {round(i["on"], 9): i["source"] for i in intervals}
     if rises is not None and len(rises) != len(events.events):
         raise RunError("precomputed rises do not match the events of the log",
                        column="log", found=len(rises), expected=f"{len(events.events)} rises")
@@ -276,7 +274,7 @@ def analyse_log(
     for k, ev in enumerate(events.events):
         if ev.kind != "heater":
             continue
-        src = source_by_on.get(round(ev.start_s, 9), "channels")
+        src = ev.source
         if power is not None and src != "sheet":
             energy = electrical_energy_J(t, power, ev.start_s, ev.end_s, u_on_s=ev.u_start_s,
                                          u_off_s=ev.u_end_s,
@@ -318,8 +316,6 @@ def event_periods(event: LogEvent, time_s, *, main_end_s: float | None = None,
     PeriodDetectionError
         When the window leaves fewer than four readings for a drift period.
     """
-    from calwork.rise import Periods
-
     t = np.asarray(time_s, dtype=float)
     dt = float(np.median(np.diff(t)))
     w0, w1 = float(t[0]), float(t[-1])

@@ -43,6 +43,7 @@ from typing import Any
 import numpy as np
 
 from calwork.errors import CalibrationError, CalworkError, RunError
+from calwork.io import load_run_log
 from calwork.provenance import Provenance
 from calwork.results import CalibrationResult, RunResult, SampleResult
 from calwork.runinfo import RunInfo
@@ -50,8 +51,8 @@ from calwork.solution.analysis import LogAnalysis, SolutionOptions, analyse_log
 from calwork.solution.blanks import BlankCorrection, blank_correction
 from calwork.solution.reaction import (
     SHARED_COMPONENTS,
-    _combine_budgets,
     amount_of_substance_mol,
+    combine_budgets,
     dilution_ratio,
     final_molality_mol_per_kg,
     refer_energy_equivalent,
@@ -84,8 +85,6 @@ def _thermogram(info: RunInfo, thermograms: Mapping[str, Any] | None) -> Thermog
         return value
     if not info.log:
         raise RunError("the run has no log file", column="log", expected="a log path")
-    from calwork.io import load_run_log
-
     return load_run_log(info)
 
 
@@ -120,7 +119,7 @@ def _electrical_run(info: RunInfo, analysis: LogAnalysis, tg: Thermogram, method
     budget: dict[str, float] = dict(cals[0].budget)
     eps_values = [c.energy_equivalent_J_per_K for c in cals]
     for c in cals[1:]:  # mean of several heatings in one log
-        budget = _combine_budgets(budget, c.budget)
+        budget = combine_budgets(budget, c.budget)
     eps = float(np.mean(eps_values))
     u = math.sqrt(sum(v * v for v in budget.values()))
     first = cals[0]

@@ -189,7 +189,7 @@ def _theil_sen(x: np.ndarray, y: np.ndarray, max_points: int = 120) -> np.ndarra
 def find_events(
     time_s,
     temperature_K,
-    heater_intervals: Sequence[tuple[float, float, float, float]] = (),
+    heater_intervals: Sequence[tuple] = (),
     *,
     fire_time_s: float | None = None,
     expect_reaction: bool = True,
@@ -206,8 +206,8 @@ def find_events(
     time_s, temperature_K
         The log's readings (s, K).
     heater_intervals
-        ``(on_s, off_s, u_on_s, u_off_s)`` of each heater interval (from the channels or the
-        sheet), in any order.
+        ``(on_s, off_s, u_on_s, u_off_s)`` or ``(on_s, off_s, u_on_s, u_off_s, source)`` of
+        each heater interval (from the channels or the sheet), in any order.
     fire_time_s
         Start of the reaction if known (sheet column ``fire_time_s``); otherwise detected.
     expect_reaction
@@ -221,7 +221,8 @@ def find_events(
     min_drift_s
         Drift periods shorter than this give a warning.
     heater_source
-        Label of where the heater intervals came from (``'channels'`` or ``'sheet'``).
+        Label of where the heater intervals came from when the tuples do not say
+        (``'channels'`` or ``'sheet'``).
 
     Returns
     -------
@@ -237,10 +238,11 @@ def find_events(
     dt = float(np.median(np.diff(t)))
     h = max(2, round(half_width_s / dt))
     slope = local_slopes_K_per_s(t, T, h)
-    heaters = sorted((float(a), float(b), float(ua), float(ub))
-                     for a, b, ua, ub in heater_intervals)
+    heaters = sorted((float(h_[0]), float(h_[1]), float(h_[2]), float(h_[3]),
+                      str(h_[4]) if len(h_) > 4 else heater_source)
+                     for h_ in heater_intervals)
     quiet = np.ones(t.size, dtype=bool)
-    for on, off, _, _ in heaters:
+    for on, off, *_ in heaters:
         quiet &= ~((t >= on - (h + 1) * dt) & (t <= off + (4 * h + 1) * dt))
     if fire_time_s is not None:
         quiet &= ~((t >= fire_time_s - (h + 1) * dt) & (t <= fire_time_s + 10 * h * dt))
@@ -272,14 +274,14 @@ def find_events(
 
     events: list[dict] = []
     claimed = np.zeros(len(segments), dtype=bool)
-    for on, off, u_on, u_off in heaters:
+    for on, off, u_on, u_off, src in heaters:
         end = off
         for j, (a, b) in enumerate(segments):
             if t[b] >= on - (h + 1) * dt and t[a] <= off + (h + 1) * dt:
                 claimed[j] = True
                 end = max(end, float(t[b]))
         events.append({"kind": "heater", "start": on, "end": off, "active_end": end,
-                       "u_start": u_on, "u_end": u_off, "source": heater_source})
+                       "u_start": u_on, "u_end": u_off, "source": src})
     warnings: list[str] = []
     if expect_reaction:
         free = [(a, b) for j, (a, b) in enumerate(segments) if not claimed[j]]

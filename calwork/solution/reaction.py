@@ -42,6 +42,7 @@ __all__ = [
     "ReferredEnergyEquivalent",
     "SolutionEnthalpy",
     "amount_of_substance_mol",
+    "combine_budgets",
     "dilution_ratio",
     "final_molality_mol_per_kg",
     "molar_enthalpy_J_per_mol",
@@ -100,7 +101,7 @@ class ReferredEnergyEquivalent:
         return {f.name: jsonable(getattr(self, f.name)) for f in fields(self)}
 
 
-def _combine_budgets(a: Mapping[str, float], b: Mapping[str, float]) -> dict[str, float]:
+def combine_budgets(a: Mapping[str, float], b: Mapping[str, float]) -> dict[str, float]:
     """Budget of the mean of two ε values: shared components average, others add in quadrature."""
     out = {}
     for key in set(a) | set(b):
@@ -168,7 +169,7 @@ def refer_energy_equivalent(
             raise CalibrationError("the mean energy equivalent needs calibrations before and "
                                    "after the reaction in the same log", column="heater_V")
         eps = 0.5 * (before[0] + after[0])
-        budget = _combine_budgets(before[1], after[1])
+        budget = combine_budgets(before[1], after[1])
     else:
         item = chosen[basis]
         if item is None:

@@ -15,9 +15,9 @@ from pathlib import Path
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-from report_fixtures import demo_reduction  # noqa: E402
+from report_fixtures import demo_reduction
 
-from calwork.report import write_workbook  # noqa: E402
+from calwork.report import write_workbook
 
 
 def main(argv: list[str] | None = None) -> int:
