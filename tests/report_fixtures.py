@@ -17,6 +17,7 @@ is NIST SRM 39j (REFERENCES.md §2).
 from __future__ import annotations
 
 from dataclasses import replace
+from functools import lru_cache
 from typing import Any
 
 import numpy as np
@@ -132,3 +133,9 @@ def demo_reduction(*, sample: str = "naphthalene", formula: str = "C10H8",
         warnings=("fixture: simulated runs, rises from the simulator's truth",),
         run_infos=tuple(infos), thermograms=thermograms,
     )
+
+
+@lru_cache(maxsize=8)
+def cached_reduction(**kwargs: Any) -> Reduction:
+    """:func:`demo_reduction`, built once per set of arguments (records are immutable)."""
+    return demo_reduction(**kwargs)

@@ -85,7 +85,7 @@ def test_validate_command(tmp_path, capsys):
                  "--json"]) == 0
     out = _json(capsys)
     assert out["runs"] == 2
-    assert [m["method"] for m in out["methods"]][0] == "newton-fit"
+    assert out["methods"][0]["method"] == "newton-fit"
     assert abs(out["methods"][0]["bias_ppm"]) < 60.0
     assert main(["validate", "--runs", "1"]) == 0
     assert "newton-fit" in capsys.readouterr().out

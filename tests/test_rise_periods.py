@@ -124,13 +124,13 @@ def test_no_event_and_too_short_records_raise():
     rng = np.random.default_rng(6)
     t = 5.0 * np.arange(400)
     drift = Thermogram(time_s=t, temperature_K=298.0 + 2e-5 * t + rng.normal(0, SIGMA, t.size))
-    with pytest.raises(PeriodDetectionError, match="no (heat event|onset)"):
+    with pytest.raises(PeriodDetectionError, match=r"no (heat event|onset)"):
         detect_periods(drift)
     early = newtonian_record(fire_s=10.0, noise_K=SIGMA, seed=7)
     with pytest.raises(PeriodDetectionError, match="fore period too short"):
         detect_periods(early)
     cut = newtonian_record(noise_K=SIGMA, seed=8, duration_s=640.0)
-    with pytest.raises(PeriodDetectionError, match="after period too short|too few"):
+    with pytest.raises(PeriodDetectionError, match=r"after period too short|too few"):
         corrected_rise(cut)
     with pytest.raises(PeriodDetectionError, match="too few readings"):
         detect_periods(Thermogram(time_s=t[:12], temperature_K=298.0 + 0 * t[:12]))

@@ -34,7 +34,7 @@ def newtonian_record(*, rise_K=2.5, k_per_s=1e-4, T_inf_K=298.5, T0_K=297.0, fir
     seen through two first-order lags, ``w ∝ (e^{−s/τ₁} − e^{−s/τ₂})/(τ₁ − τ₂)`` (the kernel
     of METHODS.md (1.10); smooth at the start).
     """
-    t = t_start_s + dt_s * np.arange(int(round(duration_s / dt_s)) + 1)
+    t = t_start_s + dt_s * np.arange(round(duration_s / dt_s) + 1)
     T = T_inf_K + (T0_K - T_inf_K) * np.exp(-k_per_s * (t - t_start_s))
     s = t - fire_s
     on = s > 0
@@ -57,7 +57,7 @@ def heater_record(*, rate_K_per_s=2e-4, on_s=600.0, off_s=900.0, k_per_s=1e-3, T
     Exact: after the start the response to a step ``w`` is ``(w/k)(1 − e^{−k(t−t_on)})``, minus
     the same step delayed to ``t_off``. True adiabatic rise ``w (t_off − t_on)``.
     """
-    t = dt_s * np.arange(int(round(duration_s / dt_s)) + 1)
+    t = dt_s * np.arange(round(duration_s / dt_s) + 1)
     T = T_inf_K + (T0_K - T_inf_K) * np.exp(-k_per_s * t)
     for start, sign in ((on_s, 1.0), (off_s, -1.0)):
         s = np.clip(t - start, 0.0, None)

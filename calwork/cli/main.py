@@ -26,6 +26,7 @@ SUBCOMMANDS = (
     "validate",
     "reduce",
     "network",
+    "cycle",
     "labbook",
     "qa",
 )

@@ -113,19 +113,30 @@ def _tables(red: Reduction) -> str:
              for c in red.calibrations]))
     out.append("\nRuns")
     out.append(format_table(
-        ["run", "kind", "sample", "ΔT_c / K", "ε / J/K", "Δu / J/g", "error"],
+        ["run", "kind", "sample", "ΔT_c / K", "ε / J/K", "Δu / J/g", "ΔH / kJ/mol", "error"],
         [[r.run, r.kind, r.sample or "", _fmt(r.corrected_rise_K, 5),
           _fmt(r.energy_equivalent_J_per_K, 2), _fmt(r.massic_energy_J_per_g, 2),
-          (r.error or "")[:60]] for r in red.runs]))
-    if red.samples:
-        out.append("\nSamples")
+          _fmt(r.molar_enthalpy_kJ_per_mol, 4), (r.error or "")[:60]] for r in red.runs]))
+    bomb = [s for s in red.samples if s.kind == "combustion"]
+    if bomb:
+        out.append("\nSamples (combustion)")
         out.append(format_table(
             ["sample", "n", "Δu / J/g", "u / J/g", "Δcu° / J/g", "ΔfH° / kJ/mol",
              "U(k=2) / kJ/mol"],
             [[s.sample, s.n_runs, _fmt(s.massic_energy_J_per_g, 2),
               _fmt(s.u_massic_energy_J_per_g, 2), _fmt(s.standard_massic_energy_J_per_g, 2),
               _fmt(s.delta_f_H_kJ_per_mol, 2), _fmt(s.U_delta_f_H_kJ_per_mol, 2)]
-             for s in red.samples]))
+             for s in bomb]))
+    other = [s for s in red.samples if s.kind != "combustion"]
+    if other:
+        out.append("\nSamples (solution)")
+        out.append(format_table(
+            ["sample", "n", "ΔH / kJ/mol", "u / kJ/mol", "m / mol/kg", "ΔH∞ / kJ/mol",
+             "u(ΔH∞) / kJ/mol"],
+            [[s.sample, s.n_runs, _fmt(s.molar_enthalpy_kJ_per_mol, 4),
+              _fmt(s.u_molar_enthalpy_kJ_per_mol, 4), _fmt(s.final_molality_mol_per_kg, 4),
+              _fmt(s.infinite_dilution_enthalpy_kJ_per_mol, 4),
+              _fmt(s.u_infinite_dilution_enthalpy_kJ_per_mol, 4)] for s in other]))
     warns = list(red.warnings) + [f"{c.calorimeter}: {w}" for c in red.calibrations
                                   for w in c.warnings]
     if warns:

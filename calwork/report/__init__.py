@@ -5,7 +5,8 @@ spreadsheet formulas; ``write_report(reduction, path)`` writes a self-contained 
 ``.pdf`` report; ``safe_filename(text)`` turns a sample name into a safe file name.
 """
 
+from calwork.report.document import write_report
 from calwork.report.sanitise import safe_filename
 from calwork.report.workbook import write_workbook
 
-__all__ = ["safe_filename", "write_workbook"]
+__all__ = ["safe_filename", "write_report", "write_workbook"]

@@ -89,7 +89,7 @@ def time_at_fraction_s(time_s, temperature_K, t_a_s: float, T_a_K: float, T_c_K:
     if above.size == 0:
         raise ValueError("the temperature never reaches the fraction of the rise")
     j = start + int(above[0])
-    if j == 0 or j == start and t[j] <= t_a_s:
+    if j == 0 or (j == start and t[j] <= t_a_s):
         return float(t[j])
     t0, t1, y0, y1 = t[j - 1], t[j], T[j - 1], T[j]
     return float(t0 + (level - y0) * (t1 - t0) / (y1 - y0))

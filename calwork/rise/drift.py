@@ -24,8 +24,8 @@ __all__ = [
     "newton_constants_from_drifts",
     "newton_drift_K_per_s",
     "newton_temperature_K",
-    "relaxation_factor_s",
     "relaxation_factor_dk_s2",
+    "relaxation_factor_s",
     "trapezoid_K_s",
     "trapezoid_weights_s",
 ]
@@ -134,7 +134,9 @@ def convergence_temperature_K(reference_temperature_K: float, drift_K_per_s: flo
                               rate_constant_per_s: float) -> float:
     """``T_∞ = T_r + g_r / k``, K (``inf`` with the sign of ``g_r`` when ``k = 0``)."""
     if rate_constant_per_s == 0.0:
-        return float(np.copysign(np.inf, drift_K_per_s)) if drift_K_per_s else reference_temperature_K
+        if drift_K_per_s == 0.0:
+            return reference_temperature_K
+        return float(np.copysign(np.inf, drift_K_per_s))
     return reference_temperature_K + drift_K_per_s / rate_constant_per_s
 
 

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import contextlib
 import math
 from dataclasses import replace
 from functools import cache
@@ -12,7 +13,12 @@ from calwork.errors import CalworkError, check_choice
 from calwork.provenance import Provenance, calwork_version
 from calwork.rise.diagnostics import format_times, sampling_gaps, warning
 from calwork.rise.dickinson import DICKINSON_RULES
-from calwork.rise.methods import METHODS, reduce_dickinson, reduce_regnault_pfaundler
+from calwork.rise.methods import (
+    METHODS,
+    reduce_dickinson,
+    reduce_newton,
+    reduce_regnault_pfaundler,
+)
 from calwork.rise.periods import Periods, detect_periods
 from calwork.rise.result import RiseResult
 from calwork.rise.selection import MethodOutput, Selection, select
@@ -75,16 +81,17 @@ def _boundary_component(thermogram: Thermogram, sel: Selection, out: MethodOutpu
             alt = replace(periods, main_end_s=t_alt,
                           after_period_s=(t_alt, periods.after_period_s[1]))
             try:
-                parts.append(abs(reduce(select(thermogram, alt)).rise_K - out.rise_K))
+                sub = select(thermogram, alt)
+                again = (reduce_newton(sub, out.model) if reduce is reduce_newton
+                         else reduce(sub))
+                parts.append(abs(again.rise_K - out.rise_K))
             except CalworkError:
                 pass
     if periods.fire_source != "given":
         earlier = sel.previous_reading_s(1)
         if earlier < sel.t_i and earlier > periods.fore_period_s[0]:
-            try:
+            with contextlib.suppress(ValueError, CalworkError):
                 parts.append(abs(out.rise_at(earlier, sel.t_f) - out.rise_K))
-            except (ValueError, CalworkError):
-                pass
     if not parts:
         return None
     return math.sqrt(sum(p * p for p in parts))

@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, replace
+from typing import Any
 
 import numpy as np
 
@@ -46,12 +47,13 @@ def _equivalent_tx(fore: DriftCurve, after: DriftCurve, rise: float, t_i: float,
     return float(ts[j] - d[j] * (ts[j + 1] - ts[j]) / (d[j + 1] - d[j]))
 
 
-def reduce_newton(sel: Selection) -> MethodOutput:
+def reduce_newton(sel: Selection, start: Any = None) -> MethodOutput:
     """newton-fit: joint Newtonian fit of fore and after periods (§1.6b), exchange integral
-    over the main-period readings, end points from the fitted curves."""
+    over the main-period readings, end points from the fitted curves. ``start``: the
+    :class:`~calwork.rise.newton.NewtonFit` of nearly the same periods to start from."""
     t, T = sel.t, sel.T
     try:
-        fit = fit_newton(t[sel.fore], T[sel.fore], t[sel.after], T[sel.after])
+        fit = fit_newton(t[sel.fore], T[sel.fore], t[sel.after], T[sel.after], start=start)
     except FitError as exc:
         raise exc.with_context(path=sel.source_path) from None
     f_ar = ar1_inflation(fit.rho1)
@@ -83,6 +85,7 @@ def reduce_newton(sel: Selection) -> MethodOutput:
         exchange_K=parts["exchange_correction_K"], fore_drift=fore, after_drift=after,
         sigma_K=fit.sigma_K, rho1=fit.rho1, durbin_watson=fit.durbin_watson,
         t_x_s=_equivalent_tx(fore, after, rise, sel.t_i, sel.t_f), rise_at=rise_at,
+        model=fit,
     )
 
 

@@ -137,7 +137,8 @@ class NewtonFit:
 
 
 def fit_newton(t_fore: np.ndarray, T_fore: np.ndarray, t_after: np.ndarray,
-               T_after: np.ndarray, *, max_iterations: int = 30) -> NewtonFit:
+               T_after: np.ndarray, *, max_iterations: int = 30,
+               start: NewtonFit | None = None) -> NewtonFit:
     """Fit fore and after readings jointly to Newton's law (shared ``k`` and ``T_∞``).
 
     Parameters
@@ -148,6 +149,10 @@ def fit_newton(t_fore: np.ndarray, T_fore: np.ndarray, t_after: np.ndarray,
         After-period times (s) and temperatures (K), at least 2 readings.
     max_iterations
         Gauss–Newton step limit.
+    start
+        A fit of nearly the same readings (same reference temperature and period means
+        within a few readings) to start from: one Gauss–Newton step is then taken, which is
+        converged to far below the parameters' uncertainty for a model this close to linear.
 
     Returns
     -------
@@ -161,25 +166,36 @@ def fit_newton(t_fore: np.ndarray, T_fore: np.ndarray, t_after: np.ndarray,
     """
     t_fore = np.asarray(t_fore, dtype=float)
     t_after = np.asarray(t_after, dtype=float)
+    T_fore = np.asarray(T_fore, dtype=float)
+    T_after = np.asarray(T_after, dtype=float)
     nf, na = t_fore.size, t_after.size
     if nf < 2 or na < 2 or nf + na < 5:
         raise FitError("the Newtonian fit needs at least 2 fore and 2 after readings and 5 in all",
                        found=(nf, na))
-    T_r = float(np.mean(T_fore))
-    c_f, y_f, g_f = _line(t_fore, np.asarray(T_fore, dtype=float) - T_r)
-    c_a, y_a, g_a = _line(t_after, np.asarray(T_after, dtype=float) - T_r)
-    tau = np.concatenate([t_fore - c_f, t_after - c_a])
-    y = np.concatenate([np.asarray(T_fore, dtype=float), np.asarray(T_after, dtype=float)]) - T_r
-    # Start: straight lines through the period means, (1.3) for k; g_r = drift at θ = 0.
-    k = (g_f - g_a) / (y_a - y_f) if abs(y_a - y_f) > 1e-12 else 0.0
-    p = np.array([y_f, y_a, g_f + k * y_f, k])
     n = nf + na
+    if start is None:
+        T_r = float(np.mean(T_fore))
+        c_f, y_f, g_f = _line(t_fore, T_fore - T_r)
+        c_a, y_a, g_a = _line(t_after, T_after - T_r)
+        # Start: straight lines through the period means, (1.3) for k; g_r = drift at θ = 0.
+        k = (g_f - g_a) / (y_a - y_f) if abs(y_a - y_f) > 1e-12 else 0.0
+        p = np.array([y_f, y_a, g_f + k * y_f, k])
+    else:
+        T_r = start.reference_temperature_K
+        c_f, c_a = float(t_fore.mean()), float(t_after.mean())
+        p = start.params.copy()
+        # move the integration constants to the new period means along the fitted curves
+        p[0] = float(start.theta(c_f, "fore")[0])
+        p[1] = float(start.theta(c_a, "after")[0])
+        max_iterations = 1
+    tau = np.concatenate([t_fore - c_f, t_after - c_a])
+    y = np.concatenate([T_fore, T_after]) - T_r
     J = np.zeros((n, 4))
+    th0 = np.empty(n)
     converged = False
     it = 0
     for it in range(1, max_iterations + 1):  # noqa: B007 - iteration count is reported
         e, phi, dphi = _relax(tau, p[3])
-        th0 = np.empty(n)
         th0[:nf], th0[nf:] = p[0], p[1]
         r = y - (th0 * e + p[2] * phi)
         J[:nf, 0] = e[:nf]
@@ -190,53 +206,38 @@ def fit_newton(t_fore: np.ndarray, T_fore: np.ndarray, t_after: np.ndarray,
         if not np.all(scale > 0):
             raise FitError("the Newtonian fit has a degenerate design (no time spread)")
         Js = J / scale
-        A = Js.T @ Js
         try:
-            step = np.linalg.solve(A, Js.T @ r) / scale
+            inv = np.linalg.inv(Js.T @ Js)
         except np.linalg.LinAlgError:
             raise FitError("the Newtonian fit is singular (fore and after periods give no "
                            "independent information on k)") from None
+        step = (inv @ (Js.T @ r)) / scale
         p = p + step
         # converged when every step is far below the parameter's own standard deviation
         rss = float(r @ r)
-        s2 = rss / max(n - 4, 1)
-        try:
-            inv = np.linalg.inv(A)
-        except np.linalg.LinAlgError:
-            raise FitError("the Newtonian fit is singular") from None
-        sd = np.sqrt(np.maximum(np.diag(inv) * s2, 0.0)) / scale
-        if np.all(np.abs(step) <= 1e-6 * sd + 1e-15 * np.abs(p)) or rss == 0.0:
+        sd = np.sqrt(np.maximum(np.diag(inv) * rss / max(n - 4, 1), 0.0)) / scale
+        if start is not None or rss == 0.0 or np.all(np.abs(step) <= 1e-3 * sd):
             converged = True
             break
-    if not converged:
+    if not converged or not np.all(np.isfinite(p)):
         raise FitError("the Newtonian fit did not converge", found=it,
                        expected=f"convergence within {max_iterations} steps")
-    e, phi, dphi = _relax(tau, p[3])
-    th0 = np.empty(n)
-    th0[:nf], th0[nf:] = p[0], p[1]
-    r = y - (th0 * e + p[2] * phi)
-    J[:nf, 0] = e[:nf]
-    J[nf:, 1] = e[nf:]
-    J[:, 2] = phi
-    J[:, 3] = -th0 * tau * e + p[2] * dphi
-    scale = np.sqrt(np.einsum("ij,ij->j", J, J))
-    Js = J / scale
-    try:
-        inv = np.linalg.inv(Js.T @ Js) / np.outer(scale, scale)
-    except np.linalg.LinAlgError:
-        raise FitError("the Newtonian fit is singular") from None
+    # residuals at the new parameters to first order; the Jacobian of the last step (the step
+    # is far below the parameter uncertainties, so the covariance is unchanged)
+    r = r - J @ step
     rss = float(r @ r)
     dof = n - 4
     s2 = rss / dof if dof > 0 else float("nan")
     rf, ra = r[:nf], r[nf:]
     lag = float(rf[1:] @ rf[:-1] + ra[1:] @ ra[:-1])
-    dsq = float(np.sum(np.diff(rf) ** 2) + np.sum(np.diff(ra) ** 2))
+    df, da = np.diff(rf), np.diff(ra)
+    dsq = float(df @ df + da @ da)
     rho = lag / rss if rss > 0 else 0.0
     dw = dsq / rss if rss > 0 else 2.0
     return NewtonFit(
         reference_temperature_K=T_r, fore_t0_s=c_f, after_t0_s=c_a, params=p,
-        covariance=inv * s2, sigma_K=float(np.sqrt(s2)), rho1=rho, durbin_watson=dw,
-        residuals_fore_K=rf, residuals_after_K=ra, iterations=it,
+        covariance=inv / np.outer(scale, scale) * s2, sigma_K=float(np.sqrt(s2)), rho1=rho,
+        durbin_watson=dw, residuals_fore_K=rf, residuals_after_K=ra, iterations=it,
     )
 
 

@@ -173,8 +173,8 @@ class Periods:
         """A short human-readable summary."""
         lines = [
             f"fore period   {self.fore_period_s[0]:10.1f} – {self.fore_period_s[1]:10.1f} s",
-            f"main period   {self.fire_time_s:10.1f} – {self.main_end_s:10.1f} s "
-            f"(start {self.fire_source}, end {self.main_end_source})",
+            (f"main period   {self.fire_time_s:10.1f} – {self.main_end_s:10.1f} s "
+             f"(start {self.fire_source}, end {self.main_end_source})"),
             f"after period  {self.after_period_s[0]:10.1f} – {self.after_period_s[1]:10.1f} s",
         ]
         if self.noise_K is not None:

@@ -9,6 +9,7 @@ from __future__ import annotations
 
 from collections.abc import Callable
 from dataclasses import dataclass, field
+from typing import Any
 
 import numpy as np
 
@@ -149,3 +150,5 @@ class MethodOutput:
     #: re-evaluates the rise for other boundaries with the same drift fits
     rise_at: Callable[[float, float], float]
     warnings: list[str] = field(default_factory=list)
+    #: the fitted model (e.g. the NewtonFit), for warm starts of refits
+    model: Any = None

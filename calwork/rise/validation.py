@@ -120,8 +120,8 @@ def _scenario(params) -> tuple[Any, float, str]:
                 f"combustion of {energy:.0f} J at {FIRE_TIME_S:g} s, {duration:g} s record")
     power = 0.05 * eps / 300.0
     return (HeaterInterval(power_W=power, on_s=FIRE_TIME_S, off_s=FIRE_TIME_S + 300.0),
-            duration, f"heater {power * 1e3:.3g} mW for 300 s from {FIRE_TIME_S:g} s, "
-            f"{duration:g} s record")
+            duration, (f"heater {power * 1e3:.3g} mW for 300 s from {FIRE_TIME_S:g} s, "
+                       f"{duration:g} s record"))
 
 
 def validate_methods(params, runs: int = 20, seed: int = 0) -> ValidationResult:

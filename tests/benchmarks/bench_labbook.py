@@ -42,7 +42,10 @@ def _make_sheets(root: Path, n_sheets: int) -> tuple[list[Path], int]:
         folder = root / f"sheet-{s:03d}"
         folder.mkdir()
         for log in logs:
-            os.link(log, folder / log.name)
+            try:
+                os.link(log, folder / log.name)
+            except OSError:  # no hard links here: copy
+                shutil.copy(log, folder / log.name)
         start = date(2025, 1, 1) + timedelta(days=3 * s)
         with (folder / "runs.csv").open("w", newline="") as fh:
             writer = csv.DictWriter(fh, fieldnames=list(rows[0]))

@@ -1,0 +1,52 @@
+"""``write_report``: the reduction as a self-contained HTML page or a PDF, by file suffix."""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Any
+
+from calwork.errors import ExportError
+from calwork.report.content import build_document
+from calwork.report.html import render_html
+from calwork.report.output import atomic_target
+from calwork.report.pdf import render_pdf
+
+__all__ = ["REPORT_FORMATS", "write_report"]
+
+#: File suffixes :func:`write_report` writes.
+REPORT_FORMATS = (".html", ".htm", ".pdf")
+
+
+def write_report(reduction: Any, path: str | Path) -> Path:
+    """Write the report of ``reduction`` to ``path`` (``.html``/``.htm`` or ``.pdf``).
+
+    The report holds, per sample series, the result with its uncertainty budget and the key
+    values used; per calibrated calorimeter, the runs and the control chart of ε (mean,
+    ±2s warning and ±3s action limits, from :mod:`calwork.qa`); per run, the values,
+    warnings and the thermogram with its periods, drift model and residuals
+    (:func:`calwork.rise.plot_rise`). Everything from simulated logs is labelled simulated.
+    HTML is self-contained (inline CSS, base64 PNG images, no external resources; all text
+    escaped). PDF pages are drawn with matplotlib.
+
+    Safety: the report carries the safety note — oxygen bombs are pressure vessels charged to
+    about 3 MPa, bomb washings are acids, calibration heaters are electrical; follow the
+    manufacturer's instructions, local codes and licensed practice. calwork computes; it does
+    not make a procedure safe.
+
+    Raises
+    ------
+    ExportError
+        Unknown suffix, or the file cannot be written.
+    """
+    path = Path(path)
+    suffix = path.suffix.lower()
+    if suffix not in REPORT_FORMATS:
+        raise ExportError("a report is written as HTML or PDF", path=path, found=path.suffix,
+                          expected=f"one of {list(REPORT_FORMATS)}")
+    doc = build_document(reduction)
+    with atomic_target(path, what="report") as tmp:
+        if suffix == ".pdf":
+            render_pdf(doc, tmp)
+        else:
+            tmp.write_text(render_html(doc), encoding="utf-8")
+    return path
