@@ -30,7 +30,7 @@ from typing import Any
 
 import numpy as np
 
-from calwork.constants import R_J_per_mol_K, T_REF_K
+from calwork.constants import T_REF_K, R_J_per_mol_K
 from calwork.formula import element_counts, molar_mass_g_per_mol
 
 __all__ = ["DEMO_SAMPLES", "build_sample_runs"]
@@ -144,6 +144,57 @@ def _bomb_day(out: Path, rng: np.random.Generator) -> list[dict[str, Any]]:
     return rows
 
 
+#: "True" ΔfH° (kJ/mol) behind the simulated network file: CODATA key values (CO2, CO, H2O) and
+#: literature values for methane and methanol (NIST WebBook, recalled from memory).
+_NETWORK_TRUTH = {"CO2(g)": -393.51, "CO(g)": -110.53, "H2O(l)": -285.830,
+                  "H2O(g)": -241.826, "CH4(g)": -74.87, "CH3OH(l)": -239.2,
+                  "CH3OH(g)": -201.0}
+#: Determinations of the simulated network: (id, equation, standard uncertainty kJ/mol).
+_NETWORK_ROWS = (
+    ("comb-graphite", "C(cr,graphite) + O2(g) = CO2(g)", 0.13),
+    ("comb-CO", "CO(g) + 1/2 O2(g) = CO2(g)", 0.15),
+    ("form-H2O", "H2(g) + 1/2 O2(g) = H2O(l)", 0.04),
+    ("vap-H2O", "H2O(l) = H2O(g)", 0.02),
+    ("comb-CH4", "CH4(g) + 2 O2(g) = CO2(g) + 2 H2O(l)", 0.30),
+    ("comb-CH3OH", "CH3OH(l) + 3/2 O2(g) = CO2(g) + 2 H2O(l)", 0.25),
+    ("vap-CH3OH", "CH3OH(l) = CH3OH(g)", 0.15),
+    ("synth-CH3OH", "CO(g) + 2 H2(g) = CH3OH(g)", 0.40),
+    ("steam-reform", "CH4(g) + H2O(g) = CO(g) + 3 H2(g)", 0.50),
+    ("partial-ox", "C(cr,graphite) + 1/2 O2(g) = CO(g)", 0.30),
+)
+#: The determination given a planted error (kJ/mol) so the worst-offender analysis has a case.
+_NETWORK_PLANTED = ("partial-ox", 4.0)
+
+
+def write_network_file(path: str | Path, *, seed: int = 20260302) -> Path:
+    """Write a simulated network CSV: determinations = truth + seeded noise, one planted error.
+
+    The species and equations are real, the numbers are simulated from :data:`_NETWORK_TRUTH`
+    with Gaussian noise of each row's stated uncertainty; row ``partial-ox`` carries a planted
+    error of +4 kJ/mol for the worst-offender walk-through. Labelled as simulated.
+    """
+    import csv
+
+    from calwork.hess import parse_equation
+
+    rng = np.random.default_rng(seed)
+    path = Path(path)
+    with path.open("w", newline="", encoding="utf-8") as fh:
+        w = csv.writer(fh)
+        w.writerow(["id", "equation", "delta_r_H_kJ_per_mol", "u_delta_r_H_kJ_per_mol",
+                    "source"])
+        for rid, equation, u in _NETWORK_ROWS:
+            reaction = parse_equation(equation)
+            true = sum(float(nu) * _NETWORK_TRUTH.get(str(sp), 0.0)
+                       for sp, nu in reaction.stoichiometry.items())
+            value = true + u * float(rng.standard_normal())
+            if rid == _NETWORK_PLANTED[0]:
+                value += _NETWORK_PLANTED[1]
+            w.writerow([rid, equation, f"{value:.3f}", f"{u:.3f}",
+                        "simulated by calwork (truth + noise); not a measurement"])
+    return path
+
+
 def build_sample_runs(out_dir: str | Path, *, seed: int = 20260302) -> Path:
     """Write the demo folder (logs and ``runs.csv``) into ``out_dir``; returns the sheet path."""
     from calwork.io.writers import write_run_sheet
@@ -158,6 +209,7 @@ def build_sample_runs(out_dir: str | Path, *, seed: int = 20260302) -> Path:
     (out / "solution_runs.csv").unlink(missing_ok=True)   # merged into the one sheet below
     sheet = out / "runs.csv"
     write_run_sheet(rows, sheet)
+    write_network_file(out / "network.csv", seed=seed + 2)
     return sheet
 
 

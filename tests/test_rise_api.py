@@ -87,18 +87,16 @@ def test_cross_check_and_method_agreement(record, result):
 def test_methods_disagree_is_flagged(record, monkeypatch):
     # The cross-check rarely fires on real records (both methods read the same drifts); the
     # plumbing is checked by offsetting the RP value by 10 combined uncertainties.
-    import dataclasses
-
     import calwork.rise.engine as engine
 
-    real = engine.reduce_regnault_pfaundler
+    real = engine.regnault_pfaundler_check
     base = corrected_rise(record)
 
     def shifted(sel):
-        out = real(sel)
-        return dataclasses.replace(out, rise_K=out.rise_K + 10 * base.u_corrected_rise_K)
+        rise, u = real(sel)
+        return rise + 10 * base.u_corrected_rise_K, u
 
-    monkeypatch.setattr(engine, "reduce_regnault_pfaundler", shifted)
+    monkeypatch.setattr(engine, "regnault_pfaundler_check", shifted)
     res = corrected_rise(record)
     flagged = [w for w in res.warnings if w.startswith("methods-disagree:")]
     assert len(flagged) == 1

@@ -21,7 +21,13 @@ from typing import Any
 from calwork.errors import CalworkError
 from calwork.provenance import calwork_version
 from calwork.report.plots import plot_style, simulated_stamp
-from calwork.report.texts import SAFETY_NOTE, SIMULATED_NOTE, is_simulated, simulated_runs
+from calwork.report.texts import (
+    SAFETY_NOTE,
+    SIMULATED_NOTE,
+    is_simulated,
+    primary_rise,
+    simulated_runs,
+)
 
 __all__ = ["Document", "Figure", "Paragraph", "Section", "Table", "build_document", "fmt"]
 
@@ -127,11 +133,22 @@ def _summary(red: Any) -> Section:
              _pm(s.delta_c_U_kJ_per_mol, s.u_delta_c_U_kJ_per_mol, 2),
              _pm(s.delta_c_H_kJ_per_mol, s.u_delta_c_H_kJ_per_mol, 2),
              _pm(s.delta_f_H_kJ_per_mol, s.u_delta_f_H_kJ_per_mol, 2),
-             fmt(s.U_delta_f_H_kJ_per_mol, 2)] for s in red.samples]
+             fmt(s.U_delta_f_H_kJ_per_mol, 2)] for s in red.samples if s.kind == "combustion"]
     sec.blocks.append(Table(
         ["sample", "formula", "n", "Δu (J/g)", "Δu° (J/g)", "ΔcU° (kJ/mol)", "ΔcH° (kJ/mol)",
          "ΔfH° (kJ/mol)", "U(ΔfH°), k = 2"], rows,
         "Sample series: mean ± standard uncertainty u (k = 1); U = k·u"))
+    solution = [s for s in red.samples if s.kind != "combustion"]
+    if solution:
+        sec.blocks.append(Table(
+            ["sample", "kind", "n", "ΔH (kJ/mol)", "final molality (mol/kg)",
+             "ΔH at infinite dilution (kJ/mol)"],
+            [[s.sample, s.kind, str(s.n_runs),
+              _pm(s.molar_enthalpy_kJ_per_mol, s.u_molar_enthalpy_kJ_per_mol, 3),
+              fmt(s.final_molality_mol_per_kg, 4),
+              _pm(s.infinite_dilution_enthalpy_kJ_per_mol,
+                  s.u_infinite_dilution_enthalpy_kJ_per_mol, 3)] for s in solution],
+            "Solution series: molar enthalpies ± u (k = 1)"))
     rows = [[c.calorimeter, str(c.n_runs),
              _pm(c.energy_equivalent_J_per_K, c.u_energy_equivalent_J_per_K, 3),
              fmt(c.rsd_percent, 4), c.method] for c in red.calibrations]
@@ -253,9 +270,10 @@ def _run_figure(run: Any, th: Any, tmp: Path) -> Figure | None:
 
     sim = is_simulated(th)
     label = " (simulated data)" if sim else ""
-    if isinstance(run.rise, RiseResult):
+    rise = primary_rise(run)
+    if isinstance(rise, RiseResult):
         path = tmp / f"run-{len(list(tmp.iterdir()))}.png"
-        plot_rise(th, run.rise, path)
+        plot_rise(th, rise, path)
         return Figure(path.read_bytes(), f"Thermogram of run {run.run}{label}",
                       f"Run {run.run}{label}: readings, fore/main/after periods, fitted drift "
                       "model extended over the main period, residuals of the drift fits "
@@ -270,7 +288,7 @@ def _run(run: Any, red: Any, anchor: str, tmp: Path) -> Section:
     sim = th is not None and is_simulated(th)
     sec = Section(f"Run {run.run}" + (" (simulated data)" if sim else ""), anchor,
                   simulated=sim)
-    rise = run.rise
+    rise = primary_rise(run)
     prov = getattr(th, "provenance", None) or run.provenance
     pairs = [
         ("kind", run.kind), ("sample", run.sample or "—"), ("calorimeter", run.calorimeter),

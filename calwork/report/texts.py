@@ -5,7 +5,14 @@ from __future__ import annotations
 from collections.abc import Mapping
 from typing import Any
 
-__all__ = ["SAFETY_NOTE", "SIMULATED_NOTE", "is_simulated", "simulated_runs"]
+__all__ = [
+    "SAFETY_NOTE",
+    "SIMULATED_NOTE",
+    "is_simulated",
+    "primary_rise",
+    "rise_method",
+    "simulated_runs",
+]
 
 #: The safety note every report and workbook carries.
 SAFETY_NOTE = (
@@ -36,3 +43,22 @@ def simulated_runs(reduction: Any) -> list[str]:
     thermograms = reduction.thermograms
     return [r.run for r in reduction.runs
             if r.run in thermograms and is_simulated(thermograms[r.run])]
+
+
+def primary_rise(run: Any) -> Any:
+    """The rise result to show for a run: its own, or for a multi-event log (solution runs)
+    the reaction event's (``details['reaction_event_index']``, else the first)."""
+    rise = run.rise
+    if isinstance(rise, (tuple, list)):
+        if not rise:
+            return None
+        index = run.details.get("reaction_event_index")
+        if isinstance(index, int) and 0 <= index < len(rise):
+            return rise[index]
+        return rise[0]
+    return rise
+
+
+def rise_method(run: Any, default: str | None = None) -> str | None:
+    """The corrected-rise method behind a run's numbers (``default``: the reduction's)."""
+    return getattr(primary_rise(run), "method", None) or default

@@ -33,7 +33,7 @@ from calwork.errors import CalworkError, ExportError
 from calwork.report.grid import text_cell
 from calwork.report.plots import OKABE_ITO
 from calwork.report.sanitise import cell_text
-from calwork.report.texts import SIMULATED_NOTE, is_simulated
+from calwork.report.texts import SIMULATED_NOTE, is_simulated, primary_rise
 
 __all__ = ["ReadingsTail", "write_log_sheet"]
 
@@ -194,7 +194,7 @@ def write_log_sheet(wb: Any, title: str, run: Any, th: Any, *, method: str | Non
     for col, width in (("A", 12), ("B", 16), ("C", 3), ("D", 34), ("E", 66)):
         ws.column_dimensions[col].width = width
     ws.freeze_panes = "A2"
-    rise = run.rise
+    rise = primary_rise(run)
     t = np.asarray(th.time_s, dtype=float)
     T = np.asarray(th.temperature_K, dtype=float)
     fire = _num(getattr(rise, "fire_time_s", None))

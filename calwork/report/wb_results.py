@@ -48,6 +48,11 @@ _SAMPLE_COLS = [
     ("dcH", "ΔcH° (kJ/mol)", "0.00"), ("u_dcH", "u(ΔcH°) (kJ/mol)", "0.00"),
     ("dfH", "ΔfH° (kJ/mol)", "0.00"), ("u_dfH", "u(ΔfH°) (kJ/mol)", "0.00"),
     ("U_dfH", "U(ΔfH°) = k·u (kJ/mol)", "0.00"), ("k", "coverage factor k", "0.0"),
+    ("h", "solution: molar enthalpy ΔH (kJ/mol)", "0.0000"),
+    ("u_h", "solution: u(ΔH) (kJ/mol)", "0.0000"),
+    ("molality", "solution: final molality (mol/kg)", "0.00000"),
+    ("h_inf", "solution: ΔH at infinite dilution (kJ/mol)", "0.0000"),
+    ("u_h_inf", "solution: u(ΔH at infinite dilution) (kJ/mol)", "0.0000"),
     ("runs", "runs", None), ("warnings", "warnings", None),
 ]
 _CAL_COLS = [
@@ -143,6 +148,12 @@ def plan_summary_samples(plan: Plan) -> None:
         table.put(row, "runs", ", ".join(s.runs))
         table.put(row, "warnings", "; ".join(s.warnings) or None)
         table.put(row, "k", s.coverage_factor)
+        for key, attr in (("h", "molar_enthalpy_kJ_per_mol"),
+                          ("u_h", "u_molar_enthalpy_kJ_per_mol"),
+                          ("molality", "final_molality_mol_per_kg"),
+                          ("h_inf", "infinite_dilution_enthalpy_kJ_per_mol"),
+                          ("u_h_inf", "u_infinite_dilution_enthalpy_kJ_per_mol")):
+            table.put(row, key, getattr(s, attr))
         refs = runs_of(plan.refs, "du", s.runs)
         stats = _series_stats(plan, table, row, refs,
                               {"n": s.n_runs, "mean": s.massic_energy_J_per_g},

@@ -23,6 +23,7 @@ from calwork.constants import T_REF_K, STANDARD_ATMOSPHERE_Pa
 from calwork.errors import CalworkError
 from calwork.report.formulas import Const, Expr, Ref, total
 from calwork.report.plan import Plan, Table, detail
+from calwork.report.texts import primary_rise, rise_method
 
 __all__ = [
     "SOLUTION_KINDS",
@@ -150,13 +151,13 @@ def _referral(plan: Plan, table: Table, row: int, run: Any) -> tuple[Ref | None,
     d = run.details
     rise = table.put(row, "rise", run.corrected_rise_K)
     table.put(row, "u_rise", run.u_corrected_rise_K)
-    table.put(row, "method", getattr(run.rise, "method", None) or plan.reduction.method)
+    table.put(row, "method", rise_method(run, plan.reduction.method))
     if not d.get("contents_included"):
         referral = table.put(row, "referral", 0.0 if run.error is None else None)
         return rise, referral
     eps_i = table.put(row, "eps_i", detail(d, "eps_initial_contents_J_per_K"))
     eps_f = table.put(row, "eps_f", detail(d, "eps_final_contents_J_per_K"))
-    T_i = table.put(row, "T_i", getattr(run.rise, "T_initial_K", None))
+    T_i = table.put(row, "T_i", getattr(primary_rise(run), "T_initial_K", None))
     T_ref = table.put(row, "T_ref", T_REF_K)
     reported = detail(d, "contents_referral_J")
     if None in (eps_i, eps_f, T_i, T_ref, rise):
@@ -313,7 +314,7 @@ def plan_solution_runs(plan: Plan, runs: list[Any]) -> None:
         table.put(row, "sample", run.sample)
         table.put(row, "rise", run.corrected_rise_K)
         table.put(row, "u_rise", run.u_corrected_rise_K)
-        table.put(row, "method", getattr(run.rise, "method", None) or plan.reduction.method)
+        table.put(row, "method", rise_method(run, plan.reduction.method))
         table.put(row, "eps", run.energy_equivalent_J_per_K)
         table.put(row, "heater", run.heater_energy_J)
         table.put(row, "q", run.reaction_heat_J)

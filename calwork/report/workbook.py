@@ -29,7 +29,7 @@ from calwork.report.grid import new_workbook, save_workbook
 from calwork.report.output import atomic_target
 from calwork.report.plan import Plan, Table
 from calwork.report.sanitise import safe_sheet_title
-from calwork.report.texts import SAFETY_NOTE, is_simulated
+from calwork.report.texts import SAFETY_NOTE, is_simulated, rise_method
 from calwork.report.wb_readings import write_log_sheet
 from calwork.report.wb_results import (
     plan_budget,
@@ -94,7 +94,7 @@ def _plan_provenance(plan: Plan, log_titles: dict[str, str]) -> None:
             if p.first_row is not None:
                 table.put(r, "rows", f"{p.first_row}–{p.last_row}")
         table.put(r, "simulated", "yes" if th is not None and is_simulated(th) else "no")
-        table.put(r, "method", getattr(run.rise, "method", None) or red.method)
+        table.put(r, "method", rise_method(run, red.method))
         table.put(r, "sheet", log_titles.get(run.run))
         if run.provenance is not None and run.provenance.constants:
             table.put(r, "constants", "; ".join(f"{k} = {v}"

@@ -15,9 +15,10 @@ from calwork.rise.diagnostics import format_times, sampling_gaps, warning
 from calwork.rise.dickinson import DICKINSON_RULES
 from calwork.rise.methods import (
     METHODS,
+    newton_rise_only,
     reduce_dickinson,
     reduce_newton,
-    reduce_regnault_pfaundler,
+    regnault_pfaundler_check,
 )
 from calwork.rise.periods import Periods, detect_periods
 from calwork.rise.result import RiseResult
@@ -82,9 +83,9 @@ def _boundary_component(thermogram: Thermogram, sel: Selection, out: MethodOutpu
                           after_period_s=(t_alt, periods.after_period_s[1]))
             try:
                 sub = select(thermogram, alt)
-                again = (reduce_newton(sub, out.model) if reduce is reduce_newton
-                         else reduce(sub))
-                parts.append(abs(again.rise_K - out.rise_K))
+                again = (newton_rise_only(sub, out.model) if reduce is reduce_newton
+                         else reduce(sub).rise_K)
+                parts.append(abs(again - out.rise_K))
             except CalworkError:
                 pass
     if periods.fire_source != "given":
@@ -125,17 +126,16 @@ def _diagnostics(thermogram: Thermogram, sel: Selection, out: MethodOutput,
                              f"{out.sigma_K / abs(rise):.2g} of the rise"))
     if method == "newton-fit":
         try:
-            rp = reduce_regnault_pfaundler(sel)
+            rp, u_rp = regnault_pfaundler_check(sel)
         except CalworkError:
             rp = None
         if rp is not None:
-            cross["regnault-pfaundler"] = rp.rise_K
-            u_rp = math.sqrt(sum(v * v for v in rp.budget.values()))
+            cross["regnault-pfaundler"] = rp
             lim = 2.0 * math.hypot(u_rise, u_rp)
-            if abs(rp.rise_K - rise) > lim:
+            if abs(rp - rise) > lim:
                 warns.append(warning("methods-disagree", f"newton-fit {rise:.6f} K and "
-                                     f"Regnault–Pfaundler {rp.rise_K:.6f} K differ by "
-                                     f"{(rp.rise_K - rise) * 1e6:+.3g} µK (> {lim * 1e6:.3g} µK,"
+                                     f"Regnault–Pfaundler {rp:.6f} K differ by "
+                                     f"{(rp - rise) * 1e6:+.3g} µK (> {lim * 1e6:.3g} µK,"
                                      " twice the combined uncertainty)"))
     return warns, cross
 

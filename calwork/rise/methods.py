@@ -37,14 +37,17 @@ RATE_WINDOW_S = 300.0
 
 def _equivalent_tx(fore: DriftCurve, after: DriftCurve, rise: float, t_i: float,
                    t_f: float) -> float | None:
-    """Time at which the after curve lies ``rise`` above the fore curve (Dickinson's t_x)."""
-    ts = np.linspace(t_i, t_f, 65)
-    d = after(ts) - fore(ts) - rise
-    sign_change = np.flatnonzero(np.sign(d[1:]) != np.sign(d[:-1]))
-    if sign_change.size == 0:
+    """Time at which the after curve lies ``rise`` above the fore curve (Dickinson's t_x).
+
+    Two solutions of the same linear law (1.1) differ by ``D(t) = D(t_i) e^{−k(t − t_i)}``
+    [derived here], so ``t_x = t_i + ln(D(t_i)/ΔT_c)/k``; ``None`` outside the main period.
+    """
+    d_i = after(t_i) - fore(t_i)
+    k = fore.k_per_s
+    if rise == 0 or d_i / rise <= 0:
         return None
-    j = int(sign_change[0])
-    return float(ts[j] - d[j] * (ts[j + 1] - ts[j]) / (d[j + 1] - d[j]))
+    t_x = t_i + (math.log(d_i / rise) / k if k != 0 else 0.0)
+    return t_x if t_i <= t_x <= t_f else None
 
 
 def reduce_newton(sel: Selection, start: Any = None) -> MethodOutput:
@@ -254,22 +257,48 @@ def reduce_regnault_pfaundler(sel: Selection) -> MethodOutput:
     averaged out and without the bias that extrapolating a straight line has on long, curved
     drift periods.
     """
+    c = _rp_core(sel)
+    sel, fl, al = c["sel"], c["fl"], c["al"]
+    x0, T_ref, u, Cu = c["x0"], c["T_ref"], c["u"], c["Cu"]
+
+    def rise_at(t_i: float, t_f: float) -> float:
+        return _rp_parts(x0, T_ref, _areas(sel, u, Cu, t_i, t_f))[0]
+
+    t_x = sel.t_f - c["main"] / (al.T_mean_K - fl.T_mean_K)   # (1.7), for the figure
+    return _linear_output(sel, fl, al, c["rise"], c["fit_u"], c["sigma"], c["rho"], c["dw"],
+                          c["f_ar"], c["cov"], t_x, rise_at, c["T_i"], c["T_f"], True,
+                          {"drift-curvature": c["curvature_u"]})
+
+
+def _rp_core(sel: Selection) -> dict[str, Any]:
     sel, fl, al, sigma, rho, dw, f_ar, cov, x0 = _prepare_lines(sel)
     T_ref = fl.T_mean_K
     u = sel.T - T_ref
     Cu = cumulative_trapezoid_K_s(sel.t, u)
     a0 = _areas(sel, u, Cu, sel.t_i, sel.t_f)
     rise, T_i, T_f, main = _rp_parts(x0, T_ref, a0)
-
-    def rise_at(t_i: float, t_f: float) -> float:
-        return _rp_parts(x0, T_ref, _areas(sel, u, Cu, t_i, t_f))[0]
-
     grad = numeric_gradient(lambda x: _rp_parts(x, T_ref, a0)[0], x0, _steps(fl, al, sigma))
-    t_x = sel.t_f - main / (al.T_mean_K - fl.T_mean_K)   # (1.7), for the figure
     k = -(al.slope_K_per_s - fl.slope_K_per_s) / (al.T_mean_K - fl.T_mean_K)
-    extra = {"drift-curvature": _curvature_u(sel, fl, al, k, (T_f - T_i) - rise)}
-    return _linear_output(sel, fl, al, rise, propagate(grad, cov), sigma, rho, dw, f_ar, cov,
-                          t_x, rise_at, T_i, T_f, True, extra)
+    return {"sel": sel, "fl": fl, "al": al, "sigma": sigma, "rho": rho, "dw": dw, "f_ar": f_ar,
+            "cov": cov, "x0": x0, "T_ref": T_ref, "u": u, "Cu": Cu, "rise": rise, "T_i": T_i,
+            "T_f": T_f, "main": main, "fit_u": propagate(grad, cov), "k": k,
+            "curvature_u": _curvature_u(sel, fl, al, k, (T_f - T_i) - rise)}
+
+
+def regnault_pfaundler_check(sel: Selection) -> tuple[float, float]:
+    """Regnault–Pfaundler rise and its standard uncertainty only (the newton-fit cross-check).
+    """
+    c = _rp_core(sel)
+    reading = abs(c["k"]) * c["sigma"] * math.sqrt(c["f_ar"] * c["sel"].main_weights_sq_s2())
+    return c["rise"], math.sqrt(c["fit_u"] ** 2 + c["curvature_u"] ** 2 + reading**2)
+
+
+def newton_rise_only(sel: Selection, start: Any) -> float:
+    """The newton-fit rise for other periods, warm-started from a fit of nearly the same."""
+    t, T = sel.t, sel.T
+    fit = fit_newton(t[sel.fore], T[sel.fore], t[sel.after], T[sel.after], start=start)
+    theta = T - fit.reference_temperature_K
+    return newton_rise(fit, sel.t_i, sel.t_f, sel.integral(theta))[0]
 
 
 def _dickinson_parts(sel: Selection, x: np.ndarray, T_ref: float, a: _Areas, rule: str,

@@ -16,6 +16,7 @@ linear. This is far faster than a general optimiser and gives the covariance dir
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 import numpy as np
@@ -117,11 +118,13 @@ class NewtonFit:
     def theta(self, t_s, which: str) -> tuple[np.ndarray, np.ndarray]:
         """``θ`` of the fore (``'fore'``) or after (``'after'``) curve at ``t_s`` and its
         gradient with respect to :attr:`params` (shape ``(4,) + shape(t_s)``)."""
-        t = np.asarray(t_s, dtype=float)
         after = which == "after"
         c = self.after_t0_s if after else self.fore_t0_s
         th0 = float(self.params[1] if after else self.params[0])
         g, k = self.drift_ref_K_per_s, self.k_per_s
+        if isinstance(t_s, float | int):
+            return self._theta_scalar(float(t_s) - c, th0, g, k, after)
+        t = np.asarray(t_s, dtype=float)
         tau = t - c
         e, phi, dphi = _relax(np.atleast_1d(tau), k)
         e, phi, dphi = e.reshape(tau.shape), phi.reshape(tau.shape), dphi.reshape(tau.shape)
@@ -130,6 +133,21 @@ class NewtonFit:
         grad = np.stack([zero if after else e, e if after else zero, phi,
                          -th0 * tau * e + g * dphi])
         return value, grad
+
+    @staticmethod
+    def _theta_scalar(tau: float, th0: float, g: float, k: float,
+                      after: bool) -> tuple[float, np.ndarray]:
+        x = k * tau
+        e = math.exp(-x)
+        if abs(x) < _SERIES_LIMIT:
+            phi = tau * (1.0 - x * (0.5 - x * (1.0 / 6.0 - x / 24.0)))
+            dphi = tau * tau * (-0.5 + x * (1.0 / 3.0 - x * (0.125 - x / 30.0)))
+        else:
+            phi = -math.expm1(-x) / k
+            dphi = (tau * e - phi) / k
+        grad = np.array([0.0 if after else e, e if after else 0.0, phi,
+                         -th0 * tau * e + g * dphi])
+        return th0 * e + g * phi, grad
 
     def temperature_K(self, t_s, which: str) -> np.ndarray:
         """Temperature of the fitted fore or after curve at ``t_s``, K."""
