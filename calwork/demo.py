@@ -210,7 +210,38 @@ def build_sample_runs(out_dir: str | Path, *, seed: int = 20260302) -> Path:
     sheet = out / "runs.csv"
     write_run_sheet(rows, sheet)
     write_network_file(out / "network.csv", seed=seed + 2)
+    _write_kcl_cycle(sheet, out / "kcl_cycle.toml")
     return sheet
+
+
+def _write_kcl_cycle(sheet: Path, path: Path) -> Path:
+    """A cycle file: ΔfH°(KCl, cr) from the simulated series' ΔsolH∞ and the ion key values."""
+    from calwork.io import read_run_sheet
+    from calwork.reduce import reduce_runs
+
+    rows = [r for r in read_run_sheet(sheet) if r.kind in ("electrical", "solution", "blank")]
+    (kcl,) = [s for s in reduce_runs(rows).samples if s.infinite_dilution_enthalpy_kJ_per_mol]
+    text = f"""\
+# A thermochemical cycle for `calwork cycle` (calwork's own cycle-file format).
+# The dissolution enthalpy below was obtained by reducing the SIMULATED solution-calorimetry
+# runs of sample_runs/runs.csv (series {kcl.sample!r}); it is not a measurement.
+
+[cycle]
+name = "KCl(cr) from its enthalpy of solution at infinite dilution"
+target = "KCl(cr)"
+key_values = true
+omit_key_values = ["KCl(cr)"]   # the unknown: do not use the bundled value
+
+[[dissolution]]
+id = "KCl-dissolution"
+solute = "KCl(cr)"
+infinite_dilution = true
+delta_sol_H_kJ_per_mol = {kcl.infinite_dilution_enthalpy_kJ_per_mol:.4f}
+u_delta_sol_H_kJ_per_mol = {kcl.u_infinite_dilution_enthalpy_kJ_per_mol:.4f}
+source = "simulated series reduced by calwork ({kcl.n_runs} runs, extrapolated to m = 0)"
+"""
+    path.write_text(text, encoding="utf-8")
+    return path
 
 
 if __name__ == "__main__":  # pragma: no cover - maintenance entry point

@@ -16,11 +16,15 @@ is NIST SRM 39j (REFERENCES.md §2).
 
 from __future__ import annotations
 
+import re
 from dataclasses import replace
 from functools import lru_cache
+from pathlib import Path
 from typing import Any
 
 import numpy as np
+import openpyxl
+import pytest
 
 from calwork.bomb.chain import reduce_calibration_run, reduce_combustion_run, run_error
 from calwork.bomb.series import calibration_series, formation_enthalpies, sample_series
@@ -33,6 +37,7 @@ from calwork.simulate import CalorimeterParams, CombustionPulse, simulate_run
 
 CERTIFIED_J_PER_G = 26434.0  # NIST SRM 39j, mass in vacuum (REFERENCES.md §2, confirmed)
 SAMPLE_J_PER_G = 40_230.0  # invented massic energy of the simulated sample, J/g
+REL = 1e-9  # acceptance tolerance of the formula check (engine vs calwork, relative)
 
 
 def _log(sim, rid: str):
@@ -139,3 +144,56 @@ def demo_reduction(*, sample: str = "naphthalene", formula: str = "C10H8",
 def cached_reduction(**kwargs: Any) -> Reduction:
     """:func:`demo_reduction`, built once per set of arguments (records are immutable)."""
     return demo_reduction(**kwargs)
+
+
+# --- workbook checks shared by the test modules ----------------------------------------------
+def _engine_values(path: Path) -> dict[tuple[str, str], float]:
+    formulas = pytest.importorskip("formulas")
+    model = formulas.ExcelModel().loads(str(path)).finish()
+    solution = model.calculate()
+    out = {}
+    pattern = re.compile(r"^'\[[^\]]+\](.+)'!([A-Z]+[0-9]+)$")
+    for key, value in solution.items():
+        m = pattern.match(key)
+        if m is None:
+            continue
+        v = np.asarray(getattr(value, "value", value))
+        if v.shape == (1, 1):
+            out[(m.group(1), m.group(2))] = v[0, 0]
+    return out
+
+
+def formula_cells(path: Path) -> list[tuple[str, str, str, float | None]]:
+    """(sheet, cell, formula, cached value) of every formula cell."""
+    wf = openpyxl.load_workbook(path)
+    wv = openpyxl.load_workbook(path, data_only=True)
+    return [(ws.title, c.coordinate, c.value, wv[ws.title][c.coordinate].value)
+            for ws in wf.worksheets for row in ws.iter_rows() for c in row
+            if c.data_type == "f"]
+
+
+def check_with_engine(path: Path) -> tuple[int, float]:
+    """Every formula cell equals its cached (calwork) value per the independent engine."""
+    engine = _engine_values(path)
+    cells = formula_cells(path)
+    worst = 0.0
+    for sheet, coord, formula, cached in cells:
+        assert cached is not None, f"{sheet}!{coord} {formula} has no calwork value"
+        value = float(engine[(sheet.upper(), coord)])
+        rel = abs(value - cached) / max(abs(cached), 1e-300)
+        assert rel <= REL, f"{sheet}!{coord} {formula}: engine {value!r} vs calwork {cached!r}"
+        worst = max(worst, rel)
+    return len(cells), worst
+
+
+def table(ws, header_row: int = 1) -> tuple[dict[str, int], list[tuple]]:
+    headers = [c.value for c in ws[header_row]]
+    cols = {h: i for i, h in enumerate(headers) if h}
+    rows = []
+    for r in ws.iter_rows(min_row=header_row + 1, values_only=True):
+        if not r[0]:
+            break  # the table ends at the first blank row (notes follow)
+        rows.append(r)
+    return cols, rows
+
+

@@ -21,12 +21,10 @@ import openpyxl
 import pytest
 
 sys.path.insert(0, str(Path(__file__).parent))
-from report_fixtures import demo_reduction
+from report_fixtures import REL, check_with_engine, demo_reduction, table
 
 from calwork.errors import ExportError
 from calwork.report import write_workbook
-
-REL = 1e-9  # the acceptance tolerance of the formula check (task contract)
 
 
 @pytest.fixture(scope="module")
@@ -39,56 +37,6 @@ def book(reduction, tmp_path_factory):
     path = tmp_path_factory.mktemp("wb") / "demo.xlsx"
     write_workbook(reduction, path)
     return path
-
-
-def _engine_values(path: Path) -> dict[tuple[str, str], float]:
-    formulas = pytest.importorskip("formulas")
-    model = formulas.ExcelModel().loads(str(path)).finish()
-    solution = model.calculate()
-    out = {}
-    pattern = re.compile(r"^'\[[^\]]+\](.+)'!([A-Z]+[0-9]+)$")
-    for key, value in solution.items():
-        m = pattern.match(key)
-        if m is None:
-            continue
-        v = np.asarray(getattr(value, "value", value))
-        if v.shape == (1, 1):
-            out[(m.group(1), m.group(2))] = v[0, 0]
-    return out
-
-
-def formula_cells(path: Path) -> list[tuple[str, str, str, float | None]]:
-    """(sheet, cell, formula, cached value) of every formula cell."""
-    wf = openpyxl.load_workbook(path)
-    wv = openpyxl.load_workbook(path, data_only=True)
-    return [(ws.title, c.coordinate, c.value, wv[ws.title][c.coordinate].value)
-            for ws in wf.worksheets for row in ws.iter_rows() for c in row
-            if c.data_type == "f"]
-
-
-def check_with_engine(path: Path) -> tuple[int, float]:
-    """Every formula cell equals its cached (calwork) value per the independent engine."""
-    engine = _engine_values(path)
-    cells = formula_cells(path)
-    worst = 0.0
-    for sheet, coord, formula, cached in cells:
-        assert cached is not None, f"{sheet}!{coord} {formula} has no calwork value"
-        value = float(engine[(sheet.upper(), coord)])
-        rel = abs(value - cached) / max(abs(cached), 1e-300)
-        assert rel <= REL, f"{sheet}!{coord} {formula}: engine {value!r} vs calwork {cached!r}"
-        worst = max(worst, rel)
-    return len(cells), worst
-
-
-def table(ws, header_row: int = 1) -> tuple[dict[str, int], list[tuple]]:
-    headers = [c.value for c in ws[header_row]]
-    cols = {h: i for i, h in enumerate(headers) if h}
-    rows = []
-    for r in ws.iter_rows(min_row=header_row + 1, values_only=True):
-        if not r[0]:
-            break  # the table ends at the first blank row (notes follow)
-        rows.append(r)
-    return cols, rows
 
 
 def col_with(cols: dict[str, int], start: str) -> int:

@@ -54,7 +54,7 @@ def newton_drift_K_per_s(temperature_K, rate_constant_per_s, convergence_tempera
 
     Examples
     --------
-    >>> newton_drift_K_per_s(298.0, 1e-4, 298.5)
+    >>> float(newton_drift_K_per_s(298.0, 1e-4, 298.5))
     5e-05
     """
     return rate_constant_per_s * (np.subtract(convergence_temperature_K, temperature_K))
@@ -184,7 +184,7 @@ def exchange_correction_K(time_s, temperature_K, rate_constant_per_s: float,
     t = np.asarray(time_s, dtype=float)
     T = np.asarray(temperature_K, dtype=float)
     k = rate_constant_per_s
-    return k * (convergence_temperature_K * (t[-1] - t[0]) - trapezoid_K_s(t, T))
+    return float(k * (convergence_temperature_K * (t[-1] - t[0]) - trapezoid_K_s(t, T)))
 
 
 def corrected_rise_K(T_initial_K: float, T_final_K: float, exchange_correction_K: float) -> float:

@@ -281,41 +281,47 @@ def _newtonian_start(H: np.ndarray, t: np.ndarray, lo: int, ref: int, end: int,
     tt = t[lo:end + 1] - t[lo]
     hh = H[lo:end + 1] - H[ref]
     m = tt.size
-    s = np.arange(ref - lo + 1)
-
-    def tail(v: np.ndarray) -> np.ndarray:
-        return np.cumsum(v[::-1])[::-1][s]
-
+    # candidates: every reading, or every few readings for long records (granularity ≤ 0.25 %
+    # of the candidate range; a later t_f is always safe)
+    stride = max(1, (ref - lo) // 400)
+    s = np.arange(0, ref - lo + 1, stride)
+    if s[-1] != ref - lo:
+        s = np.append(s, ref - lo)
+    X = np.stack([tt, tt * tt, hh, tt * hh])
+    St, Stt, Sh, Sth = np.cumsum(X[:, ::-1], axis=1)[:, ::-1][:, s]
     cnt = (m - s).astype(float)
-    St, Stt, Sh, Sth = tail(tt), tail(tt * tt), tail(hh), tail(tt * hh)
     tbar = St / cnt
     hbar = Sh / cnt
     sxx = np.maximum(Stt - St * tbar, 1e-300)
     slope = (Sth - St * hbar) / sxx
-    Ft = np.concatenate(([0.0], np.cumsum(tt)))
-    Fh = np.concatenate(([0.0], np.cumsum(hh)))
+    F = np.zeros((2, m + 1))
+    np.cumsum(X[[0, 2]], axis=1, out=F[:, 1:])
+    Ft, Fh = F
     bad = np.zeros(s.size, dtype=bool)
     strict = np.zeros(s.size, dtype=bool)
     for b in (4, 8, 16, 32, 64):
-        ok = cnt >= 4 * b
-        if not ok.any():
+        n_ok = int(np.count_nonzero(cnt >= 4 * b))   # a prefix: cnt decreases along s
+        if n_ok == 0:
             break
-        sb = s[ok]
+        sb = s[:n_ok]
         bt = (Ft[sb + b] - Ft[sb]) / b
         bh = (Fh[sb + b] - Fh[sb]) / b
-        resid = bh - (hbar[ok] + slope[ok] * (bt - tbar[ok]))
-        var = sigma2 * np.maximum(1.0 / b - 4.0 / cnt[ok], 0.5 / b)
+        resid = bh - (hbar[:n_ok] + slope[:n_ok] * (bt - tbar[:n_ok]))
+        var = sigma2 * np.maximum(1.0 / b - 4.0 / cnt[:n_ok], 0.5 / b)
         zs = resid / np.sqrt(var)
         dev = np.abs(zs)
-        bad[ok] |= (dev > z) | (-sign * zs > z_one if sign else False)
-        strict[ok] |= dev > 2.0
+        bad[:n_ok] |= dev > z
+        if sign:
+            bad[:n_ok] |= -sign * zs > z_one
+        strict[:n_ok] |= dev > 2.0
     bad_idx = np.flatnonzero(bad)
     first = int(bad_idx[-1]) + 1 if bad_idx.size else 0
     first = min(first, s.size - 1)
     alt = first + (s.size - first) // 2
-    ends = hbar[[first, alt]] + slope[[first, alt]] * (tt[[first, alt]] - tbar[[first, alt]])
-    return (lo + first, 0.5 * abs(float(ends[0] - ends[1])), float(np.mean(~strict[first:])),
-            not bool(bad[-1]))
+    idx = [first, alt]
+    ends = hbar[idx] + slope[idx] * (tt[s[idx]] - tbar[idx])
+    return (lo + int(s[first]), 0.5 * abs(float(ends[0] - ends[1])),
+            float(np.mean(~strict[first:])), not bool(bad[-1]))
 
 
 def _provisional(t: np.ndarray, T: np.ndarray, f0: int, f1: int, a0: int,
