@@ -3,8 +3,8 @@
 from __future__ import annotations
 
 import hashlib
-from functools import cache
 from dataclasses import dataclass, field
+from functools import cache
 from pathlib import Path
 from typing import Any
 

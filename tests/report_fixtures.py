@@ -135,7 +135,7 @@ def demo_reduction(*, sample: str = "naphthalene", formula: str = "C10H8",
     return Reduction(
         calibrations=(cal,), runs=tuple(results[i.run] for i in infos), samples=samples,
         covariance=covariance, method=method, sheet_path="runs.csv", provenance=prov,
-        warnings=("fixture: simulated runs, rises from the simulator's truth",),
+        warnings=("fixture: simulated runs reduced in memory",),
         run_infos=tuple(infos), thermograms=thermograms,
     )
 

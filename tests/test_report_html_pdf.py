@@ -65,13 +65,30 @@ def test_html_escapes_text_from_sheets_and_logs(tmp_path):
                          runs_per_sample=2, duration_s=1800.0)
     th = {k: replace(v, metadata={**v.metadata, "operator": "<img src=x onerror=alert(1)>"})
           for k, v in red.thermograms.items()}
-    red = replace(red, thermograms=th)
+    no_rise = replace(red.runs[-1], rise=None)  # a run whose rise failed: readings only
+    red = replace(red, thermograms=th, runs=(*red.runs[:-1], no_rise))
     text = write_report(red, tmp_path / "r.html").read_text(encoding="utf-8")
     assert "<script" not in text
     assert "&lt;script&gt;alert(&quot;x&quot;)&lt;/script&gt;" in text
     assert 'src="http' not in text
     assert 'href="http' not in text
     assert all(s.startswith("data:") for s in re.findall(r'src="([^"]*)"', text))
+    assert f'alt="Readings of run {no_rise.run} (simulated data)"' in text
+
+
+def test_plot_styles_do_not_rely_on_colour():
+    from calwork.report.plots import CYCLE, LINESTYLES, OKABE_ITO, plot_style
+
+    # Okabe & Ito (2008), "Color Universal Design": the eight colours of the palette
+    assert set(OKABE_ITO.values()) == {"000000", "E69F00", "56B4E9", "009E73", "F0E442",
+                                       "0072B2", "D55E00", "CC79A7"}
+    assert len(set(CYCLE)) == len(CYCLE)
+    assert len({str(s) for s in LINESTYLES}) == len(LINESTYLES)
+    import matplotlib as mpl
+
+    with plot_style():
+        styles = [(d["color"], str(d["linestyle"])) for d in mpl.rcParams["axes.prop_cycle"]]
+    assert len({ls for _, ls in styles}) == len(styles)  # every series its own line style
 
 
 def _pdf_pages(data: bytes) -> int:

@@ -21,7 +21,7 @@ import openpyxl
 import pytest
 
 sys.path.insert(0, str(Path(__file__).parent))
-from report_fixtures import REL, check_with_engine, demo_reduction, table
+from report_fixtures import REL, cached_reduction, check_with_engine, demo_reduction, table
 
 from calwork.errors import ExportError
 from calwork.report import write_workbook
@@ -29,7 +29,7 @@ from calwork.report import write_workbook
 
 @pytest.fixture(scope="module")
 def reduction():
-    return demo_reduction(failed_run=True)
+    return cached_reduction(failed_run=True)
 
 
 @pytest.fixture(scope="module")

@@ -153,3 +153,39 @@ def test_validate_methods_small_run():
     assert res.newtonian_rise_K == pytest.approx(res.adiabatic_rise_K)  # one body
     assert "bias ppm" in res.report()
     json.dumps(jsonable(res.to_dict()), allow_nan=False)
+
+
+def test_mangled_records_raise_only_calwork_errors():
+    # Property check (seeded random records of every shape: flat, steps, ramps, spikes,
+    # heavy quantisation, few readings, uneven sampling): corrected_rise either returns a
+    # result with a positive finite uncertainty or raises a CalworkError — never another
+    # exception, and no numpy warning (pytest turns warnings into errors).
+    from calwork.errors import CalworkError
+    from calwork.thermogram import Thermogram
+
+    rng = np.random.default_rng(99)
+    ok = 0
+    for _ in range(120):
+        n = int(rng.integers(20, 600))
+        t = np.cumsum(rng.uniform(0.5, 1.5, n) if rng.random() < 0.3 else np.full(n, 5.0))
+        T = 298.0 + rng.normal(0, 10 ** rng.uniform(-7, -2), n)
+        if rng.random() < 0.7:
+            at = rng.uniform(t[0], t[-1])
+            T += rng.normal(0, 2) * (1 - np.exp(-np.clip(t - at, 0, None) / rng.uniform(1, 200)))
+        if rng.random() < 0.5:
+            T += rng.normal(0, 1e-4) * (t - t[0])
+        if rng.random() < 0.3:
+            T[rng.integers(0, n, 3)] += rng.normal(0, 0.05, 3)
+        if rng.random() < 0.2:
+            T = np.round(T / 1e-3) * 1e-3
+        method = ["newton-fit", "regnault-pfaundler", "dickinson"][int(rng.integers(0, 3))]
+        try:
+            res = corrected_rise(Thermogram(time_s=t, temperature_K=T), method)
+        except CalworkError:
+            continue
+        assert math.isfinite(res.corrected_rise_K)
+        assert res.u_corrected_rise_K > 0
+        assert math.isfinite(res.u_corrected_rise_K)
+        json.dumps(jsonable(res.to_dict()), allow_nan=False)
+        ok += 1
+    assert ok > 20   # most records with a clear step are reduced

@@ -233,3 +233,34 @@ def test_fit_errors_and_uncertainty_guards():
     with pytest.raises(UncertaintyError, match="'fit'"):
         combine({"fit": float("nan")})
     assert combine({"a": 3e-6, "b": 4e-6}) == pytest.approx(5e-6)
+
+
+def test_joint_fit_agrees_with_lmfit():
+    # Independent check with a general-purpose fitting library (lmfit, Levenberg–Marquardt on
+    # the textbook form T = T_inf + (T_0 − T_inf) e^{−k (t − t_0)} of METHODS.md (1.9), one
+    # T_0 per period, shared k and T_inf).
+    import lmfit
+
+    rec = newtonian_record(k_per_s=2e-4, T_inf_K=298.6, tau2_s=8.0, noise_K=1e-4, seed=17)
+    t, T = rec.time_s, rec.temperature_K
+    fm, am = t <= 590, t >= 1300
+    ours = fit_newton(t[fm], T[fm], t[am], T[am])
+
+    def resid(params):
+        v = params.valuesdict()
+        fore = v["T_inf"] + (v["T0_f"] - v["T_inf"]) * np.exp(-v["k"] * 1e-4 * (t[fm] - 300.0))
+        after = v["T_inf"] + (v["T0_a"] - v["T_inf"]) * np.exp(-v["k"] * 1e-4 * (t[am] - 1800.0))
+        return np.concatenate([T[fm] - fore, T[am] - after])
+
+    params = lmfit.Parameters()
+    params.add("T_inf", value=298.0)
+    params.add("k", value=1.0)          # in units of 1e-4 1/s (keeps the problem scaled)
+    params.add("T0_f", value=297.2)
+    params.add("T0_a", value=299.0)
+    out = lmfit.minimize(resid, params)
+    assert out.success
+    assert ours.k_per_s == pytest.approx(out.params["k"].value * 1e-4, rel=1e-6)
+    assert ours.T_inf_K == pytest.approx(out.params["T_inf"].value, abs=1e-6)
+    assert np.sqrt(ours.covariance[3, 3]) == pytest.approx(out.params["k"].stderr * 1e-4,
+                                                           rel=1e-3)
+    assert ours.u_T_inf_K == pytest.approx(out.params["T_inf"].stderr, rel=1e-3)

@@ -4,11 +4,9 @@ from __future__ import annotations
 
 import argparse
 
+from calwork.cli._choices import WORST_OFFENDER_MODES
 from calwork.cli._common import print_json
 from calwork.errors import NetworkError
-from calwork.hess.files import read_network_file
-from calwork.hess.network import WORST_OFFENDER_MODES, solve_network
-from calwork.hess.reactions import Reaction
 
 __all__ = ["register"]
 
@@ -52,6 +50,10 @@ def register(subparsers: argparse._SubParsersAction) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
+    from calwork.hess.files import read_network_file
+    from calwork.hess.network import solve_network
+    from calwork.hess.reactions import Reaction
+
     if args.monte_carlo is not None and args.monte_carlo < 100:
         raise NetworkError("--monte-carlo needs at least 100 draws", found=args.monte_carlo)
     network = read_network_file(args.file)

@@ -14,6 +14,7 @@ import sys
 from pathlib import Path
 from typing import Any
 
+from calwork.cli._choices import RISE_METHODS
 from calwork.cli._common import format_table, print_json
 from calwork.errors import CalworkError, ExportError
 from calwork.results import Reduction
@@ -28,12 +29,7 @@ _SAFETY = ("Safety: oxygen bombs are pressure vessels — charge, fire and vent 
 
 def register(subparsers: argparse._SubParsersAction) -> None:
     """Add the ``reduce`` subcommand."""
-    try:
-        from calwork.rise import METHODS
-
-        methods = sorted(METHODS)
-    except ImportError:  # the rise package not built in this checkout
-        methods = ["newton-fit"]
+    methods = sorted(RISE_METHODS)
     p = subparsers.add_parser(
         "reduce", help="reduce a run sheet: calibrations, samples, formation enthalpies",
         description="Reduce every run of a run sheet (CSV, XLSX or TOML): corrected "

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import argparse
 
+from calwork.cli._choices import DICKINSON_RULES, RISE_METHODS
 from calwork.cli._common import format_table, print_json
 from calwork.errors import ChoiceError
 
@@ -29,14 +30,13 @@ prescribe. This command only reads files.
 def register(subparsers: argparse._SubParsersAction) -> None:
     """Add the ``rise`` subcommand."""
     from calwork.io.sensors import SENSORS
-    from calwork.rise import DICKINSON_RULES, METHODS
 
     p = subparsers.add_parser(
         "rise", help="corrected temperature rise of one temperature log",
         description=_DESCRIPTION, formatter_class=argparse.RawDescriptionHelpFormatter,
     )
     p.add_argument("log", metavar="LOG", help="temperature log (.csv/.txt/... or .xlsx)")
-    p.add_argument("--method", default="newton-fit", choices=tuple(METHODS),
+    p.add_argument("--method", default="newton-fit", choices=RISE_METHODS,
                    help="temperature-rise method (default newton-fit)")
     p.add_argument("--dickinson-rule", default="equal-area", choices=DICKINSON_RULES,
                    help="t_x rule of the dickinson method (default equal-area)")

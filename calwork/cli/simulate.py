@@ -4,8 +4,8 @@ from __future__ import annotations
 
 import argparse
 
+from calwork.cli._choices import SCENARIOS
 from calwork.cli._common import format_table, print_json
-from calwork.simulate import SCENARIOS, CalorimeterParams, build_scenario
 
 __all__ = ["register", "run"]
 
@@ -53,6 +53,8 @@ def register(subparsers: argparse._SubParsersAction) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
+    from calwork.simulate import CalorimeterParams, build_scenario
+
     """Write the scenario and print what was written."""
     params = CalorimeterParams.from_toml(args.calorimeter) if args.calorimeter else None
     written = build_scenario(args.scenario, args.out, params=params, runs=args.runs,

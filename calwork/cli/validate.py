@@ -14,9 +14,11 @@ data), reduce every one with each temperature-rise method (automatic period dete
 print the bias and spread (ppm) against the known truth, the largest error, the mean stated
 standard uncertainty and its coverage (fraction of runs with |error| <= 2u).
 
---calorimeter reads the calorimeter's parameters from a TOML file (the fields of
-calwork.simulate.CalorimeterParams, optionally 'preset = "bomb"' or "solution" to start from a
-bundled set); without it the bundled macro bomb calorimeter is used.
+--calorimeter reads the calorimeter's parameters from a TOML file: a [calorimeter] table with
+the fields of calwork.simulate.CalorimeterParams (optionally preset = "bomb" or "solution" to
+start from a bundled set and override some fields); without it the bundled macro bomb
+calorimeter is used. Bomb-sized calorimeters (>= 2 kJ/K) get a combustion of about 2.5 K,
+smaller ones a 300 s heater interval of about 50 mK.
 """
 
 

@@ -82,7 +82,6 @@ class Grid:
         self.cells: dict[tuple[int, int], _Entry] = {}
         self.freeze: str | None = None
         self.min_widths: dict[int, float] = {}
-        self.charts: list[tuple[Any, str]] = []
 
     # --- planning ------------------------------------------------------------------------------
     def put(self, row: int, col: int, content: Any, fmt: str | None = None,
@@ -109,12 +108,6 @@ class Grid:
         """A header row (bold, shaded, wrapped)."""
         for i, label in enumerate(labels):
             self.put(row, col + i, Text(label), kind="header")
-
-    def ref(self, row: int, col: int) -> Ref:
-        """A reference to a numeric cell already placed."""
-        entry = self.cells[(row, col)]
-        value = entry.content.value if isinstance(entry.content, Expr) else entry.content
-        return Ref(self.title, row, col, float(value))
 
     # --- writing -------------------------------------------------------------------------------
     def _widths(self) -> dict[int, float]:
@@ -151,8 +144,6 @@ class Grid:
                     out.append(None)
                 out.append(self._cell(ws, r, c, entry, styles, values))
             ws.append(out)
-        for chart, anchor in self.charts:
-            ws.add_chart(chart, anchor)
 
     def _cell(self, ws: Any, r: int, c: int, entry: _Entry, styles: _Styles,
               values: dict[str, float]) -> WriteOnlyCell | None:

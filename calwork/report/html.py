@@ -47,9 +47,10 @@ nav ol { columns: 2; font-size: 0.9rem; }
 
 
 def _is_number(text: str) -> bool:
-    t = text.replace("±", "").replace(" ", "").replace("−", "-")
+    """True for a number cell ("12.3", "−4.5 ± 0.2", "1.0 / 2.0"): aligned right."""
+    t = text.split("±")[0].split("/")[0].strip().replace("−", "-")
     try:
-        float(t.split("/")[0])
+        float(t)
     except ValueError:
         return False
     return True

@@ -2,22 +2,22 @@
 
 Colours are the Okabe–Ito palette (Okabe & Ito, "Color Universal Design", 2002/2008; the
 palette recommended for colour-vision deficiencies); every series also differs by line style,
-marker or hatching, so that nothing depends on colour alone.
+marker or hatching, so that nothing depends on colour alone. The thermogram figures are
+:func:`calwork.rise.plot_rise`'s and the control charts :func:`calwork.qa.plot_control_chart`'s
+(same conventions); these styles serve the report's own figures and the workbook's charts.
 """
 
 from __future__ import annotations
 
-import math
-from collections.abc import Sequence
 from contextlib import contextmanager
 from typing import Any
 
 __all__ = [
+    "CYCLE",
     "HATCHES",
     "LINESTYLES",
     "MARKERS",
     "OKABE_ITO",
-    "control_chart",
     "plot_style",
     "simulated_stamp",
 ]
@@ -68,50 +68,3 @@ def simulated_stamp(fig: Any) -> None:
     """Mark a figure as made from simulated data (large grey diagonal text)."""
     fig.text(0.5, 0.5, "SIMULATED DATA", fontsize=34, color="#999999", alpha=0.35,
              ha="center", va="center", rotation=25, zorder=0)
-
-
-def control_chart(values: Sequence[float], labels: Sequence[str], ax: Any, *,
-                  unit: str = "J/K", title: str | None = None) -> dict[str, float]:
-    """Individuals control chart of calibration values with mean, ±2s and ±3s lines.
-
-    Warning limits at ±2 s and action limits at ±3 s of the single-run standard deviation s
-    (Shewhart individuals chart; METHODS.md §6.2). Points beyond the warning limits get a
-    different marker. Returns the mean, s and the limits drawn.
-
-    Parameters
-    ----------
-    values
-        The values in run order (e.g. ε of each calibration run, J/K).
-    labels
-        A label per value (run ids).
-    ax
-        matplotlib axes to draw on.
-    unit
-        Unit of the values, for the axis label.
-    """
-    n = len(values)
-    mean = math.fsum(values) / n
-    s = math.sqrt(math.fsum((v - mean) ** 2 for v in values) / (n - 1)) if n > 1 else math.nan
-    x = list(range(1, n + 1))
-    ax.plot(x, values, color=CYCLE[0], linestyle="-", marker="o", label="runs", zorder=3)
-    out = {"mean": mean, "s": s}
-    ax.axhline(mean, color="#000000", linestyle="-", linewidth=1.0, label="mean")
-    if math.isfinite(s) and s > 0:
-        for k, style, name in ((2, "--", "±2s (warning)"), (3, ":", "±3s (action)")):
-            lo, hi = mean - k * s, mean + k * s
-            ax.axhline(hi, color=CYCLE[1] if k == 2 else CYCLE[2], linestyle=style,
-                       linewidth=1.0, label=name)
-            ax.axhline(lo, color=CYCLE[1] if k == 2 else CYCLE[2], linestyle=style,
-                       linewidth=1.0)
-            out[f"lower_{k}s"], out[f"upper_{k}s"] = lo, hi
-        outside = [(xi, v) for xi, v in zip(x, values, strict=True) if abs(v - mean) > 2 * s]
-        if outside:
-            ax.plot(*zip(*outside, strict=True), linestyle="none", marker="X", markersize=9,
-                    color=CYCLE[1], label="beyond ±2s", zorder=4)
-    ax.set_xticks(x)
-    ax.set_xticklabels(labels, rotation=45 if n > 8 else 0, ha="right" if n > 8 else "center")
-    ax.set_xlabel("calibration run")
-    ax.set_ylabel(f"energy equivalent ε ({unit})")
-    ax.set_title(title or "Calibration control chart")
-    ax.legend(loc="best")
-    return out

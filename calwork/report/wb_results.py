@@ -69,8 +69,8 @@ def _series_stats(plan: Plan, table: Table, row: int, refs: list[Ref], reported:
     """n, mean, s, s/√n and RSD of ``refs`` as formulas, each checked against calwork."""
     out: dict[str, Ref | None] = {}
     if not refs:
-        for key, name in keys.items():
-            out[key] = table.put(row, key, reported.get(name))
+        for stat, col in keys.items():
+            out[stat] = table.put(row, col, reported.get(stat))
         return out
     n = table.put(row, "n", plan.checked(count(refs), reported.get("n"), f"n of {label}"))
     mean = table.put(row, keys["mean"], plan.checked(average(refs), reported.get("mean"),
@@ -320,13 +320,13 @@ def _key_values(samples: list[Any]) -> dict[str, dict[str, Any]]:
 
 _FORM_COLS = [
     ("sample", "sample", None), ("formula", "formula", None),
-    ("a", "C atoms a", "0.###"), ("b", "H atoms b", "0.###"), ("c", "O atoms c", "0.###"),
-    ("d", "N atoms d", "0.###"),
+    ("a", "C atoms a", None), ("b", "H atoms b", None), ("c", "O atoms c", None),
+    ("d", "N atoms d", None),
     ("M", "molar mass M = Σ n·A_r (g/mol)", "0.0000"),
     ("du0", "mean Δu° (J/g)", "0.00"), ("u_du0", "u(Δu°) (J/g)", "0.00"),
     ("dcU", "ΔcU° = M·Δu°/1000 (kJ/mol)", "0.000"),
     ("u_dcU", "u(ΔcU°) = M·u(Δu°)/1000 (kJ/mol)", "0.000"),
-    ("dn", "Δn_gas = c/2 + d/2 − b/4 (mol/mol)", "0.###"),
+    ("dn", "Δn_gas = c/2 + d/2 − b/4 (mol/mol)", "0.00"),
     ("dcH", "ΔcH° = ΔcU° + Δn_gas·R·T/1000 (kJ/mol)", "0.000"),
     ("u_dcH", "u(ΔcH°) = u(ΔcU°) (kJ/mol)", "0.000"),
     ("dfH", "ΔfH° = a·ΔfH°(CO2) + b/2·ΔfH°(H2O) − ΔcH° (kJ/mol)", "0.000"),
@@ -343,6 +343,8 @@ def plan_formation(plan: Plan) -> None:
 
     red = plan.reduction
     samples = [s for s in red.samples if s.kind == "combustion"]
+    if not samples:
+        return
     grid = plan.grid(FORMATION)
     table = Table(grid, 1, _FORM_COLS)
     base = len(samples) + 4

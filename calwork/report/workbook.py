@@ -24,7 +24,7 @@ from pathlib import Path
 from typing import Any
 
 from calwork.errors import ExportError
-from calwork.provenance import calwork_version
+from calwork.provenance import calwork_version, sha256_file
 from calwork.report.grid import new_workbook, save_workbook
 from calwork.report.output import atomic_target
 from calwork.report.plan import Plan, Table
@@ -56,17 +56,21 @@ def _plan_provenance(plan: Plan, log_titles: dict[str, str]) -> None:
     grid = plan.grid(PROVENANCE)
     prov = red.provenance
     grid.put(1, 1, "Provenance of this workbook", kind="title")
+    sheet_sha = prov.sha256 if prov else None
+    if sheet_sha is None and red.sheet_path and Path(red.sheet_path).is_file():
+        sheet_sha = f"{sha256_file(red.sheet_path)} (of the file on disk at export)"
     rows: list[tuple[str, Any]] = [
         ("written by", f"calwork {calwork_version()}"),
         ("written at (UTC)", datetime.now(UTC).replace(microsecond=0).isoformat()),
         ("run sheet", red.sheet_path),
-        ("run sheet SHA-256", prov.sha256 if prov else None),
+        ("run sheet SHA-256", sheet_sha),
         ("importer", prov.importer if prov else None),
         ("corrected-rise method", red.method),
         ("calwork version of the reduction", prov.calwork_version if prov else None),
     ]
     if prov is not None:
-        rows.extend((f"constant: {k}", v if isinstance(v, (int, float)) else str(v))
+        rows.extend((f"data file: {k}" if str(k).endswith(".toml") else f"constant: {k}",
+                     v if isinstance(v, (int, float)) else str(v))
                     for k, v in prov.constants.items())
     r = 2
     for key, value in rows:

@@ -208,6 +208,13 @@ def corrected_rise(thermogram: Thermogram, method: str = "newton-fit",
     except CalworkError as exc:
         raise exc.with_context(path=thermogram.provenance.source_path) from None
     warns, cross = _diagnostics(thermogram, sel, out, u, method)
+    conf = periods.fire_confidence
+    if (method == "dickinson" and dickinson_rule == "60-percent"
+            and periods.fire_source == "detected" and conf is not None and conf < 0.5):
+        warns.append(warning("boundary-uncertain", f"gradual onset (score {conf:.2f}): the "
+                             "heat release may start a reading or two before t_i = "
+                             f"{periods.fire_time_s:.6g} s, which moves the 60 % time; give "
+                             "the firing time"))
     all_warnings = [*periods.warnings, *out.warnings, *warns]
     if periods.spikes_s and not any(w.startswith("spikes-removed") for w in all_warnings):
         all_warnings.append(warning("spikes-removed", f"{len(periods.spikes_s)} reading(s) "

@@ -18,7 +18,7 @@ from calwork.thermogram import Thermogram
 
 __all__ = ["plot_rise"]
 
-#: Okabe–Ito colours (Okabe & Ito 2008, "Color Universal Design").
+#: Okabe–Ito colours (Okabe & Ito 2008, "Color Universal Design"; recalled from memory).
 _BLACK, _ORANGE, _SKY, _GREEN, _BLUE, _VERMILION = (
     "#000000", "#E69F00", "#56B4E9", "#009E73", "#0072B2", "#D55E00")
 

@@ -1,0 +1,212 @@
+"""Statistical boundary tests of the period detection (METHODS.md §1.7), vectorised.
+
+* :func:`locate_event` — the steepest departure of the smoothed slope (rough main period);
+* :func:`detect_onset` — the onset rule: departure from a trailing drift line by more than
+  5σ for five readings in a row;
+* :func:`provisional_fit` — a joint Newtonian fit of surely-Newtonian parts and the invariant
+  ``H(t) = T(t) − ∫₀ᵗ g(T) dt`` (constant wherever the record is Newtonian);
+* :func:`newtonian_start` — the earliest start of a stretch where ``H`` is flat to the noise;
+* :func:`heater_interval` — switch-on and switch-off from a ``heater_V`` channel.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from calwork.errors import FitError, PeriodDetectionError
+from calwork.rise.diagnostics import ar1_inflation
+from calwork.rise.newton import NewtonFit, fit_newton
+from calwork.thermogram import Thermogram
+
+__all__ = ["Event", "detect_onset", "heater_interval", "locate_event", "newtonian_start",
+           "provisional_fit"]
+
+#: Onset threshold (× σ) and persistence (readings that must stay above it), METHODS.md §1.7.
+ONSET_SIGMA = 5.0
+ONSET_PERSISTENCE = 4
+
+
+@dataclass(frozen=True, eq=False)
+class Event:
+    """Rough location of the heat event (reading indices) and its direction."""
+
+    peak: int          # reading index of the steepest slope
+    lo: int            # first reading of the steep region
+    hi: int            # last reading of the steep region
+    sign: int
+
+
+def locate_event(t: np.ndarray, Tm: np.ndarray, sigma: float, where: dict) -> Event:
+    """The steepest departure of the slope over ~30 s of the (median-filtered) record ``Tm``
+    from the record's median slope; :class:`PeriodDetectionError` if it is within the noise
+    (12 × the slope noise ``σ√2/(w Δt)``)."""
+    n = t.size
+    dt = float(np.median(np.diff(t)))
+    w = int(min(max(2, round(30.0 / dt)), max(2, n // 10)))
+    slope = (Tm[w:] - Tm[:-w]) / (t[w:] - t[:-w])
+    dev = slope - np.median(slope)
+    j = int(np.argmax(np.abs(dev)))
+    dev_max = abs(float(dev[j]))
+    slope_noise = sigma * np.sqrt(2.0) / (w * dt)
+    if dev_max < 12.0 * slope_noise:
+        raise PeriodDetectionError(
+            "no heat event found: the largest change of drift rate is within the noise",
+            found=f"{dev_max:.3g} K/s", expected=f"more than {12.0 * slope_noise:.3g} K/s",
+            **where)
+    steep = np.flatnonzero(np.abs(dev) > 0.1 * dev_max)
+    return Event(peak=j + w // 2, lo=int(steep[0]), hi=int(min(steep[-1] + w, n - 1)),
+                  sign=1 if dev[j] > 0 else -1)
+
+
+def detect_onset(t: np.ndarray, T: np.ndarray, sigma: float, peak: int, lo: int, sign: int,
+                  where: dict) -> tuple[int, float]:
+    """Index of the first departing reading and the fire-confidence score.
+
+    The search starts a little before the steep part of the event (``2W`` readings, or three
+    times the steep part's lead to the peak, before ``lo``), so that a slow settling of the
+    calorimeter early in the fore period is not taken for the onset; if nothing departs
+    there, the whole fore record is searched.
+    """
+    m = ONSET_PERSISTENCE
+    dt = float(np.median(np.diff(t)))
+    W = int(min(max(8, round(120.0 / dt)), 60, peak - m - 1))
+    if W < 3:
+        raise PeriodDetectionError(
+            "fore period too short: the event starts within the first readings",
+            found=f"{peak} readings before the steepest rise", expected="at least 10", **where)
+    tc = t - t[peak]
+    y = T - T[0]
+    zero = np.zeros(1)
+    cs = [np.concatenate([zero, np.cumsum(v)]) for v in (tc, tc * tc, y, tc * y)]
+
+    def scan(start: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        J = np.arange(start, peak + 1)
+        a, b = J - W, J
+        st, stt, sy, sty = (c[b] - c[a] for c in cs)
+        sxx = stt - st * st / W
+        slope = (sty - st * sy / W) / sxx
+        icpt = (sy - slope * st) / W
+        idx = np.minimum(J[:, None] + np.arange(m + 1)[None, :], t.size - 1)
+        pred = icpt[:, None] + slope[:, None] * tc[idx]
+        var = 1.0 + 1.0 / W + (tc[idx] - (st / W)[:, None]) ** 2 / sxx[:, None]
+        zscore = sign * (y[idx] - pred) / (sigma * np.sqrt(var))
+        return J, zscore, np.flatnonzero(np.all(zscore > ONSET_SIGMA, axis=1))
+
+    start = max(W, lo - max(2 * W, 3 * (peak - lo)))
+    J, zscore, hits = scan(start)
+    if hits.size == 0 and start > W:
+        J, zscore, hits = scan(W)
+    if hits.size == 0:
+        raise PeriodDetectionError(
+            "no onset of a heat event found: the readings never depart from the fore-period "
+            f"drift by more than {ONSET_SIGMA:g}σ for {m + 1} readings in a row", **where)
+    h = int(hits[0])
+    confidence = float(min(1.0, zscore[h, 0] / (4.0 * ONSET_SIGMA)))
+    return int(J[h]), confidence
+
+
+def newtonian_start(H: np.ndarray, t: np.ndarray, lo: int, ref: int, end: int,
+                     sigma2: float, z: float, sign: int = 0,
+                     z_one: float = 3.0) -> tuple[int, float, float, bool]:
+    """Earliest start ``q`` in ``[lo, ref]`` of a Newtonian stretch ``[q, end]`` of ``H``.
+
+    ``H`` is constant (up to a slow linear trend from the provisional fit's errors) wherever
+    the record is Newtonian. For each candidate ``q`` a straight line is fitted to
+    ``H[q:end+1]`` and the residual means of its first 4, 8, 16, 32 and 64 readings are
+    compared with their noise (``z`` standard deviations): a transient that has not died out
+    shows there first, where a fit's end point is most sensitive to it. ``q`` is the first
+    candidate after the last failing one. With ``sign`` (+1/−1, the event's direction) a
+    one-sided departure beyond ``z_one`` also fails: ``H`` is the heat input seen so far, so
+    a transient still decaying leaves ``H`` short of its plateau on the side opposite to the
+    event (heat still to come).
+
+    Returns ``(q, spread_K, pass_fraction)``: half the difference between the lines' values at
+    their starts for ``q`` and for a start midway to ``ref`` (the boundary-choice spread of the
+    end-point temperature), and the fraction of candidates from ``q`` to ``ref`` that also pass
+    a stricter (2σ) test; and whether the last candidate ``ref`` itself passes.
+    """
+    tt = t[lo:end + 1] - t[lo]
+    hh = H[lo:end + 1] - H[ref]
+    m = tt.size
+    # candidates: every reading, or every few readings for long records (granularity ≤ 0.25 %
+    # of the candidate range; a later t_f is always safe)
+    stride = max(1, (ref - lo) // 400)
+    s = np.arange(0, ref - lo + 1, stride)
+    if s[-1] != ref - lo:
+        s = np.append(s, ref - lo)
+    X = np.stack([tt, tt * tt, hh, tt * hh])
+    St, Stt, Sh, Sth = np.cumsum(X[:, ::-1], axis=1)[:, ::-1][:, s]
+    cnt = (m - s).astype(float)
+    tbar = St / cnt
+    hbar = Sh / cnt
+    sxx = np.maximum(Stt - St * tbar, 1e-300)
+    slope = (Sth - St * hbar) / sxx
+    F = np.zeros((2, m + 1))
+    np.cumsum(X[[0, 2]], axis=1, out=F[:, 1:])
+    Ft, Fh = F
+    bad = np.zeros(s.size, dtype=bool)
+    strict = np.zeros(s.size, dtype=bool)
+    for b in (4, 8, 16, 32, 64):
+        n_ok = int(np.count_nonzero(cnt >= 4 * b))   # a prefix: cnt decreases along s
+        if n_ok == 0:
+            break
+        sb = s[:n_ok]
+        bt = (Ft[sb + b] - Ft[sb]) / b
+        bh = (Fh[sb + b] - Fh[sb]) / b
+        resid = bh - (hbar[:n_ok] + slope[:n_ok] * (bt - tbar[:n_ok]))
+        # exact variance of a block's mean residual about a line fitted to all cnt readings:
+        # σ² [1/b − 1/n − (t̄_B − t̄)²/Sxx]
+        var = sigma2 * np.maximum(1.0 / b - 1.0 / cnt[:n_ok]
+                                  - (bt - tbar[:n_ok]) ** 2 / sxx[:n_ok], 0.05 / b)
+        zs = resid / np.sqrt(var)
+        dev = np.abs(zs)
+        bad[:n_ok] |= dev > z
+        if sign:
+            bad[:n_ok] |= -sign * zs > z_one
+        strict[:n_ok] |= dev > 2.0
+    bad_idx = np.flatnonzero(bad)
+    first = int(bad_idx[-1]) + 1 if bad_idx.size else 0
+    first = min(first, s.size - 1)
+    alt = first + (s.size - first) // 2
+    idx = [first, alt]
+    ends = hbar[idx] + slope[idx] * (tt[s[idx]] - tbar[idx])
+    return (lo + int(s[first]), 0.5 * abs(float(ends[0] - ends[1])),
+            float(np.mean(~strict[first:])), not bool(bad[-1]))
+
+
+def provisional_fit(t: np.ndarray, T: np.ndarray, f0: int, f1: int, a0: int,
+                 where: dict) -> tuple[NewtonFit, np.ndarray, float]:
+    """Provisional joint fit on ``[f0, f1]`` and ``[a0, end]``, the invariant ``H`` and the
+    noise variance (AR(1)-inflated) of the readings."""
+    try:
+        prov = fit_newton(t[f0:f1 + 1], T[f0:f1 + 1], t[a0:], T[a0:])
+    except FitError as exc:
+        raise PeriodDetectionError(f"cannot fit the drift periods: {exc.message}",
+                                   **where) from None
+    # floor: the floating-point resolution of the readings (a noise-free record fits exactly)
+    floor = 4.0 * np.finfo(float).eps * float(np.max(np.abs(T)))
+    sigma2 = max(prov.sigma_K**2 * ar1_inflation(prov.rho1), floor * floor)
+    theta = T - prov.reference_temperature_K
+    C = np.empty(t.size)
+    C[0] = 0.0
+    np.cumsum(np.diff(t) * (theta[1:] + theta[:-1]) * 0.5, out=C[1:])
+    H = theta - prov.drift_ref_K_per_s * (t - t[0]) + prov.k_per_s * C
+    return prov, H, sigma2
+
+
+def heater_interval(th: Thermogram, t: np.ndarray) -> tuple[float, float | None] | None:
+    volts = th.channels.get("heater_V")
+    if volts is None:
+        return None
+    v = np.abs(np.asarray(volts))
+    vmax = float(v.max(initial=0.0))
+    if vmax <= 0:
+        return None
+    on = np.flatnonzero(v > 0.5 * vmax)
+    first, last = int(on[0]), int(on[-1])
+    if first == 0:
+        return None
+    off = float(th.time_s[last + 1]) if last + 1 < th.time_s.size else None
+    return float(th.time_s[first - 1]), off
