@@ -43,3 +43,12 @@ def test_building_the_parser_imports_no_heavy_module():
 def test_no_command_prints_help_and_exits_2(capsys):
     assert main([]) == 2
     assert "usage: calwork" in capsys.readouterr().out
+
+
+def test_usage_errors_are_one_line_and_exit_2(capsys):
+    assert main(["rise", "log.csv", "--method", "newton"]) == 2
+    err = capsys.readouterr().err
+    assert err.count("\n") == 1
+    assert "invalid choice: 'newton'" in err
+    assert main(["labbook", "no-such-action"]) == 2
+    assert capsys.readouterr().err.count("\n") == 1

@@ -138,7 +138,7 @@ def test_steinhart_hart_round_trip_and_fit_to_published_table():
     # fit quality: a 3-term fit to the R–T table in REFERENCES.md §6 (LDT-5525 manual,
     # Appendix A, confirmed) reproduces it to better than 0.01 °C, as that source claims.
     # The table's 40 °C entry (5331 Ω) is left out: it sits 0.47 °C off the curve through the
-    # other six points (likely a transcription slip in REFERENCES.md; reported to the lead).
+    # other six points (probably a copying slip in the table as compiled).
     t_tab = np.array([0.0, 10.0, 20.0, 25.0, 30.0, 50.0])
     r_tab = np.array([32128.0, 19549.0, 12262.0, 9814.0, 7908.0, 3542.0])
     x = np.log(r_tab)

@@ -32,15 +32,22 @@ SUBCOMMANDS = (
 )
 
 
+class _Parser(argparse.ArgumentParser):
+    """An argument parser whose usage errors are one line on stderr and exit status 2."""
+
+    def error(self, message: str):  # type: ignore[override]
+        self.exit(2, f"{self.prog}: error: {message} (see '{self.prog} --help')\n")
+
+
 def build_parser() -> argparse.ArgumentParser:
     """The top-level parser with every subcommand registered."""
-    parser = argparse.ArgumentParser(
+    parser = _Parser(
         prog="calwork",
         description="Calorimetry data reduction: from temperature logs to energy equivalents, "
         "energies of combustion and solution, and standard enthalpies of formation.",
     )
     parser.add_argument("--version", action="version", version=f"calwork {calwork_version()}")
-    sub = parser.add_subparsers(dest="command", metavar="COMMAND")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
     for name in SUBCOMMANDS:
         try:
             module = importlib.import_module(f"calwork.cli.{name}")

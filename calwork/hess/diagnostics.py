@@ -8,8 +8,9 @@
   row is the only source of something and cannot be tested (``z_j`` is then ``None``);
 * χ² = ‖L⁻¹ r‖², ν = m − rank, p-value from χ²_ν, Birge ratio √(χ²/ν).
 
-The worst-offender procedure is "in the spirit of" the published iterative analysis of
-active thermochemical networks (details of the published algorithm were not available):
+The worst-offender procedure is "in the spirit of" the published iterative worst-offender
+analysis of thermochemical networks (Ruscic et al., J. Phys. Chem. A 108 (2004) 9979; the
+details of the published algorithm were not available, so this is calwork's own variant):
 rank by |z| (|r/u| where leverages are not computed), remove (for the report) or inflate
 (for the adjusted solution) the worst, re-solve, repeat while it exceeds the threshold.
 """
