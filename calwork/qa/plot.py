@@ -53,7 +53,7 @@ def plot_control_chart(chart: ControlChart, path_or_axes: Any) -> Any:
     ax.plot([], [], color="0.3", linestyle="--", label="warning limits (± 2 s)")
     ax.plot([], [], color="0.1", linestyle="-.", label="action limits (± 3 s)")
     ax.plot(x, chart.values, color="tab:blue", marker="o", markersize=4, linewidth=0.8,
-            label=chart.quantity)
+            label=_label(chart.quantity))
     if chart.baseline_indices and len(chart.baseline_indices) < len(x):
         ax.axvline(max(chart.baseline_indices) + 0.5, color="0.5", linestyle=":",
                    linewidth=1.0, label="end of baseline")
@@ -69,7 +69,8 @@ def plot_control_chart(chart: ControlChart, path_or_axes: Any) -> Any:
         ax.plot(other, [chart.values[i] for i in other], linestyle="none", marker="s",
                 markersize=9, markerfacecolor="none", markeredgecolor="tab:orange",
                 markeredgewidth=1.6, label="run-rule signal")
-    ax.set_ylabel(f"{chart.quantity} ({chart.unit})")
+    ax.set_ylabel(f"{_label(chart.quantity)} ({chart.unit})")
+    ax.ticklabel_format(axis="y", useOffset=False, style="plain")
     ax.set_title(chart.title or "individuals chart")
     ax.legend(fontsize="small", loc="best", ncol=2)
     mr_x = [i for i, v in enumerate(chart.moving_ranges) if v is not None]
@@ -101,3 +102,9 @@ def plot_control_chart(chart: ControlChart, path_or_axes: Any) -> Any:
             raise ExportError(f"cannot write the plot ({exc.strerror})",
                               path=path_or_axes) from None
     return fig
+
+
+def _label(quantity: str) -> str:
+    """A reader's label for a quantity name (``energy_equivalent_J_per_K`` → words)."""
+    names = {"energy_equivalent_J_per_K": "energy equivalent ε"}
+    return names.get(quantity, quantity.replace("_", " "))
