@@ -107,9 +107,13 @@ class CalibrationResult:
     budget: Mapping[str, float] = field(default_factory=dict)
     outlier_test: Mapping[str, Any] = field(default_factory=dict)
     warnings: tuple[str, ...] = ()
+    #: Mean over the series of each correction energy divided by the corrected rise, J/K:
+    #: the part of ε that a correction constant contributes, so that an error in a constant
+    #: shared by calibration and sample runs is propagated with its correlation.
+    correction_per_rise_J_per_K: Mapping[str, float] = field(default_factory=dict)
 
     def __post_init__(self) -> None:
-        _freeze(self, "budget", "outlier_test")
+        _freeze(self, "budget", "outlier_test", "correction_per_rise_J_per_K")
         object.__setattr__(self, "runs", tuple(self.runs))
         object.__setattr__(self, "values_J_per_K", tuple(self.values_J_per_K))
         object.__setattr__(self, "warnings", tuple(self.warnings))

@@ -72,6 +72,9 @@ def calibration_series(
                                found=sdm, expected="a positive standard deviation")
     u_r_cert = float(np.mean([r.details.get("u_certificate_relative", 0.0) for r in ok]))
     u_cert = st.mean * u_r_cert
+    names_k = sorted({k for r in ok for k in r.corrections_J})
+    per_rise = {k: float(np.mean([r.corrections_J.get(k, 0.0) / r.corrected_rise_K
+                                  for r in ok])) for k in names_k}
     materials = sorted({str(r.details.get("reference_material")) for r in ok})
     certs = sorted({float(r.details.get("certified_J_per_g", math.nan)) for r in ok})
     return CalibrationResult(
@@ -87,6 +90,7 @@ def calibration_series(
                 "rsd_limit_percent": math.nan if rsd_limit_percent is None
                 else rsd_limit_percent},
         outlier_test=st.outlier_test, warnings=warnings,
+        correction_per_rise_J_per_K=per_rise,
     )
 
 
@@ -149,9 +153,18 @@ def sample_series(
         shared[key] = shared.get(key, 0.0) + sens * cal.budget["std_dev_of_mean_J_per_K"]
         ckey = ("certificate", cal.budget.get("certified_J_per_g"))
         shared[ckey] = shared.get(ckey, 0.0) + sens * cal.budget["certificate_J_per_K"]
-        for name, u in r.details["u_corrections_J_per_g"].items():
+        # A correction constant (fuse J/cm, ΔfU(HNO3), the ignition estimate…) serves the
+        # calibration and the sample runs alike: its relative error r moves Δu by
+        # r·(C_sample − ΔT_sample·S_cal)/m, S_cal = mean(C_cal/ΔT_cal) being the share of ε
+        # it contributed. Treated as systematic (fully correlated); per-run random parts
+        # show in the scatter.
+        per_rise = cal.correction_per_rise_J_per_K
+        mass = r.details["mass_vacuum_g"]
+        for name, c_J in r.corrections_J.items():
+            u_rel = float(rel[name])
+            net = c_J - r.corrected_rise_K * per_rise.get(name, 0.0)
             k = ("correction", name)
-            shared[k] = shared.get(k, 0.0) + u / n
+            shared[k] = shared.get(k, 0.0) + u_rel * net / mass / n
     bomb_budget = {
         "scatter_J_per_g": scatter,
         "calibration_J_per_g": math.sqrt(sum(v * v for k, v in shared.items()
