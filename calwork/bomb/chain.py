@@ -371,10 +371,20 @@ def reduce_combustion_run(info: Any, rise: Any, calibration: CalibrationResult |
             "sample", "CH2", mass, phase=info.phase or "cr",
             density_g_per_cm3=info.sample_density_g_per_cm3))
     _extras(details, combustibles)
+    # The standard-state reduction knows the final states of C, H, O, N and S only (CO2, H2O,
+    # N2, HNO3, H2SO4); a halogen or metal compound has products (HCl·nH2O, oxides…) the
+    # element balance of bomb_states does not form, so its Washburn correction — and so a
+    # standard massic energy — would be silently wrong.
+    others = sorted(el for el, n in (counts or {}).items()
+                    if n and el not in ("C", "H", "O", "N", "S"))
+    if others:
+        warnings.append(f"washburn: not applied (elements {others} in formula "
+                        f"{info.formula!r}: only C, H, O, N, S compounds are reduced to "
+                        "standard states); no standard-state values")
     referral, T_ref, wb = _bomb_model(
         info, cond, combustibles, n_hno3=n_hno3, soot_g=_nonneg(info.soot_g, "soot_g"),
         rise_dT=dT, T_i=Ti, details=details, warnings=warnings,
-        want_washburn=counts is not None)
+        want_washburn=counts is not None and not others)
     eps = calibration.energy_equivalent_J_per_K
     q_meas = eps * dT - referral
     q_sample = q_meas - sum(corr.values())

@@ -146,7 +146,7 @@ def nitric_acid_mol(acid_titre_mL: float | None, acid_titrant_mol_per_L: float |
     n = titre * 1e-3 * conc - 2.0 * sulfuric_acid_mol
     if n < -1e-12:
         raise RunError(
-            "the acid titre is smaller than the sulfuric acid from sulfur_mass_fraction needs "
+            "the acid titre is smaller than the sulfuric acid from the sample's sulfur needs "
             "(the titre must count the total acid)", column="acid_titre_mL", found=titre,
             expected=f"at least {2e3 * sulfuric_acid_mol / conc if conc else 0:.4g} mL",
         )

@@ -271,6 +271,10 @@ def formation_enthalpies(
     for i in idx:
         try:
             key = _hess_convention(samples[i].formula, conventions[i])
+            # check each compound on its own first: one compound the link cannot take (an
+            # element beyond CHONS, a non-negative Δcu°) must not fail the network of the
+            # others solved with it
+            _check_linkable(samples[i], key)
         except CalworkError as exc:
             out[i] = replace(out[i], warnings=(*out[i].warnings,
                                                f"formation enthalpy not computed: {exc}"))
@@ -328,6 +332,18 @@ def formation_enthalpies(
                                      "values": [dict(kv) for kv in link.key_values_used]},
                 )
     return out, cov
+
+
+def _check_linkable(sample: SampleResult, convention: str) -> None:
+    """Raise the combustion link's error for a sample it cannot take (checked alone)."""
+    from calwork.errors import NetworkError
+    from calwork.hess import combustion_reaction
+
+    combustion_reaction(sample.formula, phase=_phase(sample), sulfur_convention=convention)
+    value = sample.standard_massic_energy_J_per_g
+    if not math.isfinite(value) or value >= 0:
+        raise NetworkError("a standard massic energy of combustion is negative (J/g, "
+                           "thermochemical sign)", found=value, expected="a number < 0")
 
 
 def _phase(sample: SampleResult) -> str:

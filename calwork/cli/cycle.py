@@ -15,10 +15,14 @@ values into a thermochemical cycle and give the standard enthalpy of formation o
 
 FILE is a cycle file (TOML): a [cycle] table (name, target, target_reaction, key_values,
 omit_key_values), [[dissolution]] entries (solute, final_state or dilution_ratio or
-infinite_dilution, delta_sol_H_kJ_per_mol, u_delta_sol_H_kJ_per_mol), optional [[reaction]],
-[[species]] (known ΔfH° not bundled) and [[correlation]] tables. Uncertainties are standard
-uncertainties (k = 1). --export-network writes the cycle as a network CSV that
-`calwork network` reads.
+infinite_dilution, delta_sol_H_kJ_per_mol, u_delta_sol_H_kJ_per_mol), optional [[reaction]]
+(id, equation, delta_r_H_kJ_per_mol, u_delta_r_H_kJ_per_mol), [[species]] (a known ΔfH° not
+bundled: name, delta_f_H_kJ_per_mol, u_delta_f_H_kJ_per_mol) and [[correlation]] (a, b,
+correlation) tables. Species are written as for `calwork network` (see its --help): state
+in parentheses, charges as Cu^2+(aq), hydrates as CuSO4·5H2O(cr). If the target is "not
+determined", the cycle lacks a known ΔfH° (add a [[species]] entry, e.g. the anhydrous
+salt). Uncertainties are standard uncertainties (k = 1). --export-network writes the
+cycle as a network CSV that `calwork network` reads.
 
 Caution: the dissolution enthalpies come from calorimeters with electrical heaters and glass
 ampoules; follow the instrument maker's instructions and local safety rules.

@@ -6,6 +6,7 @@ import argparse
 from importlib import resources
 from pathlib import Path
 
+from calwork.cli._choices import RISE_METHODS
 from calwork.cli._common import print_json
 
 __all__ = ["register", "run", "sample_sheet"]
@@ -34,7 +35,7 @@ def register(subparsers: argparse._SubParsersAction) -> None:
         description=_DESCRIPTION, formatter_class=argparse.RawDescriptionHelpFormatter)
     p.add_argument("--out", default="calwork-demo", metavar="DIR",
                    help="report folder to write (default: %(default)s)")
-    p.add_argument("--method", default="newton-fit",
+    p.add_argument("--method", default="newton-fit", choices=RISE_METHODS,
                    help="temperature-rise method (default: %(default)s)")
     p.add_argument("--no-plots", action="store_true", help="skip the per-run PNG plots")
     p.add_argument("--json", action="store_true",

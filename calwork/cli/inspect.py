@@ -135,10 +135,10 @@ def _report(summary: dict[str, Any]) -> str:
     channel_of = {v["column"]: k for k, v in summary["channels"].items()}
     for col in summary["columns"]:
         if col == summary["time_column"]:
-            role = f"time (unit {d.get('time_unit')}, from {d.get('time_unit_source')})"
+            role = f"time (unit {d.get('time_unit')}, {_source(d.get('time_unit_source'))})"
         elif col == summary["temperature_column"]:
             role = (f"temperature (unit {d.get('temperature_unit')}, "
-                    f"from {d.get('temperature_unit_source')})")
+                    f"{_source(d.get('temperature_unit_source'))})")
         elif col in channel_of:
             role = f"channel {channel_of[col]}"
         else:
@@ -148,6 +148,15 @@ def _report(summary: dict[str, Any]) -> str:
     if summary["preamble"]:
         lines += ["", format_table(["metadata", "value"], sorted(summary["preamble"].items()))]
     return "\n".join(lines)
+
+
+def _source(source: Any) -> str:
+    """Where a unit came from, as a phrase ('from header', 'assumed: ...')."""
+    if source == "assumed":
+        return "assumed: no unit in the header; check it or give --time-unit"
+    if source and str(source).startswith(("inferred", "assumed")):
+        return str(source)
+    return f"from {source}"
 
 
 def _plot(thermogram: Thermogram, path: str) -> None:

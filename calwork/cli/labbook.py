@@ -210,6 +210,19 @@ def _list(args: argparse.Namespace) -> int:
           _g(s.get("massic_energy_J_per_g"), 8), _g(s.get("u_massic_energy_J_per_g"), 3),
           _g(s.get("delta_f_H_kJ_per_mol"), 6), _g(s.get("u_delta_f_H_kJ_per_mol"), 3),
           s["sheet_id"]] for s in samples]))
+    solution = [s for s in samples if s.get("kind", "combustion") != "combustion"]
+    if solution:  # their results are molar enthalpies, blank in the table above
+        print(f"\nsolution samples ({len(solution)})")
+        print(format_table(
+            ["sample", "formula", "n", "dH_kJ_per_mol", "u_kJ_per_mol", "molality_mol_per_kg",
+             "dH_inf_kJ_per_mol", "u_inf_kJ_per_mol", "sheet"],
+            [[s["sample"], s.get("formula"), s.get("n_runs"),
+              _g(s.get("molar_enthalpy_kJ_per_mol"), 6),
+              _g(s.get("u_molar_enthalpy_kJ_per_mol"), 3),
+              _g(s.get("final_molality_mol_per_kg"), 4),
+              _g(s.get("infinite_dilution_enthalpy_kJ_per_mol"), 6),
+              _g(s.get("u_infinite_dilution_enthalpy_kJ_per_mol"), 3),
+              s["sheet_id"]] for s in solution]))
     return 0
 
 

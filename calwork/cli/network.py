@@ -20,6 +20,21 @@ temperature_K, source; a row with a single species is a known ΔfH°) or TOML
 ([[determination]], [[species]], [[heat_capacity]], [[correlation]] tables).
 Uncertainties in the file are standard uncertainties (k = 1). CODATA key values for the
 species present are added unless --no-key-values; a row for the same species replaces them.
+The CSV is comma-separated with a decimal point; commas inside a state need no quotes
+(HCl(aq,1:50)), but any other cell holding a comma must be quoted ("Smith, 1990").
+
+Equations: species joined by "+", one "=" (or "→"), coefficients as numbers or fractions
+("1/2 O2(g)", "0.5 O2(g)"). Every species carries its state in parentheses: g, l, cr, s, am,
+aq, sln, with an optional qualifier (C(cr,graphite), HCl(aq,1:50), KCl(aq,inf)). Charges:
+Na+(aq), Cl-(aq), SO4^2-(aq), Fe^3+(aq) or SO4-2(aq); digits straight before a sign belong
+to the formula, so write Cu^2+(aq), not Cu2+(aq) (that is Cu₂ with charge +1). Hydrates:
+CuSO4·5H2O(cr), CuSO4*5H2O(cr) or CuSO4.5H2O(cr). Equations must balance in elements and
+charge.
+
+TOML tables: [[determination]] id, equation, delta_r_H_kJ_per_mol, u_delta_r_H_kJ_per_mol
+(temperature_K, source optional); [[species]] name, delta_f_H_kJ_per_mol,
+u_delta_f_H_kJ_per_mol; [[heat_capacity]] species, model (shomate, nasa7, constant) and its
+coefficients; [[correlation]] a, b, correlation (or covariance_kJ2_per_mol2).
 
 Caution: the input enthalpies come from calorimetry with oxygen bombs (pressure vessels) and
 acids; follow the instrument maker's instructions and local safety codes.

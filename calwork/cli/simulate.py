@@ -34,7 +34,8 @@ def register(subparsers: argparse._SubParsersAction) -> None:
         "simulate", help="write simulated logs and a run sheet",
         description=_DESCRIPTION, formatter_class=argparse.RawDescriptionHelpFormatter,
     )
-    p.add_argument("--out", required=True, metavar="DIR", help="output folder (created)")
+    p.add_argument("--out", required=True, metavar="DIR",
+                   help="output folder (created; must be new or empty unless --overwrite)")
     p.add_argument("--calorimeter", metavar="PARAMS.toml",
                    help="calorimeter parameters ([calorimeter] table); default the preset of "
                         "the scenario")
@@ -48,14 +49,37 @@ def register(subparsers: argparse._SubParsersAction) -> None:
                    help="log file format (default csv; the run sheet is always runs.csv)")
     p.add_argument("--duration", type=float, default=None, metavar="S",
                    help="length of each log in s (default: bomb 2400, solution 2700)")
+    p.add_argument("--overwrite", action="store_true",
+                   help="write into a folder that already holds files (runs.csv and logs of "
+                   "the same names are replaced)")
     p.add_argument("--json", action="store_true", help="print one JSON object")
     p.set_defaults(func=run)
 
 
+def _check_out(out: str, overwrite: bool) -> None:
+    """Refuse a non-empty output folder unless --overwrite: the simulated runs.csv and logs
+    (cal-01.csv, ...) carry the names a laboratory's own files may have, and replacing real
+    data with invented data without a word would be silent data loss."""
+    from pathlib import Path
+
+    from calwork.errors import ExportError
+
+    folder = Path(out)
+    if overwrite or not folder.is_dir():
+        return
+    present = sorted(p.name for p in folder.iterdir())
+    if present:
+        shown = ", ".join(present[:5]) + (", ..." if len(present) > 5 else "")
+        raise ExportError("the output folder is not empty; simulated files would replace "
+                          "files of the same names", path=out, found=shown,
+                          expected="a new or empty folder, or --overwrite")
+
+
 def run(args: argparse.Namespace) -> int:
+    """Write the scenario and print what was written."""
     from calwork.simulate import CalorimeterParams, build_scenario
 
-    """Write the scenario and print what was written."""
+    _check_out(args.out, args.overwrite)
     params = CalorimeterParams.from_toml(args.calorimeter) if args.calorimeter else None
     written = build_scenario(args.scenario, args.out, params=params, runs=args.runs,
                              seed=args.seed, fmt=args.fmt, duration_s=args.duration)

@@ -139,7 +139,7 @@ def _read_csv(path: Path, text: str) -> Network:
             if not inside or joined.count("(") != joined.count(")"):
                 raise NetworkError(f"row has {len(cells)} cells for {len(header)} columns",
                                    path=path, line=line_no,
-                                   expected="quote equations that contain commas")
+                                   expected="quote cells that contain commas (equations, sources)")
             cells = [*cells[:k], joined, *cells[k + extra + 1:]]
         fields = dict(zip(header, (c.strip() for c in cells), strict=False))
         rows.append(_row(fields, path=path, line=line_no, default_id=f"line{line_no}"))

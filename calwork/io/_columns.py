@@ -215,12 +215,17 @@ def plan_columns(
         if role is not None:
             by_role.setdefault(role, []).append(i)
 
-    def plan(i: int, role: str, unit_arg: str | None, parse) -> ColumnPlan:
+    def plan(i: int, role: str, unit_arg: str | None, parse, named: bool = False) -> ColumnPlan:
         unit, source, error = roles[i][1], roles[i][2], roles[i][3]
         if unit_arg is not None:
             unit, source = parse(unit_arg), "argument"
         elif error is not None:  # a unit that does not parse matters only for a used column
             raise error
+        elif unit is None and named:
+            # a column named by the user whose base calwork does not know ('Zeit [min]',
+            # 'Widerstand [Ω]'): its header still states the unit, which must not be dropped
+            unit_cell = units[i] if units is not None and i < len(units) else None
+            unit, source = _named_unit(header[i], unit_cell, role, path)
         return ColumnPlan(index=i, name=header[i], role=role, unit=unit,
                           unit_source=source or "assumed")
 
@@ -235,7 +240,8 @@ def plan_columns(
                 expected="a column such as time_s, time_min, time, t, elapsed or timestamp "
                 "(or name it with time_column)",
             )
-    out["time"] = plan(ti, "time", time_unit, _time_unit_arg(path))
+    out["time"] = plan(ti, "time", time_unit, _time_unit_arg(path),
+                       named=time_column is not None)
 
     ohm_arg = temperature_unit is not None and _temp_unit_arg(path)(temperature_unit) == "ohm"
     if temperature_column is not None:
@@ -264,7 +270,8 @@ def plan_columns(
     if Ti == ti:
         raise ColumnError("the time and temperature columns are the same column", path=path,
                           column=header[ti])
-    tplan = plan(Ti, "temperature", temperature_unit, _temp_unit_arg(path))
+    tplan = plan(Ti, "temperature", temperature_unit, _temp_unit_arg(path),
+                 named=temperature_column is not None)
     if roles[Ti][0] == "resistance" and temperature_unit is None:
         tplan = ColumnPlan(index=Ti, name=header[Ti], role="temperature", unit="ohm",
                            unit_source=roles[Ti][2] or "column name")
@@ -275,6 +282,35 @@ def plan_columns(
         if ci is not None:
             out[role] = plan(ci, role, None, str)
     return out
+
+
+def _named_unit(name: str, unit_cell: str | None, role: str, path) -> tuple[str | None, str]:
+    """(normalised unit, source) of a user-named column from its header or units row.
+
+    A bracketed or slashed unit (``Zeit [min]``, ``R / ohm``) or a units-row cell must parse
+    as a unit of the column's role; an ``_suffix`` counts only when it does parse
+    (``Zeit_min`` yes, ``probe_2`` no).
+    """
+    parse = parse_time_unit if role == "time" else parse_temperature_unit
+    what = "time" if role == "time" else "temperature"
+    expected = "s, min, h, ms, mm:ss, hh:mm:ss or iso" if role == "time" else "°C, K or ohm"
+    _, unit, _ = split_name(name)
+    source = "header"
+    if unit is None and unit_cell and unit_cell.strip().strip("[]()").strip():
+        unit, source = unit_cell.strip().strip("[]()").strip(), "units row"
+    if unit is None:
+        text = name.strip().strip('"').lstrip("\ufeff").strip()
+        if "_" in text:
+            try:
+                return parse(text.rsplit("_", 1)[1]), "header"
+            except UnitError:
+                return None, ""
+        return None, ""
+    try:
+        return parse(unit), source
+    except UnitError:
+        raise UnitError(f"cannot parse the {what} unit", path=path, column=name, found=unit,
+                        expected=expected) from None
 
 
 def _time_unit_arg(path):

@@ -163,7 +163,8 @@ def _find_block(lines: list[str], sep: str | None, dec: str) -> tuple[int, int, 
             continue
         cells = _trim(split_cells(line, sep))
         values = sum(1 for c in cells if value_like(c, dec))
-        ok = values >= 2 and 2 * values >= len(cells)  # text columns (events, notes) allowed
+        ok = (values >= 2 and 2 * values >= len(cells)  # text columns (events, notes) allowed
+              and not (sep is not None and any(_packed_values(c, dec) for c in cells)))
         if ok and run_len and len(cells) == run_n:
             run_len += 1
             if run_len >= 12:
@@ -177,6 +178,15 @@ def _find_block(lines: list[str], sep: str | None, dec: str) -> tuple[int, int, 
     if run_len >= _RUN or (run_len and run_start >= 0 and _rest_is_short(lines, run_start)):
         return run_start, run_n, run_len
     return None
+
+
+def _packed_values(cell: str, dec: str) -> bool:
+    """True for a cell such as ``'0000   23'``: several readings run together by whitespace,
+    the sign that the candidate separator splits inside the numbers (a whitespace-separated
+    log with decimal commas is not a comma-separated one)."""
+    parts = cell.split()
+    return (len(parts) >= 2 and not value_like(cell, dec)  # '2024-05-01 09:30:00' is one
+            and all(value_like(p, dec) for p in parts))
 
 
 def _rest_is_short(lines: list[str], start: int) -> bool:

@@ -15,6 +15,7 @@ import math
 import re
 import tomllib
 from collections.abc import Iterable, Mapping
+from datetime import date, datetime
 from pathlib import Path, PurePosixPath, PureWindowsPath
 from typing import Any
 
@@ -114,6 +115,8 @@ def _typed(name: str, raw: Any, where: dict[str, Any]) -> Any:
             raise SheetError("unknown sensor", found=text, expected=f"one of {list(SENSORS)}",
                              **where)
         return key
+    if name == "date":
+        return _iso_date(text, where)
     try:
         if name == "time_unit":
             parse_time_unit(text)
@@ -122,6 +125,43 @@ def _typed(name: str, raw: Any, where: dict[str, Any]) -> Any:
     except UnitError as err:
         raise SheetError(err.message, found=text, expected=err.expected, **where) from None
     return text
+
+
+_DOTTED_DATE = re.compile(r"(\d{1,2})\.(\d{1,2})\.(\d{4})(?:[ T](\d{1,2}:\d{2}(?::\d{2})?))?")
+
+
+def _iso_date(text: str, where: dict[str, Any]) -> str:
+    """A ``date`` cell as ISO 8601 text.
+
+    The lab book and the control charts order runs and filter ``--since``/``--until`` by
+    this date, so a text they cannot read would silently lose the order. ISO 8601 is kept
+    as written; the day-first dotted form a spreadsheet shows (``03.03.2025``, unambiguous:
+    it is always day.month.year) becomes ISO; any other form (``3/4/2025`` is ambiguous) is
+    refused.
+    """
+    try:
+        (datetime.fromisoformat if ("T" in text or " " in text) else date.fromisoformat)(text)
+        return text
+    except ValueError:
+        pass
+    m = _DOTTED_DATE.fullmatch(text)
+    if m:
+        try:
+            day = date(int(m.group(3)), int(m.group(2)), int(m.group(1)))
+        except ValueError:
+            day = None
+        if day is not None:
+            if m.group(4) is None:
+                return day.isoformat()
+            hh, mm, *ss = (int(x) for x in m.group(4).split(":"))
+            try:
+                return datetime(day.year, day.month, day.day, hh, mm,
+                                ss[0] if ss else 0).isoformat()
+            except ValueError:
+                pass
+    raise SheetError("date is not a calendar date in ISO 8601", found=text,
+                     expected="YYYY-MM-DD (or YYYY-MM-DDThh:mm:ss; DD.MM.YYYY is also read)",
+                     **where)
 
 
 def _resolve_log(text: str, folder: Path, where: dict[str, Any]) -> Path:
@@ -215,15 +255,92 @@ def _table_records(rows: list[tuple[int, list[Any]]], path: Path):
     if not rows:
         raise SheetError("the run sheet is empty", path=path,
                          expected="a header row and one row per run")
-    head_line, head = rows[0]
-    names = _check_header(["" if h is None else str(h) for h in head], path, head_line)
-    for line, cells in rows[1:]:
+    head_at = _header_position(rows)
+    head_line, head = rows[head_at]
+    names = _check_header(_trim_cells(["" if h is None else str(h) for h in head]), path,
+                          head_line)
+    body = rows[head_at + 1:]
+    if body and _is_units_row(names, body[0][1], path, body[0][0]):
+        body = body[1:]
+    for line, cells in body:
         if len(cells) > len(names) and any(c is not None and str(c).strip()
                                             for c in cells[len(names):]):
             raise SheetError(f"the row has {len(cells)} cells but the header names {len(names)}",
                              path=path, line=line, expected=f"{len(names)} cells")
         yield line, {n: (cells[i] if i < len(cells) else None)
                      for i, n in enumerate(names) if n}
+
+
+_HEADER_SEARCH_ROWS = 10  # title lines a spreadsheet may carry above the header row
+
+
+def _cell_key(cell: Any) -> str:
+    return "" if cell is None else str(cell).strip().lstrip("\ufeff").strip().lower()
+
+
+def _trim_cells(cells: list[str]) -> list[str]:
+    while cells and not cells[-1].strip():
+        cells = cells[:-1]
+    return cells
+
+
+def _header_position(rows: list[tuple[int, list[Any]]]) -> int:
+    """Index of the header row: the first row holding both 'run' and 'kind' among the first
+    few (a title such as 'Run sheet March' above it is skipped); 0 if none does, so the
+    header check reports the first row."""
+    for k, (_, cells) in enumerate(rows[:_HEADER_SEARCH_ROWS]):
+        keys = {_cell_key(c) for c in cells}
+        if "run" in keys and "kind" in keys:
+            return k
+    return 0
+
+
+def _unit_key(text: str) -> str:
+    key = text.strip().strip("[]()").strip()
+    key = key.replace("·", "_").replace("/", "_per_").replace(" ", "")
+    return key.lower()
+
+
+def _name_unit(name: str) -> str:
+    """The unit a column name states, lower case: mass_g → 'g', certified_J_per_g →
+    'j_per_g', acid_titrant_mol_per_L → 'mol_per_l'."""
+    tokens = name.lower().split("_")
+    if "per" in tokens[1:]:
+        k = tokens.index("per")
+        return "_".join(tokens[k - 1:])
+    return tokens[-1]
+
+
+def _is_units_row(names: list[str], cells: list[Any], path: Path, line: int) -> bool:
+    """True for a units row under the header (blank 'run' and 'kind', only unit words).
+
+    The column names carry the units (``mass_g``), so a units row adds nothing; it is
+    skipped when every unit agrees with its column name and refused when one does not
+    (a 'mg' under ``mass_g`` would otherwise be read as grams).
+    """
+    cell_of = {n.lower(): (cells[i] if i < len(cells) else None) for i, n in enumerate(names)}
+    if _cell_key(cell_of.get("run")) or _cell_key(cell_of.get("kind")):
+        return False
+    given = [(n, str(cells[i]).strip()) for i, n in enumerate(names)
+             if n and i < len(cells) and cells[i] is not None and str(cells[i]).strip()]
+    if not given or any(isinstance(cells[i], (int, float)) or _NUMBER.fullmatch(text)
+                        for i, (_, text) in enumerate(given)):
+        return False
+    for name, text in given:
+        canonical = _BY_KEY.get(name.lower())
+        unit = _unit_key(text)
+        if canonical is None or unit in ("", "-"):
+            continue
+        if canonical in _FRACTIONS and unit in ("1", "g_per_g", "kg_per_kg"):
+            continue
+        if _TYPES[canonical] is float and unit in (_name_unit(canonical),
+                                                  _name_unit(canonical).replace("ohm", "ω")):
+            continue
+        raise SheetError("units row disagrees with the unit in the column name",
+                         path=path, line=line, column=name, found=text,
+                         expected=f"values in the unit its name states ({canonical}); "
+                         "convert the column or leave the units row out")
+    return True
 
 
 def _csv_rows(text: str, path: Path) -> list[tuple[int, list[Any]]]:

@@ -11,12 +11,17 @@ Checks, each naming the failing row id or blob:
    one recorded in the audit entry that created it (so a result edited together with its hash
    column is still caught);
 6. every sheet has its ``add`` audit entry with the same bundle hash (recomputed from the
-   ``files`` rows) and the same ``runs`` rows, and every void has its ``void`` audit entry
-   (and vice versa).
+   ``files`` rows) and the same ``runs`` rows (a changed run row is named: its columns must
+   agree with its stored sheet row and with its hashed results), and every void has its
+   ``void`` audit entry with the same reason, user and time (and vice versa);
+7. every ``calibrations`` row (the energy equivalents that ``labbook list`` and QA read)
+   agrees with the hashed calibration result it points at, and every calibration result has
+   its row.
 """
 
 from __future__ import annotations
 
+import json
 import sqlite3
 from dataclasses import dataclass, field
 from typing import Any
@@ -24,7 +29,7 @@ from typing import Any
 from calwork.errors import LabbookIntegrityError
 from calwork.labbook import audit
 from calwork.labbook.blobs import unpack
-from calwork.labbook.ingest import results_digest, runs_digest, stored_bundle_digest
+from calwork.labbook.ingest import date_key, results_digest, runs_digest, stored_bundle_digest
 from calwork.labbook.schema import EXPECTED_TRIGGERS
 from calwork.provenance import sha256_bytes
 
@@ -126,21 +131,101 @@ def _check_records(conn: sqlite3.Connection, entries: list[audit.AuditEntry],
                 entry.details["runs_sha256"] != runs_digest(conn, sheet_id):
             problems.append(f"runs of sheet #{sheet_id}: rows differ from those recorded by "
                             f"audit row {entry.id}")
+            problems += _changed_runs(conn, sheet_id)
     voids = _audit_by(entries, "void")
     seen = set()
     n_voids = 0
-    for run, audit_id in conn.execute(
-            "SELECT r.run, v.audit_id FROM run_voids v JOIN runs r ON r.id = v.run_id"):
+    for run, audit_id, reason, when, who in conn.execute(
+            "SELECT r.run, v.audit_id, v.reason, v.voided_utc, v.voided_by FROM run_voids v"
+            " JOIN runs r ON r.id = v.run_id"):
         n_voids += 1
         seen.add(run)
         entry = voids.get(run)
         if entry is None or entry.id != audit_id:
             problems.append(f"run_voids row for run {run!r}: no matching void audit entry")
+        elif (reason, when, who) != (entry.reason, entry.ts_utc, entry.user):
+            # ingest.void_run writes the row with the audit entry's reason, time and user
+            problems.append(f"run_voids row for run {run!r}: reason, time or user differ from "
+                            f"audit row {entry.id}")
     for run, entry in voids.items():
         if run not in seen:
             problems.append(f"audit row {entry.id}: voids run {run!r} but the run is not void")
     n_runs = conn.execute("SELECT COUNT(*) FROM runs").fetchone()[0]
     return n_sheets, n_runs, n_voids
+
+
+def _changed_runs(conn: sqlite3.Connection, sheet_id: int) -> list[str]:
+    """Name the run rows of a sheet whose columns disagree with their own stored sheet row
+    (``row_json``, as ``ingest`` wrote both) or with the hashed results of the run."""
+    recorded: dict[str, list[dict[str, Any]]] = {}
+    for key, text in conn.execute(
+            "SELECT res.key, res.json FROM results res JOIN reductions red"
+            " ON red.id = res.reduction_id WHERE red.sheet_id = ? AND res.type = 'run'",
+            (sheet_id,)):
+        recorded.setdefault(key, []).append(json.loads(text))
+    out = []
+    for pk, run, line, kind, cal, sample, date, dkey, row_text in conn.execute(
+            "SELECT id, run, line, kind, calorimeter, sample, date, date_key, row_json"
+            " FROM runs WHERE sheet_id = ? ORDER BY id", (sheet_id,)):
+        try:
+            row = json.loads(row_text)
+        except (TypeError, ValueError):
+            out.append(f"runs row {pk} (run {run!r}): stored sheet row is not JSON")
+            continue
+        cols = {"run": run, "line": line, "kind": kind, "calorimeter": cal,
+                "sample": sample, "date": date}
+        bad = [c for c, v in cols.items() if row.get(c) != v]
+        if dkey != date_key(row.get("date")):
+            bad.append("date_key")
+        results = recorded.get(run, [])
+        if not results:
+            bad.append("results (none recorded for this run)")
+        for name in ("kind", "calorimeter", "sample"):
+            if any(r.get(name) != cols[name] for r in results) and name not in bad:
+                bad.append(name)
+        if bad:
+            out.append(f"runs row {pk} (run {run!r}): {', '.join(bad)} changed")
+    return out
+
+
+def _check_calibrations(conn: sqlite3.Connection, problems: list[str]) -> None:
+    """Each calibrations row must repeat its hashed calibration result (as
+    ``ingest.insert_reduction`` writes it), and each calibration result must have its row."""
+    dates = dict(conn.execute("SELECT run, date_key FROM runs"))
+    linked: set[int] = set()
+    for (cid, red_id, res_id, cal, eps, u, n, start, first, last, res_red, kind,
+         text) in conn.execute(
+            "SELECT c.id, c.reduction_id, c.result_id, c.calorimeter,"
+            " c.energy_equivalent_J_per_K, c.u_energy_equivalent_J_per_K, c.n_runs,"
+            " c.valid_from, c.first_run, c.last_run, res.reduction_id, res.type, res.json"
+            " FROM calibrations c LEFT JOIN results res ON res.id = c.result_id ORDER BY c.id"):
+        if text is None or kind != "calibration":
+            problems.append(f"calibrations row {cid} ({cal}): result row {res_id} is missing "
+                            "or not a calibration")
+            continue
+        linked.add(res_id)
+        rec = json.loads(text)
+        runs = list(rec.get("runs") or [])
+        run_dates = [dates[r] for r in runs if dates.get(r)]
+        expected = {
+            "reduction_id": res_red, "calorimeter": rec.get("calorimeter") or cal,
+            "energy_equivalent_J_per_K": rec.get("energy_equivalent_J_per_K"),
+            "u_energy_equivalent_J_per_K": rec.get("u_energy_equivalent_J_per_K"),
+            "n_runs": rec.get("n_runs"), "valid_from": min(run_dates) if run_dates else None,
+            "first_run": runs[0] if runs else None, "last_run": runs[-1] if runs else None,
+        }
+        actual = {"reduction_id": red_id, "calorimeter": cal, "energy_equivalent_J_per_K": eps,
+                  "u_energy_equivalent_J_per_K": u, "n_runs": n, "valid_from": start,
+                  "first_run": first, "last_run": last}
+        bad = [k for k in expected if expected[k] != actual[k]]
+        if bad:
+            problems.append(f"calibrations row {cid} ({cal}): {', '.join(bad)} differ from "
+                            f"its result row {res_id}")
+    for res_id, key in conn.execute(
+            "SELECT id, key FROM results WHERE type = 'calibration' ORDER BY id"):
+        if res_id not in linked:
+            problems.append(f"results row {res_id} (calibration {key}): its calibrations row "
+                            "is missing")
 
 
 def verify(conn: sqlite3.Connection) -> VerifyReport:
@@ -159,6 +244,7 @@ def verify(conn: sqlite3.Connection) -> VerifyReport:
     n_blobs = _check_blobs(conn, problems)
     n_results = _check_results(conn, entries, problems)
     n_sheets, n_runs, n_voids = _check_records(conn, entries, problems)
+    _check_calibrations(conn, problems)
     counts = {"audit entries": len(entries), "blobs": n_blobs, "sheets": n_sheets,
               "runs": n_runs, "void runs": n_voids, "results": n_results}
     return VerifyReport(problems=tuple(problems), counts=counts)

@@ -105,12 +105,12 @@ def _unit(key: str) -> str:
     return ""
 
 
-def _budget_table(budget: Any) -> Table:
+def _budget_table(budget: Any, default_unit: str = "") -> Table:
     rows = []
     for key, value in budget.items():
         if not isinstance(value, (int, float)) or isinstance(value, bool):
             continue
-        unit = _unit(key)
+        unit = _unit(key) or default_unit
         name = key
         for suffix in ("_J_per_K", "_J_per_g", "_kJ_per_mol", "_percent"):
             name = name.removesuffix(suffix)
@@ -211,8 +211,37 @@ def _calibration(cal: Any, red: Any, anchor: str) -> Section:
     return sec
 
 
+def _solution_sample(s: Any, red: Any, sec: Section) -> Section:
+    """A solution series: molar enthalpies (kJ/mol), not the combustion chain's Δu."""
+    lines = [f"Formula {s.formula or '—'}; {s.n_runs} runs ({', '.join(s.runs)})."]
+    text = (f"Mean molar enthalpy ΔH = "
+            f"{_pm(s.molar_enthalpy_kJ_per_mol, s.u_molar_enthalpy_kJ_per_mol, 3)} kJ/mol (u)")
+    if s.final_molality_mol_per_kg is not None:
+        text += f" at a mean final molality of {fmt(s.final_molality_mol_per_kg, 4)} mol/kg"
+    lines.append(text + ".")
+    if s.infinite_dilution_enthalpy_kJ_per_mol is not None:
+        inf = _pm(s.infinite_dilution_enthalpy_kJ_per_mol,
+                  s.u_infinite_dilution_enthalpy_kJ_per_mol, 3)
+        lines.append(f"ΔH at infinite dilution = {inf} kJ/mol (u, k = 1).")
+    sec.blocks.extend(Paragraph(t) for t in lines)
+    if s.budget:  # the solution chain's components are kJ/mol (calwork.solution.samples)
+        sec.blocks.append(_budget_table(s.budget, "kJ/mol"))
+    by_id = {r.run: r for r in red.runs}
+    rows = [[rid, fmt(by_id[rid].final_molality_mol_per_kg, 5),
+             fmt(by_id[rid].corrected_rise_K, 6), fmt(by_id[rid].energy_equivalent_J_per_K, 3),
+             _pm(by_id[rid].molar_enthalpy_kJ_per_mol, by_id[rid].u_molar_enthalpy_kJ_per_mol,
+                 3)]
+            for rid in s.runs if rid in by_id]
+    sec.blocks.append(Table(["run", "m (mol/kg)", "ΔT_c (K)", "ε (J/K)", "ΔH (kJ/mol)"], rows,
+                            "Runs of the series"))
+    sec.blocks.extend(Paragraph(w, "warning") for w in s.warnings)
+    return sec
+
+
 def _sample(s: Any, red: Any, anchor: str) -> Section:
     sec = Section(f"Sample {s.sample}", anchor)
+    if s.kind != "combustion":
+        return _solution_sample(s, red, sec)
     k = s.coverage_factor
     lines = [
         f"Formula {s.formula or '—'}; {s.n_runs} runs ({', '.join(s.runs)}).",

@@ -222,7 +222,9 @@ def _calibration_budget(plan: Plan, table: Table, row: int, c: Any) -> int:
         total_content = c.u_energy_equivalent_J_per_K
     for key, value in b.items():
         if isinstance(value, (int, float)) and math.isfinite(value):
-            _budget_row(table, row, name, q, f"(information) {key}", float(value), _unit(key))
+            # components without a unit suffix are J/K, like u(ε) (calwork.solution.chain)
+            _budget_row(table, row, name, q, f"(information) {key}", float(value),
+                        _unit(key) or "J/K")
             row += 1
     ref = _budget_row(table, row, name, q, "combined u(ε) = √(Σ u_i²)", total_content, "J/K",
                       "formula" if not isinstance(total_content, float) else "calwork")
@@ -278,7 +280,13 @@ def _sample_budget(plan: Plan, table: Table, row: int, s: Any) -> int:
         if key in ("key_values_kJ_per_mol", "u_delta_c_H_kJ_per_mol", "u_delta_f_H_kJ_per_mol"):
             continue  # these are written as formulas on the Formation sheet
         if isinstance(value, (int, float)) and math.isfinite(value):
-            _budget_row(table, row, name, "", key, float(value), _unit(key), "calwork")
+            quantity, unit = "", _unit(key)
+            if s.kind != "combustion" and not unit:
+                # the solution chain's sample budget is in kJ/mol (calwork.solution.samples)
+                unit = "kJ/mol"
+                quantity = ("ΔH at infinite dilution" if key == "infinite_dilution_fit"
+                            else "molar enthalpy ΔH")
+            _budget_row(table, row, name, quantity, key, float(value), unit, "calwork")
             row += 1
     for key, attr in (("u_du", "u_massic_energy_J_per_g"),
                       ("u_du0", "u_standard_massic_energy_J_per_g")):

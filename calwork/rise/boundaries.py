@@ -56,8 +56,13 @@ def locate_event(t: np.ndarray, Tm: np.ndarray, sigma: float, where: dict) -> Ev
             found=f"{dev_max:.3g} K/s", expected=f"more than {12.0 * slope_noise:.3g} K/s",
             **where)
     steep = np.flatnonzero(np.abs(dev) > 0.1 * dev_max)
-    return Event(peak=j + w // 2, lo=int(steep[0]), hi=int(min(steep[-1] + w, n - 1)),
-                  sign=1 if dev[j] > 0 else -1)
+    sign = 1 if dev[j] > 0 else -1
+    # the steepest reading inside the window [j, j + w]: for a smooth rise near its middle;
+    # for a step (one body, no thermometer lag, rise within one reading) every window that
+    # holds the step has the same slope and argmax takes the first, whose middle j + w/2 is
+    # readings before the step — the onset search, which ends at the peak, then missed it
+    peak = j + 1 + int(np.argmax(sign * np.diff(Tm[j:j + w + 1])))
+    return Event(peak=peak, lo=int(steep[0]), hi=int(min(steep[-1] + w, n - 1)), sign=sign)
 
 
 def detect_onset(t: np.ndarray, T: np.ndarray, sigma: float, peak: int, lo: int, sign: int,
@@ -107,35 +112,19 @@ def detect_onset(t: np.ndarray, T: np.ndarray, sigma: float, peak: int, lo: int,
     return int(J[h]), confidence
 
 
-def newtonian_start(H: np.ndarray, t: np.ndarray, lo: int, ref: int, end: int,
-                     sigma2: float, z: float, sign: int = 0,
-                     z_one: float = 3.0) -> tuple[int, float, float, bool]:
-    """Earliest start ``q`` in ``[lo, ref]`` of a Newtonian stretch ``[q, end]`` of ``H``.
+#: Readings between the end of the main period and the first candidate start scored for
+#: :func:`newtonian_start`'s plateau score: the largest block of the plateau test (64), so the
+#: scored candidates share no block with the last failing one (derived; see the docstring).
+SCORE_GAP_READINGS = 64
 
-    ``H`` is constant (up to a slow linear trend from the provisional fit's errors) wherever
-    the record is Newtonian. For each candidate ``q`` a straight line is fitted to
-    ``H[q:end+1]`` and the residual means of its first 4, 8, 16, 32 and 64 readings are
-    compared with their noise (``z`` standard deviations): a transient that has not died out
-    shows there first, where a fit's end point is most sensitive to it. ``q`` is the first
-    candidate after the last failing one. With ``sign`` (+1/−1, the event's direction) a
-    one-sided departure beyond ``z_one`` also fails: ``H`` is the heat input seen so far, so
-    a transient still decaying leaves ``H`` short of its plateau on the side opposite to the
-    event (heat still to come).
 
-    Returns ``(q, spread_K, pass_fraction)``: half the difference between the lines' values at
-    their starts for ``q`` and for a start midway to ``ref`` (the boundary-choice spread of the
-    end-point temperature), and the fraction of candidates from ``q`` to ``ref`` that also pass
-    a stricter (2σ) test; and whether the last candidate ``ref`` itself passes.
-    """
-    tt = t[lo:end + 1] - t[lo]
-    hh = H[lo:end + 1] - H[ref]
+def _block_tests(tt: np.ndarray, hh: np.ndarray, s: np.ndarray, sigma2: float, z: float,
+                 sign: int, z_one: float) -> tuple[np.ndarray, ...]:
+    """Plateau test of candidate starts ``s`` (indices into ``tt``/``hh``): for each, a line
+    fitted to ``hh[s:]`` and the residual means of its first 4…64 readings against their
+    noise. Returns ``(bad, strict, tbar, hbar, slope)``: failing at ``z`` (or one-sided at
+    ``z_one`` against ``sign``), failing a 2σ test, and the fitted lines."""
     m = tt.size
-    # candidates: every reading, or every few readings for long records (granularity ≤ 0.25 %
-    # of the candidate range; a later t_f is always safe)
-    stride = max(1, (ref - lo) // 400)
-    s = np.arange(0, ref - lo + 1, stride)
-    if s[-1] != ref - lo:
-        s = np.append(s, ref - lo)
     X = np.stack([tt, tt * tt, hh, tt * hh])
     St, Stt, Sh, Sth = np.cumsum(X[:, ::-1], axis=1)[:, ::-1][:, s]
     cnt = (m - s).astype(float)
@@ -166,14 +155,64 @@ def newtonian_start(H: np.ndarray, t: np.ndarray, lo: int, ref: int, end: int,
         if sign:
             bad[:n_ok] |= -sign * zs > z_one
         strict[:n_ok] |= dev > 2.0
+    return bad, strict, tbar, hbar, slope
+
+
+def newtonian_start(H: np.ndarray, t: np.ndarray, lo: int, ref: int, end: int,
+                     sigma2: float, z: float, sign: int = 0,
+                     z_one: float = 3.0) -> tuple[int, float, float | None, bool]:
+    """Earliest start ``q`` in ``[lo, ref]`` of a Newtonian stretch ``[q, end]`` of ``H``.
+
+    ``H`` is constant (up to a slow linear trend from the provisional fit's errors) wherever
+    the record is Newtonian. For each candidate ``q`` a straight line is fitted to
+    ``H[q:end+1]`` and the residual means of its first 4, 8, 16, 32 and 64 readings are
+    compared with their noise (``z`` standard deviations): a transient that has not died out
+    shows there first, where a fit's end point is most sensitive to it. ``q`` is the first
+    candidate after the last failing one. With ``sign`` (+1/−1, the event's direction) a
+    one-sided departure beyond ``z_one`` also fails: ``H`` is the heat input seen so far, so
+    a transient still decaying leaves ``H`` short of its plateau on the side opposite to the
+    event (heat still to come).
+
+    Returns ``(q, spread_K, score, ref_ok)``: half the difference between the lines' values at
+    their starts for ``q`` and for a start midway to ``ref`` (the boundary-choice spread of the
+    end-point temperature); the plateau score; and whether the last candidate ``ref`` itself
+    passes.
+
+    The score is the fraction of candidate starts from ``q`` + :data:`SCORE_GAP_READINGS` to
+    16 readings before ``end`` (every reading, or ~100 evenly spaced) that also pass a
+    stricter (2σ) test; ``None`` when there is no such candidate. On a record that is
+    Newtonian from ``q`` on it is the pass rate of pure noise (≈ 0.6–1); a departure that
+    lingers just under the ``z`` threshold through the after period drives it towards 0.
+    The gap matters: the candidates right after ``q`` share their blocks with the last
+    failing candidate ``q − 1`` (that is why it failed), so they sit near ``z`` by
+    construction and fail the 2σ test on a clean record too (derived: a block residual mean
+    changes by O(1/b) of a reading's noise from one start to the next).
+    """
+    tt = t[lo:end + 1] - t[lo]
+    hh = H[lo:end + 1] - H[ref]
+    m = tt.size
+    # candidates: every reading, or every few readings for long records (granularity ≤ 0.25 %
+    # of the candidate range; a later t_f is always safe)
+    stride = max(1, (ref - lo) // 400)
+    s = np.arange(0, ref - lo + 1, stride)
+    if s[-1] != ref - lo:
+        s = np.append(s, ref - lo)
+    bad, _, tbar, hbar, slope = _block_tests(tt, hh, s, sigma2, z, sign, z_one)
     bad_idx = np.flatnonzero(bad)
     first = int(bad_idx[-1]) + 1 if bad_idx.size else 0
     first = min(first, s.size - 1)
     alt = first + (s.size - first) // 2
     idx = [first, alt]
     ends = hbar[idx] + slope[idx] * (tt[s[idx]] - tbar[idx])
-    return (lo + int(s[first]), 0.5 * abs(float(ends[0] - ends[1])),
-            float(np.mean(~strict[first:])), not bool(bad[-1]))
+    q_rel = int(s[first])
+    # plateau score on candidates that share no block with the last failing one
+    s0, s1 = q_rel + SCORE_GAP_READINGS, m - 16
+    score = None
+    if s1 >= s0:
+        sc = np.arange(s0, s1 + 1, max(1, (s1 - s0) // 100))
+        strict = _block_tests(tt, hh, sc, sigma2, z, sign, z_one)[1]
+        score = float(np.mean(~strict))
+    return (lo + q_rel, 0.5 * abs(float(ends[0] - ends[1])), score, not bool(bad[-1]))
 
 
 def provisional_fit(t: np.ndarray, T: np.ndarray, f0: int, f1: int, a0: int,

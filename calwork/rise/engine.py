@@ -23,6 +23,7 @@ from calwork.rise.methods import (
 from calwork.rise.periods import Periods, detect_periods
 from calwork.rise.result import RiseResult
 from calwork.rise.selection import MethodOutput, Selection, select
+from calwork.rise.tail import tail_correction, tail_model
 from calwork.rise.uncertainty import combine
 from calwork.thermogram import Thermogram
 
@@ -96,6 +97,30 @@ def _boundary_component(thermogram: Thermogram, sel: Selection, out: MethodOutpu
     if not parts:
         return None
     return math.sqrt(sum(p * p for p in parts))
+
+
+def _tail_component(sel: Selection, out: MethodOutput, periods: Periods,
+                    reduce) -> float | None:
+    """One-sided bias of ``ΔT_c`` from a slow transient still decaying after ``t_f``.
+
+    The tail is fitted on the late main period (:func:`calwork.rise.tail.tail_model`), removed
+    from the after-period readings, and the method repeated; the magnitude of the change is
+    the component (``None`` when no significant tail is found). It is not a correction: the
+    model is an extrapolation, and the component makes the stated uncertainty cover the bias
+    (two-body bomb calorimeter, t_f ≈ 14 τ after firing: bias ≈ 1 u; derived from simulation,
+    tests/test_review_rise_twobody_tail.py).
+    """
+    tail = tail_model(sel, out.k_per_s, out.T_inf_K, periods.event_sign, out.sigma_K)
+    if tail is None:
+        return None
+    sub = tail_correction(sel, *tail)
+    try:
+        again = (newton_rise_only(sub, out.model) if reduce is reduce_newton
+                 else reduce(sub).rise_K)
+    except CalworkError:
+        return None
+    b = abs(again - out.rise_K)
+    return b if math.isfinite(b) and b > 0.0 else None
 
 
 def _diagnostics(thermogram: Thermogram, sel: Selection, out: MethodOutput,
@@ -203,6 +228,9 @@ def corrected_rise(thermogram: Thermogram, method: str = "newton-fit",
     boundary = _boundary_component(thermogram, sel, out, periods, reduce)
     if boundary is not None:
         budget["boundary"] = boundary
+    tail = _tail_component(sel, out, periods, reduce)
+    if tail is not None:
+        budget["transient-tail"] = tail
     try:
         u = combine(budget)
     except CalworkError as exc:

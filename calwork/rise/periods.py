@@ -63,9 +63,13 @@ __all__ = ["Periods", "detect_periods"]
 GUARD_READINGS = 2
 #: Spike threshold (× σ) for the running-median test.
 SPIKE_SIGMA = 8.0
-#: End-confidence scores below this are reported as "boundary-uncertain" (the score is the
-#: pass fraction of a 2σ test, typically 0.7–0.9 on a clean plateau).
-END_CONFIDENCE_LIMIT = 0.2
+#: End-confidence scores below this are reported as "boundary-uncertain". The score is the
+#: pass fraction of a 2σ plateau test on candidate starts 64 readings and more after t_f
+#: (:func:`calwork.rise.boundaries.newtonian_start`); measured on 560 clean simulated bomb and
+#: solution runs (1–30 s sampling, 0.01–1 mK noise): never below 0.65, median ≈ 0.9; a
+#: departure lingering just under the plateau threshold gives 0.2–0.5 (derived from
+#: simulation, tests/test_review_rise_plateau_score.py).
+END_CONFIDENCE_LIMIT = 0.5
 #: Coverage factor of the plateau test, and of the test that trims an unsteady start of the
 #: fore period (a false alarm there would drop good readings and warn, so it is stricter).
 PLATEAU_Z = 3.5
@@ -102,8 +106,10 @@ class Periods:
         lie a few readings earlier (harmless for newton-fit and Regnault–Pfaundler, which are
         invariant to ``t_i`` before onset; it matters for the 60 % Dickinson shortcut).
     main_end_confidence
-        Score in [0, 1]: fraction of later candidate ends that also pass a stricter (2σ)
-        plateau test — 1 when the after period is cleanly Newtonian from ``t_f`` on.
+        Score in [0, 1]: fraction of candidate ends from 64 readings after ``t_f`` on that
+        also pass a stricter (2σ) plateau test — about 0.9 (the pass rate of pure noise) when
+        the after period is cleanly Newtonian from ``t_f`` on; ``None`` when the after period
+        is too short to score.
     main_end_spread_K
         Remaining departure of ``ΔT_c(t_f)`` from the plateau value, K (boundary-choice
         component of the uncertainty).
