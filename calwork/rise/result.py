@@ -95,7 +95,7 @@ class RiseResult:
         Durbin–Watson statistic and lag-1 autocorrelation of the drift-period residuals.
     uncertainty_budget
         Components of ``u_corrected_rise_K`` (K, combined in quadrature), e.g. ``'fit'``,
-        ``'main-period-readings'``, ``'boundary'``, ``'shortcut'``.
+        ``'main-period-readings'``, ``'boundary'``, ``'shortcut'``, ``'transient-tail'``.
     fore_drift, after_drift
         The fitted drift curves (:class:`DriftCurve`).
     cross_check

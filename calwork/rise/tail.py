@@ -21,6 +21,7 @@ exponential is significant (``|A|`` more than :data:`TAIL_Z` standard errors).
 from __future__ import annotations
 
 import math
+from dataclasses import replace
 
 import numpy as np
 
@@ -39,7 +40,9 @@ TAIL_Z = 4.0
 TAIL_CHI2_Z = 5.0
 #: Readings the tail fit needs at least.
 _MIN_READINGS = 20
-#: τ grid: log-spaced from 2 readings to half the fitted span.
+#: Most points of the tail fit (block means beyond that).
+_MAX_POINTS = 240
+#: τ grid: log-spaced from 2 points to half the fitted span.
 _TAU_POINTS = 48
 
 
@@ -93,37 +96,40 @@ def tail_model(sel: Selection, k_per_s: float, T_inf_K: float, sign: int,
     if above.size == 0:
         return None
     a = int(above[-1]) + 1
-    x = tt[a:] - tt[a]
-    y = H[a:]
-    n = x.size
-    if n < _MIN_READINGS:
+    if tt.size - a < _MIN_READINGS:
         return None
+    # block means of b readings (at most _MAX_POINTS): an exponential averaged over a block
+    # of width w keeps its τ, its amplitude changes by (w/τ)²/24 (derived), and the fit is fast
+    b = max(1, (tt.size - a) // _MAX_POINTS)
+    m = (tt.size - a) // b
+    x = tt[a:a + m * b].reshape(m, b).mean(axis=1) - tt[a]
+    y = H[a:a + m * b].reshape(m, b).mean(axis=1)
+    n = x.size
     span = float(x[-1])
-    dt = float(np.median(np.diff(tt)))
+    dt = float(np.median(np.diff(x)))
     if span <= 8.0 * dt:
         return None
     taus = np.geomspace(2.0 * dt, 0.5 * span, _TAU_POINTS)
     xc = x - x.mean()
     yc = y - y.mean()
-    # for each τ: least squares of y on [1, x, e^{−x/τ}] (centred: 1 drops out)
-    E = np.exp(-x[None, :] / taus[:, None])
-    Ec = E - E.mean(axis=1, keepdims=True)
     sxx = float(xc @ xc)
-    Ep = Ec - np.outer(Ec @ xc / sxx, xc)           # e-basis orthogonal to the line
     yp = yc - xc * float(xc @ yc) / sxx
-    ee = np.einsum("ij,ij->i", Ep, Ep)
-    ok = ee > 0
-    if not np.any(ok):
-        return None
-    ey = Ep @ yp
-    gain = np.where(ok, ey * ey / np.where(ok, ee, 1.0), -np.inf)
+    gain, ey, ee = _scan(x, xc, yp, sxx, taus)
     j = int(np.argmax(gain))
+    if j < 2 or not math.isfinite(float(gain[j])):
+        return None
+    # refine τ between the neighbours of the best grid point (the amplitude is tens of mK:
+    # a coarse τ leaves a misfit well above the noise)
+    for _ in range(2):
+        fine = np.geomspace(taus[max(j - 1, 0)], taus[min(j + 1, taus.size - 1)], 33)
+        taus, (gain, ey, ee) = fine, _scan(x, xc, yp, sxx, fine)
+        j = int(np.argmax(gain))
     A = float(ey[j] / ee[j])
     rss = float(yp @ yp) - float(gain[j])
     if n <= 4 or rss <= 0:
         return None
     s2 = rss / (n - 4)
-    if j < 2 or s2 > sigma_K**2 * (1.0 + TAIL_CHI2_Z * math.sqrt(2.0 / (n - 4))):
+    if s2 > sigma_K**2 / b * (1.0 + TAIL_CHI2_Z * math.sqrt(2.0 / (n - 4))):
         return None
     se_A = math.sqrt(s2 / float(ee[j]))
     # heat still to come: H below its plateau for a rise (A < 0), above for an endotherm
@@ -132,9 +138,21 @@ def tail_model(sel: Selection, k_per_s: float, T_inf_K: float, sign: int,
     return A, float(taus[j]), float(tt[a])
 
 
+def _scan(x: np.ndarray, xc: np.ndarray, yp: np.ndarray, sxx: float,
+          taus: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """For each τ: the reduction of the residual sum of squares of ``y`` about a line when
+    ``e^{−x/τ}`` (made orthogonal to the line) is added; its projections ``ey``, ``ee``."""
+    E = np.exp(-x[None, :] / taus[:, None])
+    Ec = E - E.mean(axis=1, keepdims=True)
+    Ep = Ec - np.outer(Ec @ xc / sxx, xc)
+    ee = np.einsum("ij,ij->i", Ep, Ep)
+    ok = ee > 0
+    ey = Ep @ yp
+    gain = np.where(ok, ey * ey / np.where(ok, ee, 1.0), -np.inf)
+    return gain, ey, ee
+
+
 def tail_correction(sel: Selection, A_K: float, tau_s: float, t_a_s: float) -> Selection:
     """The selection with the tail ``δ(t)`` removed from the after-period readings."""
-    from dataclasses import replace
-
     delta = np.where(sel.after, A_K * np.exp(-np.maximum(sel.t - t_a_s, 0.0) / tau_s), 0.0)
     return replace(sel, T=sel.T - delta)

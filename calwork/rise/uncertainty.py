@@ -11,6 +11,9 @@ The standard uncertainty of ``ΔT_c`` combines, in quadrature,
 * ``boundary`` — the spread of ``ΔT_c`` over plausible boundary choices when the periods were
   detected automatically;
 * ``shortcut`` — for the 60 % Dickinson rule, its known deviation from the exact rule.
+* ``transient-tail`` — the one-sided bias of a slow transient (two-body calorimeter) still
+  decaying after ``t_f``, fitted on the late main period and propagated through the method
+  (:mod:`calwork.rise.tail`); present only when that tail is significant.
 """
 
 from __future__ import annotations
