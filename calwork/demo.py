@@ -1,7 +1,8 @@
 """The bundled demonstration data: a simulated day's work of a fictional laboratory.
 
 Everything here is **simulated** with calwork's own calorimeter simulator (``calwork.simulate``)
-for an invented laboratory, the "Fenwick Row thermochemistry laboratory", and is labelled as
+for invented laboratories (the bomb runs for the "Fenwick Row thermochemistry laboratory",
+the solution runs for the "Lindqvist Solution Thermochemistry Laboratory"), and is labelled as
 such in every log (a ``simulated: true`` preamble line) and run-sheet row (``notes``):
 
 * bomb calorimeter ``bomb-1``: eight benzoic-acid calibrations over four days, five

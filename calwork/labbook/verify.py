@@ -219,7 +219,7 @@ def _check_calibrations(conn: sqlite3.Connection, problems: list[str]) -> None:
                   "first_run": first, "last_run": last}
         bad = [k for k in expected if expected[k] != actual[k]]
         if bad:
-            problems.append(f"calibrations row {cid} ({cal}): {', '.join(bad)} differ from "
+            problems.append(f"calibrations row {cid} ({cal}): {', '.join(bad)} not as in "
                             f"its result row {res_id}")
     for res_id, key in conn.execute(
             "SELECT id, key FROM results WHERE type = 'calibration' ORDER BY id"):

@@ -220,7 +220,7 @@ def _blank_run(info, analysis, tg, method, series):
 
 # --- solution runs ----------
 def _solution_run(info, analysis, tg, method, series, blank: BlankCorrection | None,
-                  opts: SolutionOptions):
+                  opts: SolutionOptions, blanks_with_vapour: Sequence[str] = ()):
     rise = analysis.reaction_rise
     referred, heater = _energy_equivalent(analysis, series, opts.calibration, rise)
     n, u_n, n_source = amount_of_substance_mol(amount_mol=info.amount_mol, mass_g=info.mass_g,
@@ -240,6 +240,14 @@ def _solution_run(info, analysis, tg, method, series, blank: BlankCorrection | N
         vap = vaporisation_correction_J(info.ampoule_gas_volume_mL, rise.T_initial_K)
         corrections["vaporisation"] = (vap.correction_J, vap.u_heat_absorbed_J)
         details["vaporisation"] = vap.to_dict()
+        if blank is not None and blanks_with_vapour:
+            # a blank without ampoule_gas_volume_mL keeps its own vaporisation in q_break
+            # (calwork.solution.blanks): with this run's correction it would count twice
+            warnings.append(
+                f"blank run(s) {', '.join(blanks_with_vapour)} give no ampoule_gas_volume_mL: "
+                "the ampoule-breaking mean still holds their solvent vaporisation, and this "
+                "run's vaporisation correction is applied as well (counted twice if the "
+                "ampoules are alike); give the blanks' gas volumes")
     se = solution_enthalpy(energy_equivalent=referred, corrected_rise_K=rise.corrected_rise_K,
                            u_corrected_rise_K=rise.u_corrected_rise_K, amount_mol=n,
                            u_amount_mol=u_n, corrections=corrections,
@@ -339,6 +347,7 @@ def reduce_solution_runs(
     series = {name: _series(name, items) for name, items in by_cal.items()}
     # 2. ampoule blanks -> one correction per calorimeter
     blank_items: dict[str, list[RunResult]] = {}
+    no_volume: dict[str, list[str]] = {}  # blanks whose vaporisation was not taken out
     for info in (i for i in pending if i.kind == "blank"):
         analysis, tg = analyses[info.run]
         try:
@@ -348,6 +357,8 @@ def reduce_solution_runs(
             continue
         results[info.run] = result
         blank_items.setdefault(_calorimeter(info), []).append(result)
+        if info.ampoule_gas_volume_mL is None:
+            no_volume.setdefault(_calorimeter(info), []).append(info.run)
     blanks: dict[str, BlankCorrection] = {}
     for name, items in blank_items.items():
         blanks[name] = blank_correction(
@@ -361,8 +372,9 @@ def reduce_solution_runs(
             if opts.calibration == "series" and name not in series:
                 raise CalibrationError("no electrical calibration series for the calorimeter",
                                        column="calorimeter", found=info.calorimeter)
-            results[info.run] = _solution_run(info, analysis, tg, method, series.get(name),
-                                              blanks.get(name), opts)
+            results[info.run] = _solution_run(
+                info, analysis, tg, method, series.get(name), blanks.get(name), opts,
+                blanks_with_vapour=no_volume.get(name, ()))
         except CalworkError as exc:
             results[info.run] = _failed(info, _message(info, exc))
     ordered = [results[info.run] for info in runs]
