@@ -244,8 +244,7 @@ def reduce_runs(
             results[res.run] = res
         cal_list += s_cals
         samples += s_samples
-    ordered = [_flag_assumed_units(results[info.run], thermograms.get(info.run))
-               for info in rows if info.run in results]
+    ordered = [results[info.run] for info in rows if info.run in results]
     good = {k: v for k, v in thermograms.items() if not isinstance(v, CalworkError)}
     prov = Provenance(importer="calwork.reduce.reduce_runs", method=method,
                       constants=_constants_used(),
@@ -254,16 +253,6 @@ def reduce_runs(
     return Reduction(calibrations=cal_list, runs=ordered, samples=samples,
                      covariance=covariance, method=method, provenance=prov,
                      warnings=warnings, run_infos=runs, thermograms=good)
-
-
-def _flag_assumed_units(result: RunResult, thermogram: Any) -> RunResult:
-    """Warn on a run whose log gave no time unit (seconds were assumed by the importer)."""
-    meta = getattr(thermogram, "metadata", None) or {}
-    if meta.get("time_unit_source") != "assumed":
-        return result
-    note = (f"time-unit-assumed: the log's time column {meta.get('time_column', '')!r} names "
-            "no unit, so seconds were assumed; give time_unit in the sheet if it is not s")
-    return replace(result, warnings=(*result.warnings, note))
 
 
 def _constants_used() -> dict[str, str]:

@@ -24,3 +24,22 @@ def test_a_log_without_a_time_unit_is_flagged(tmp_path):
     assert not any(w.startswith("time-unit-assumed") for w in by_run["stated"].warnings)
     # same numbers: seconds was the right assumption here
     assert by_run["bare"].corrected_rise_K == by_run["stated"].corrected_rise_K
+
+
+def test_rise_command_reports_the_assumed_unit(tmp_path, capsys):
+    import json
+
+    from calwork.cli.main import main
+
+    run = simulate_run(CalorimeterParams.bomb_preset(),
+                       CombustionPulse(energy_J=26434.0, fire_time_s=600.0, burn_time_s=10.0),
+                       duration_s=2400.0, seed=4)
+    write_log(run.thermogram, tmp_path / "stated.csv")
+    text = (tmp_path / "stated.csv").read_text(encoding="utf-8").replace("time_s,", "time,")
+    (tmp_path / "bare.csv").write_text(text, encoding="utf-8")
+    assert main(["rise", str(tmp_path / "bare.csv"), "--json"]) == 0
+    warnings = json.loads(capsys.readouterr().out)["warnings"]
+    assert any(w.startswith("time-unit-assumed") for w in warnings)
+    assert main(["rise", str(tmp_path / "bare.csv"), "--time-unit", "s", "--json"]) == 0
+    warnings = json.loads(capsys.readouterr().out)["warnings"]
+    assert not any(w.startswith("time-unit-assumed") for w in warnings)

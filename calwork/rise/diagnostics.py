@@ -37,6 +37,7 @@ WARNING_CODES = {
     "main-end-early": "the given end of the main period is before the detected plateau",
     "dickinson-60-percent": "the 60 % shortcut differs from the equal-area Dickinson value",
     "boundary-uncertain": "a detected period boundary is poorly defined",
+    "time-unit-assumed": "the log names no time unit; the importer assumed seconds",
 }
 
 #: Minimum fore/after lengths (ASTM D240 rates over 5 min before firing and after c; ISO 1928

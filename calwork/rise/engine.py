@@ -236,6 +236,10 @@ def corrected_rise(thermogram: Thermogram, method: str = "newton-fit",
     except CalworkError as exc:
         raise exc.with_context(path=thermogram.provenance.source_path) from None
     warns, cross = _diagnostics(thermogram, sel, out, u, method)
+    if thermogram.metadata.get("time_unit_source") == "assumed":
+        column = thermogram.metadata.get("time_column", "")
+        warns.append(warning("time-unit-assumed", f"time column {column!r} names no unit, so "
+                             "seconds were assumed; give the time unit if it is not s"))
     conf = periods.fire_confidence
     if (method == "dickinson" and dickinson_rule == "60-percent"
             and periods.fire_source == "detected" and conf is not None and conf < 0.5):
