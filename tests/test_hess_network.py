@@ -63,7 +63,10 @@ def test_hess_cycle_with_key_values_and_derived_reaction():
     ))
     res = solve_network(net)
     used = {kv["species"] for kv in res.key_values_used}
-    assert used == {"CO(g)", "CO2(g)"}  # bundled CODATA values of the species present
+    # the row CO-f is CO's formation reaction: it replaces the bundled CO(g) value (one
+    # literature value must not count twice); CO2(g) still comes from the bundled table
+    assert used == {"CO2(g)"}
+    assert any("key value of CO(g) is not used" in w for w in res.warnings)
     v, _ = res.value("CO2(g)")
     assert v == pytest.approx(-393.51, abs=1e-6)  # consistent data: REFERENCES §1d
     d = res.reaction_enthalpy("C(cr,graphite) + O2(g) = CO2(g)")

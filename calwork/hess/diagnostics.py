@@ -8,11 +8,14 @@
   row is the only source of something and cannot be tested (``z_j`` is then ``None``);
 * χ² = ‖L⁻¹ r‖², ν = m − rank, p-value from χ²_ν, Birge ratio √(χ²/ν).
 
-The worst-offender procedure is "in the spirit of" the published iterative worst-offender
-analysis of thermochemical networks (Ruscic et al., J. Phys. Chem. A 108 (2004) 9979; the
-details of the published algorithm were not available, so this is calwork's own variant):
-rank by |z| (|r/u| where leverages are not computed), remove (for the report) or inflate
-(for the adjusted solution) the worst, re-solve, repeat while it exceeds the threshold.
+The worst-offender procedure follows the published iterative worst-offender analysis of
+thermochemical networks (Ruscic et al., J. Phys. Chem. A 108 (2004) 9979; docs/methods.md §5.4):
+candidates are ranked by the normalised residual |r/u|; the worst is removed (for the
+report) or its u widened in small steps (for the adjusted solution) and the network
+re-solved, until every determination agrees within its uncertainty. Key values and rows
+marked as anchors are never candidates: a conflict with one of them is reported as such.
+Where the data cannot tell two candidates apart (their standardised residuals tie: each is
+the other's only check), the record says so instead of silently picking one.
 """
 
 from __future__ import annotations
@@ -31,6 +34,7 @@ __all__ = [
     "Inflation",
     "Offender",
     "Residual",
+    "anchor_conflicts",
     "consistency",
     "inflate_until_consistent",
     "residuals",
@@ -78,12 +82,34 @@ class Offender:
 
     step: int
     id: str
+    #: |r/u| of the row when it was named
     score: float
+    #: |z| (standardised residual) of the row when it was named
+    z: float
     chi2_before: float
     chi2_after: float
+    #: eligible rows the data cannot tell apart from this one (same |z|)
+    indistinguishable_from: tuple[str, ...] = ()
+    #: anchors (key values) that tie with this row: the conflict is with them
+    conflicts_with: tuple[str, ...] = ()
 
     def to_dict(self) -> dict[str, object]:
-        return dict(self.__dict__)
+        d = dict(self.__dict__)
+        d["indistinguishable_from"] = list(self.indistinguishable_from)
+        d["conflicts_with"] = list(self.conflicts_with)
+        return d
+
+    def describe(self) -> str:
+        """One readable sentence for reports and terminal output."""
+        text = (f"{self.id} (|r/u| {self.score:.2f}, "
+                f"χ² {self.chi2_before:.3g} → {self.chi2_after:.3g})")
+        if self.conflicts_with:
+            text += " — conflicts with " + ", ".join(_anchor_name(a)
+                                                     for a in self.conflicts_with)
+        if self.indistinguishable_from:
+            text += " — the data cannot tell it apart from " + ", ".join(
+                self.indistinguishable_from)
+        return text
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -94,10 +120,22 @@ class Inflation:
     id: str
     old_u_kJ_per_mol: float
     new_u_kJ_per_mol: float
+    #: |r/u| before the change
     score: float
+    indistinguishable_from: tuple[str, ...] = ()
+    conflicts_with: tuple[str, ...] = ()
 
     def to_dict(self) -> dict[str, object]:
-        return dict(self.__dict__)
+        d = dict(self.__dict__)
+        d["indistinguishable_from"] = list(self.indistinguishable_from)
+        d["conflicts_with"] = list(self.conflicts_with)
+        return d
+
+
+def _anchor_name(row_id: str) -> str:
+    if row_id.startswith("key:"):
+        return f"the key value of {row_id[4:]}"
+    return f"the anchor {row_id}"
 
 
 def residuals(ids: Sequence[str], kinds: Sequence[str], equations: Sequence[str],
@@ -131,12 +169,55 @@ def consistency(sol: LinearSolution, m: int) -> Consistency:
                        birge_ratio=math.sqrt(chi2 / dof))
 
 
-def _worst(records: Sequence[Residual], eligible: set[str]) -> Residual | None:
-    scored = [rec for rec in records if rec.id in eligible and rec.score is not None]
+#: Standardised residuals equal within this relative tolerance cannot be told apart.
+_TIE_RTOL = 1e-6
+
+
+@dataclass(frozen=True, kw_only=True)
+class _Pick:
+    worst: Residual
+    ties: tuple[str, ...]
+    conflicts: tuple[str, ...]
+
+
+def _testable(rec: Residual) -> bool:
+    return rec.score is not None
+
+
+def _pick_worst(records: Sequence[Residual], eligible: set[str]) -> _Pick | None:
+    """The eligible row with the largest |r/u|, with the rows it cannot be told apart from.
+
+    Rows not in ``eligible`` (key values, anchors) are never picked; if one ties with the
+    pick (same |z|: the two are each other's only check), it is returned in ``conflicts``.
+    """
+    scored = [rec for rec in records if rec.id in eligible and _testable(rec)]
     if not scored:
         return None
-    # ties broken by id so the order does not depend on the order of the rows
-    return max(scored, key=lambda rec: (round(rec.score, 9), rec.id))
+    worst = max(scored, key=lambda rec: (abs(rec.normalised), rec.score))
+    ties: list[str] = []
+    conflicts: list[str] = []
+    if worst.standardised is not None:
+        z0 = abs(worst.standardised)
+        for rec in records:
+            if rec.id == worst.id or rec.standardised is None:
+                continue
+            if abs(abs(rec.standardised) - z0) <= _TIE_RTOL * max(z0, 1e-300):
+                (ties if rec.id in eligible else conflicts).append(rec.id)
+    return _Pick(worst=worst, ties=tuple(ties), conflicts=tuple(conflicts))
+
+
+def _consistent(records: Sequence[Residual], eligible: set[str], threshold: float) -> bool:
+    return all(rec.score <= threshold for rec in records
+               if rec.id in eligible and _testable(rec))
+
+
+def anchor_conflicts(records: Sequence[Residual], anchors: set[str],
+                     threshold: float) -> list[str]:
+    """Anchors (key values) whose |z| exceeds the threshold, as readable warnings."""
+    return [f"{rec.id} (an anchor, never adjusted) disagrees with the rest of the network: "
+            f"|z| = {rec.score:.2f} > {threshold:g}"
+            for rec in records
+            if rec.id in anchors and _testable(rec) and rec.score > threshold]
 
 
 def worst_offender_order(
@@ -147,27 +228,33 @@ def worst_offender_order(
     *,
     threshold: float,
     max_steps: int,
-) -> list[Offender]:
-    """Remove the worst-scoring row and re-solve, until all scores ≤ ``threshold``.
+) -> tuple[list[Offender], list[Residual]]:
+    """Remove the worst row (largest |r/u|) and re-solve, until every |z| ≤ ``threshold``.
 
     ``solve(keep_mask, u)`` re-solves with the rows of ``keep_mask`` and returns their
-    residual records and the consistency.
+    residual records and the consistency. Rows outside ``eligible`` are never removed.
+    Returns the removal order and the residuals of the network without the removed rows.
     """
     keep = np.ones(len(ids), dtype=bool)
     order: list[Offender] = []
     records, cons = solve(keep, u)
     for step in range(1, max_steps + 1):
-        worst = _worst(records, eligible)
-        if worst is None or worst.score <= threshold:
+        if _consistent(records, eligible, threshold):
             break
-        keep[ids.index(worst.id)] = False
+        pick = _pick_worst(records, eligible)
+        if pick is None:
+            break
+        keep[ids.index(pick.worst.id)] = False
         if keep.sum() == 0:
             break
         new_records, new_cons = solve(keep, u)
-        order.append(Offender(step=step, id=worst.id, score=float(worst.score),
-                              chi2_before=cons.chi2, chi2_after=new_cons.chi2))
+        order.append(Offender(step=step, id=pick.worst.id,
+                              score=float(abs(pick.worst.normalised)),
+                              z=float(pick.worst.score), chi2_before=cons.chi2,
+                              chi2_after=new_cons.chi2, indistinguishable_from=pick.ties,
+                              conflicts_with=pick.conflicts))
         records, cons = new_records, new_cons
-    return order
+    return order, records
 
 
 def inflate_until_consistent(
@@ -179,22 +266,27 @@ def inflate_until_consistent(
     threshold: float,
     factor: float,
     max_steps: int,
-) -> tuple[np.ndarray, list[Inflation]]:
-    """Multiply the worst row's u by ``factor`` and re-solve until every score ≤ threshold.
+) -> tuple[np.ndarray, list[Inflation], bool]:
+    """Multiply the worst row's u by ``factor`` and re-solve until every |z| ≤ threshold.
 
-    Returns the adjusted uncertainties and the record of every change.
+    Returns the adjusted uncertainties, the record of every change, and whether the
+    procedure converged (every eligible row consistent) within ``max_steps``.
     """
     u = np.array(u, dtype=float)
     keep = np.ones(len(ids), dtype=bool)
     log: list[Inflation] = []
-    for step in range(1, max_steps + 1):
+    for step in range(1, max_steps + 2):
         records, _ = solve(keep, u)
-        worst = _worst(records, eligible)
-        if worst is None or worst.score <= threshold:
-            break
-        j = ids.index(worst.id)
+        if _consistent(records, eligible, threshold):
+            return u, log, True
+        pick = _pick_worst(records, eligible)
+        if pick is None or step > max_steps:
+            return u, log, False
+        j = ids.index(pick.worst.id)
         old = float(u[j])
         u[j] = old * factor
-        log.append(Inflation(step=step, id=worst.id, old_u_kJ_per_mol=old,
-                             new_u_kJ_per_mol=float(u[j]), score=float(worst.score)))
-    return u, log
+        log.append(Inflation(step=step, id=pick.worst.id, old_u_kJ_per_mol=old,
+                             new_u_kJ_per_mol=float(u[j]),
+                             score=float(abs(pick.worst.normalised)),
+                             indistinguishable_from=pick.ties, conflicts_with=pick.conflicts))
+    return u, log, False

@@ -1,10 +1,12 @@
 """Network files: CSV (one determination a row) and TOML (determinations, priors, C_p).
 
 CSV columns: ``id, equation, delta_r_H_kJ_per_mol, u_delta_r_H_kJ_per_mol`` and optional
-``temperature_K``, ``source``, ``note``. A row whose equation is a single species (no
-``=``) gives a known Δ_fH° of that species (it replaces the bundled key value). Equations
-may be quoted; an unquoted equation whose states contain commas (``C(cr,graphite)``) is
-joined back together (its brackets must balance). Lines starting with ``#`` are comments.
+``temperature_K``, ``source``, ``note``, ``anchor`` (``yes``/``no``: an anchored row is
+never removed or widened by the worst-offender procedure, like a key value). A row whose
+equation is a single species (no ``=``) gives a known Δ_fH° of that species (it replaces
+the bundled key value). Equations may be quoted; an unquoted equation whose states
+contain commas (``C(cr,graphite)``) is joined back together (its brackets must balance).
+Lines starting with ``#`` are comments.
 
 TOML::
 
@@ -15,6 +17,7 @@ TOML::
     u_delta_r_H_kJ_per_mol = 0.085
     temperature_K = 298.15            # optional
     source = "..."                    # optional
+    anchor = false                    # optional: never removed or widened
 
     [[species]]                       # a known Δ_fH° (prior)
     name = "CO2(g)"
@@ -54,7 +57,9 @@ from calwork.hess.species import parse_species
 __all__ = ["NETWORK_COLUMNS", "OPTIONAL_COLUMNS", "read_network_file"]
 
 NETWORK_COLUMNS = ("id", "equation", "delta_r_H_kJ_per_mol", "u_delta_r_H_kJ_per_mol")
-OPTIONAL_COLUMNS = ("temperature_K", "source", "note", "notes")
+OPTIONAL_COLUMNS = ("temperature_K", "source", "note", "notes", "anchor")
+_YES = ("yes", "true", "1", "y")
+_NO = ("no", "false", "0", "n", "")
 
 
 def _number(value: Any, *, path: Path, line: int | None, column: str, positive: bool = False,
@@ -76,6 +81,19 @@ def _number(value: Any, *, path: Path, line: int | None, column: str, positive: 
         raise ValueCellError("must be > 0", path=path, line=line, column=column,
                              found=value, expected="a standard uncertainty > 0")
     return number
+
+
+def _anchor(fields: Mapping[str, Any], *, path: Path, line: int | None) -> bool:
+    value = fields.get("anchor")
+    if isinstance(value, bool):
+        return value
+    text = "" if value is None else str(value).strip().lower()
+    if text in _YES:
+        return True
+    if text in _NO:
+        return False
+    raise ValueCellError("anchor must be yes or no", path=path, line=line, column="anchor",
+                         found=value, expected="yes, no, true, false, 1, 0 or blank")
 
 
 def _row(fields: Mapping[str, Any], *, path: Path, line: int | None, default_id: str
@@ -124,6 +142,7 @@ def _read_csv(path: Path, text: str) -> Network:
         raise NetworkError(f"unknown column(s) {unknown}", path=path, line=header_line,
                            expected=f"{list(NETWORK_COLUMNS + OPTIONAL_COLUMNS)}")
     rows = []
+    anchors: set[str] = set()
     for (line_no, _), cells in zip(content[1:], reader, strict=True):
         if len(cells) > len(header):
             # an unquoted equation splits at the commas of its states ("C(cr,graphite)");
@@ -143,18 +162,21 @@ def _read_csv(path: Path, text: str) -> Network:
             cells = [*cells[:k], joined, *cells[k + extra + 1:]]
         fields = dict(zip(header, (c.strip() for c in cells), strict=False))
         rows.append(_row(fields, path=path, line=line_no, default_id=f"line{line_no}"))
+        if _anchor(fields, path=path, line=line_no):
+            anchors.add(rows[-1].id)
     if not rows:
         raise NetworkError("network file has no rows", path=path)
     determinations = [r for r in rows if not r.is_single_species]
     priors = [r for r in rows if r.is_single_species]
-    return _network(determinations, priors, {}, {}, path)
+    return _network(determinations, priors, {}, {}, path, anchors)
 
 
-def _network(determinations, priors, covariance, heat, path: Path) -> Network:
+def _network(determinations, priors, covariance, heat, path: Path,
+             anchors: set[str]) -> Network:
     try:
         return Network(determinations=tuple(determinations), priors=tuple(priors),
                        covariance=covariance, heat_capacities=heat, name=path.stem,
-                       source_path=str(path))
+                       source_path=str(path), anchors=frozenset(anchors))
     except CalworkError as exc:
         raise exc.with_context(path=path) from None
 
@@ -176,10 +198,13 @@ def _read_toml(path: Path, text: str) -> Network:
                            expected=f"{sorted(known)}")
     det_lines = _header_lines(text, "determination")
     determinations = []
+    anchors: set[str] = set()
     for i, raw in enumerate(data.get("determination", [])):
         line = det_lines[i] if i < len(det_lines) else None
         r = _row(raw, path=path, line=line, default_id=f"determination{i + 1}")
         determinations.append(r)
+        if _anchor(raw, path=path, line=line):
+            anchors.add(r.id)
     sp_lines = _header_lines(text, "species")
     priors = []
     for i, raw in enumerate(data.get("species", [])):
@@ -187,11 +212,13 @@ def _read_toml(path: Path, text: str) -> Network:
         fields = {"id": raw.get("id") or raw.get("name"), "equation": raw.get("name"),
                   "delta_r_H_kJ_per_mol": raw.get("delta_f_H_kJ_per_mol"),
                   "u_delta_r_H_kJ_per_mol": raw.get("u_delta_f_H_kJ_per_mol"),
-                  "source": raw.get("source")}
+                  "source": raw.get("source"), "anchor": raw.get("anchor")}
         if "=" in str(raw.get("name", "")):
             raise NetworkError("a [[species]] entry names one species", path=path, line=line,
                                column="name", found=raw.get("name"))
         priors.append(_row(fields, path=path, line=line, default_id=f"species{i + 1}"))
+        if _anchor(fields, path=path, line=line):
+            anchors.add(priors[-1].id)
     # single-species determinations are priors too
     priors += [r for r in determinations if r.is_single_species]
     determinations = [r for r in determinations if not r.is_single_species]
@@ -226,7 +253,7 @@ def _read_toml(path: Path, text: str) -> Network:
                                      column="correlation", found=rho)
             cov = rho * by_id[a].u_delta_r_H_kJ_per_mol * by_id[b].u_delta_r_H_kJ_per_mol
         covariance[(a, b)] = cov
-    return _network(determinations, priors, covariance, heat, path)
+    return _network(determinations, priors, covariance, heat, path, anchors)
 
 
 def read_network_file(path: str | Path) -> Network:

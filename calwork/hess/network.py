@@ -26,6 +26,7 @@ import scipy.sparse as sp
 from calwork.constants import T_REF_K
 from calwork.errors import NetworkError, check_choice
 from calwork.hess.diagnostics import (
+    anchor_conflicts,
     consistency,
     inflate_until_consistent,
     residuals,
@@ -63,12 +64,16 @@ class Network:
         sharing a calibration).
     heat_capacities
         Species → heat-capacity model, for determinations at other temperatures.
+    anchors
+        Row ids that the worst-offender procedure never removes or widens (bundled key
+        values are always anchors); a conflict with one is reported as such.
     """
 
     determinations: tuple[Reaction, ...]
     priors: tuple[Reaction, ...] = ()
     covariance: Mapping[tuple[str, str], float] = field(default_factory=dict)
     heat_capacities: Mapping[Species, CpModel] = field(default_factory=dict)
+    anchors: frozenset[str] = frozenset()
     name: str = ""
     source_path: str | None = None
 
@@ -93,6 +98,11 @@ class Network:
         dup = sorted({i for i in ids if ids.count(i) > 1})
         if dup:
             raise NetworkError("row ids must be unique", found=dup)
+        object.__setattr__(self, "anchors", frozenset(str(a) for a in self.anchors))
+        unknown = sorted(self.anchors - set(ids))
+        if unknown:
+            raise NetworkError("anchors name row ids that are not in the network",
+                               found=unknown)
         for r in self.rows:
             if r.delta_r_H_kJ_per_mol is None or r.u_delta_r_H_kJ_per_mol is None:
                 raise NetworkError("every row needs a value and a standard uncertainty",
@@ -167,16 +177,20 @@ def _assemble(network: Network, key_values: bool | KeyValues | None,
                 r = replace(r, delta_r_H_kJ_per_mol=value, temperature_K=T_REF_K)
         rows.append(r)
         kinds.append("prior" if r.is_single_species else "determination")
-    user_given = {next(iter(r.stoichiometry)) for r in rows if r.is_single_species}
+    zero = reference_states()
+    formed = _user_formations(rows, zero)
     table = _key_table(key_values)
     used: list[dict[str, Any]] = []
     if table is not None:
         species = {s for r in rows for s in r.stoichiometry} | set(include)
-        for kv in table.rows_for(sorted(species, key=lambda s: s.name), exclude=user_given):
+        warnings.extend(
+            f"the bundled key value of {fs.name} is not used: the network's own row(s) "
+            f"{', '.join(formed[fs])} give its formation"
+            for fs in sorted(formed, key=lambda s: s.name) if fs in table)
+        for kv in table.rows_for(sorted(species, key=lambda s: s.name), exclude=formed):
             rows.append(kv.row)
             kinds.append("key value")
             used.append(kv.to_dict())
-    zero = reference_states()
     unknowns = sorted({s for r in rows for s in r.stoichiometry if s not in zero},
                       key=lambda s: s.name)
     index = {s: i for i, s in enumerate(unknowns)}
@@ -208,6 +222,27 @@ def _assemble(network: Network, key_values: bool | KeyValues | None,
         u=np.array([r.u_delta_r_H_kJ_per_mol for r in rows], float), offdiag=offdiag,
         key_values_used=used, adjustments=adjustments, warnings=warnings,
     )
+
+
+def _user_formations(rows: Sequence[Reaction], zero: frozenset[Species]
+                     ) -> dict[Species, list[str]]:
+    """Species whose formation the user's rows give, whatever the rows' ids.
+
+    A single-species row, or a reaction whose only species not in a reference state is
+    the one formed (``H2(g) + 1/2 O2(g) = H2O(l)``, at any scale), is a formation
+    determination; it replaces the bundled key value so that one literature value is never
+    counted twice.
+    """
+    out: dict[Species, list[str]] = {}
+    for r in rows:
+        compounds = [s for s in r.stoichiometry if s not in zero]
+        if len(compounds) == 1 and r.stoichiometry[compounds[0]] > 0:
+            out.setdefault(compounds[0], []).append(r.id)
+    return out
+
+
+def _anchor_label(row_id: str) -> str:
+    return f"the key value of {row_id[4:]}" if row_id.startswith("key:") else f"anchor {row_id}"
 
 
 def _subset_solver(asm: _Assembled, method: str, seed: int):
@@ -290,18 +325,37 @@ def solve_network(
     asm = _assemble(network, key_values, allow_unadjusted_temperature, include)
     probe_seed = 20240601
     solver = _subset_solver(asm, method, probe_seed)
-    eligible = set(asm.ids)
-    order = []
+    anchors = {rid for rid, kind in zip(asm.ids, asm.kinds, strict=True)
+               if kind == "key value"} | set(network.anchors)
+    eligible = set(asm.ids) - anchors
+    warnings = list(asm.warnings)
+    order: list = []
+    remaining = []
     if mode != "none":
-        order = worst_offender_order(solver, asm.u, asm.ids, eligible, threshold=threshold,
-                                     max_steps=max_offenders)
+        order, remaining = worst_offender_order(solver, asm.u, asm.ids, eligible,
+                                                threshold=threshold, max_steps=max_offenders)
     u_final, inflations = asm.u, []
     if mode == "inflate":
-        u_final, inflations = inflate_until_consistent(
+        u_final, inflations, converged = inflate_until_consistent(
             solver, asm.u, asm.ids, eligible, threshold=threshold, factor=inflation_factor,
             max_steps=max_steps)
+        if not converged:
+            warnings.append(f"worst-offender-not-converged: after {len(inflations)} widening "
+                            f"steps some determination still has |z| > {threshold:g}")
     sol = solve_wls(asm.a, asm.y, u_final, asm.offdiag, method=method, seed=probe_seed)
     recs = residuals(asm.ids, asm.kinds, asm.equations, asm.y, u_final, sol)
+    for step in (*order, *inflations):
+        if step.conflicts_with:
+            text = (f"determination {step.id} conflicts with "
+                    + ", ".join(_anchor_label(a) for a in step.conflicts_with)
+                    + ": the data cannot say which is wrong, and anchors are never adjusted")
+            if text not in warnings:
+                warnings.append(text)
+    if mode == "inflate":
+        warnings.extend(anchor_conflicts(recs, anchors, threshold))
+    elif mode == "report":
+        # judged without the named offenders: an anchor still off then is a real conflict
+        warnings.extend(anchor_conflicts(remaining, anchors, threshold))
     cons = consistency(sol, len(asm.ids))
     names = [s.name for s in asm.unknowns]
     n = len(names)
@@ -346,7 +400,7 @@ def solve_network(
         residuals=tuple(recs), worst_offenders=tuple(order), inflations=tuple(inflations),
         monte_carlo=mc, coverage_factor=coverage_factor, method=sol.method,
         key_values_used=tuple(asm.key_values_used),
-        temperature_adjustments=asm.adjustments, warnings=tuple(asm.warnings),
+        temperature_adjustments=asm.adjustments, warnings=tuple(warnings),
         solution=sol, unknowns=tuple(asm.unknowns),
     )
 

@@ -274,9 +274,8 @@ class NetworkResult:
         lines += ["", (f"χ² = {self.chi2:.4g}, ν = {self.dof}, p = {p}, Birge ratio = {rb} "
                       f"(method: {self.method})")]
         if self.worst_offenders:
-            lines.append("worst offenders (removal order): " + ", ".join(
-                f"{o.id} (|z| {o.score:.2f}, χ² {o.chi2_before:.3g} → {o.chi2_after:.3g})"
-                for o in self.worst_offenders))
+            lines.append("worst offenders (removal order): " + "; ".join(
+                o.describe() for o in self.worst_offenders))
         for inf in self.inflations:
             lines.append(f"inflated u of {inf.id}: {inf.old_u_kJ_per_mol:.4g} → "
                          f"{inf.new_u_kJ_per_mol:.4g} kJ/mol (step {inf.step})")
