@@ -218,6 +218,10 @@ class FitError(CalworkError, RuntimeError):
     """A least-squares fit did not converge or gave no usable covariance."""
 
 
+class ConvergenceError(FitError):
+    """An iterative solver did not converge within its iteration limit."""
+
+
 class UncertaintyError(CalworkError, ArithmeticError):
     """An uncertainty could not be propagated (never reported as zero instead)."""
 

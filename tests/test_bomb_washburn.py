@@ -47,8 +47,10 @@ def test_benzoic_acid_standard_bomb_conditions():
     target = (-3226.87e3 + 0.5 * RT) / M_BA
     assert target == pytest.approx(-26413.0, abs=0.5)
     corr = per_gram()
-    assert corr == pytest.approx(21.0, abs=3.0)          # METHODS §3.3: ≈ +21 J/g
-    assert -26434.0 + corr == pytest.approx(target, abs=3.0)
+    # the correction the published ΔcH° implies is +21.0 J/g; within 0.5 J/g (the check of
+    # tests/test_bomb_virial_reference.py against GERG-2008 explains the remaining 0.4 J/g)
+    assert corr == pytest.approx(21.0, abs=0.5)
+    assert -26434.0 + corr == pytest.approx(target, abs=0.5)
 
 
 def test_jessup_coefficients_from_first_principles():

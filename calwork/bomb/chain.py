@@ -235,6 +235,8 @@ def _bomb_model(info: Any, cond: BombConditions, combustibles: list[Combustible]
             nitric_acid_mol=n_hno3, soot_g=soot_g, states=(initial, final),
         )
         details["washburn_terms_J"] = dict(wb.terms_J)
+        details["washburn_u_J"] = wb.u_correction_J
+        details["washburn_u_components_J"] = dict(wb.u_components_J)
     return referral, T_REF_K, wb
 
 

@@ -179,8 +179,9 @@ def sample_series(
     standard = u_standard = None
     if all(r.standard_massic_energy_J_per_g is not None for r in runs):
         standard = float(np.mean([r.standard_massic_energy_J_per_g for r in runs]))
-        w = sum(abs(r.washburn_J) * rel["washburn"] /
-                r.details["mass_vacuum_g"] for r in runs) / n
+        # the correction's own u (cross-virial model spread, virial and property data):
+        # systematic, the same for every run of the series, so averaged, not reduced by √n
+        w = sum(r.details["washburn_u_J"] / r.details["mass_vacuum_g"] for r in runs) / n
         shared[("washburn",)] = w
         budget["washburn_J_per_g"] = w
         u_standard = math.sqrt(u_bomb**2 + w * w)

@@ -29,15 +29,21 @@ Property data: ``washburn_properties.toml`` (sources there).
 
 from __future__ import annotations
 
+import math
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from types import MappingProxyType
 from typing import Any
 
-from calwork.bomb.gases import fugacity_coefficients, mixture_virial_m3_per_mol
+from calwork.bomb.gases import (
+    CROSS_MODELS,
+    RECOMMENDED_CROSS_MODEL,
+    fugacity_coefficients,
+    mixture_virial_m3_per_mol,
+)
 from calwork.constants import T_REF_K, R_J_per_mol_K, STANDARD_PRESSURE_Pa
 from calwork.data import load_data
-from calwork.errors import RunError
+from calwork.errors import ConvergenceError, RunError, UncertaintyError
 from calwork.formula import element_counts, molar_mass_g_per_mol
 from calwork.results import jsonable
 
@@ -161,25 +167,38 @@ def _vapour_mol(gas_volume_m3: float, pressure_Pa: float, temperature_K: float) 
     rt = R_J_per_mol_K * temperature_K
     v_l = w["molar_mass_g_per_mol"] / w["density_g_per_cm3"] * 1e-6
     p_star = w["vapour_pressure_Pa"]
-    poynting = pow(2.718281828459045, v_l * (pressure_Pa - p_star) / rt)
+    poynting = math.exp(v_l * (pressure_Pa - p_star) / rt)
     return poynting * p_star * gas_volume_m3 / rt
 
 
+_MAX_ITERATIONS = 100
+
+
 def _partition(
-    totals: Mapping[str, float], gas_volume_m3: float, liquid_kg: float, temperature_K: float
+    totals: Mapping[str, float], gas_volume_m3: float, liquid_kg: float, temperature_K: float,
+    cross_model: str = RECOMMENDED_CROSS_MODEL,
 ) -> tuple[dict[str, float], dict[str, float], float, dict[str, float]]:
-    """Split gas totals between the gas phase (virial) and the water (Henry), by iteration."""
+    """Split gas totals between the gas phase (virial) and the water (Henry), by iteration.
+
+    Raises :class:`ConvergenceError` if the fixed point is not reached within
+    ``_MAX_ITERATIONS`` (it normally takes 4–6: dissolved amounts are ~1 % of the gas).
+    """
     gases = _props()["gases"]
     rt = R_J_per_mol_K * temperature_K
     aq = dict.fromkeys(totals, 0.0)
     gas = dict(totals)
     p = phi = None
-    for _ in range(100):
+    change = math.inf
+    for _ in range(_MAX_ITERATIONS):
         n = sum(gas.values())
         y = {k: v / n for k, v in gas.items()}
-        B, _ = mixture_virial_m3_per_mol(y, temperature_K)
+        B, _ = mixture_virial_m3_per_mol(y, temperature_K, cross_model)
+        if not gas_volume_m3 - n * B > 0:
+            raise RunError("the gas amount is beyond the virial model (pressure far too high)",
+                           column="o2_pressure_MPa", expected="a bomb pressure of a few MPa")
         p = n * rt / (gas_volume_m3 - n * B)
-        phi = fugacity_coefficients(y, p, temperature_K, names=list(totals))
+        phi = fugacity_coefficients(y, p, temperature_K, names=list(totals),
+                                    cross_model=cross_model)
         new_aq = {
             k: gases[k]["henry_mol_per_kg_bar"] * phi[k] * y[k] * p / _BAR_Pa * liquid_kg
             for k in totals
@@ -188,8 +207,10 @@ def _partition(
         change = max(abs(new_aq[k] - aq[k]) for k in totals)
         aq, gas = new_aq, new_gas
         if change <= 1e-15 + 1e-12 * max(aq.values(), default=0.0):
-            break
-    return gas, aq, float(p), dict(phi)
+            return gas, aq, float(p), dict(phi)
+    raise ConvergenceError("gas/water partition of the bomb gas did not converge",
+                           found=f"last change {change:.3g} mol after {_MAX_ITERATIONS} "
+                                 "iterations")
 
 
 def bomb_states(
@@ -201,6 +222,7 @@ def bomb_states(
     nitric_acid_mol: float = 0.0,
     soot_g: float = 0.0,
     temperature_K: float = T_REF_K,
+    cross_model: str = RECOMMENDED_CROSS_MODEL,
 ) -> tuple[BombState, BombState]:
     """Initial and final states of the bomb contents at ``temperature_K``.
 
@@ -220,11 +242,15 @@ def bomb_states(
         Unburnt carbon found after the run, g.
     temperature_K
         Reference temperature, K.
+    cross_model
+        Cross-virial model (:data:`calwork.bomb.gases.CROSS_MODELS`).
 
     Raises
     ------
     RunError
         If the bomb holds too little oxygen for the combustion, or volumes are not physical.
+    ConvergenceError
+        If the gas/water partition or the vapour–volume iteration does not converge.
     """
     w = _water()
     rt = R_J_per_mol_K * temperature_K
@@ -239,6 +265,10 @@ def bomb_states(
             found=bomb_volume_L, expected="a bomb volume in L much larger than the contents",
         )
     B_O2, _ = mixture_virial_m3_per_mol({"O2": 1.0}, temperature_K)
+    if not rt + B_O2 * p_i > 0.5 * rt:
+        raise RunError("oxygen pressure far outside the virial model's range",
+                       column="o2_pressure_MPa", found=o2_pressure_MPa,
+                       expected="a bomb charging pressure of a few MPa")
     n_o2_gas = p_i * vg_i / (rt + B_O2 * p_i)
     M_w = w["molar_mass_g_per_mol"]
     vap_i = _vapour_mol(vg_i, p_i, temperature_K) if bomb_water_g > 0 else 0.0
@@ -255,7 +285,8 @@ def bomb_states(
 
     # element balances: C -> CO2 (less soot), N -> N2 (less HNO3), S -> H2SO4, H -> H2O
     el = {s: sum(c.element_mol(s) for c in combustibles) for s in "CHONS"}
-    n_soot = soot_g / 12.011
+    soot = load_data("bomb_corrections.toml")["soot"]
+    n_soot = soot_g / molar_mass_g_per_mol("C")
     n_co2 = el["C"] - n_soot
     n_s = el["S"]
     n_hno3 = nitric_acid_mol
@@ -276,12 +307,22 @@ def bomb_states(
     if n_n2 > 0:
         totals["N2"] = n_n2
     # liquid volume: the water (acids ignored); iterate the vapour amount with the volume
+    # (a contraction: the vapour is ~1e-3 of the water, so two or three passes suffice)
     vap_f = vap_i
-    for _ in range(3):
+    soot_m3 = soot_g / float(soot["density_g_per_cm3"]) * 1e-6
+    for _ in range(_MAX_ITERATIONS):
         liq_f_g = water_f * M_w - vap_f * M_w
-        vg_f = V - liq_f_g / w["density_g_per_cm3"] * 1e-6 - n_soot * 12.011 / 2.0 * 1e-6
-        gas, aq, p_f, phi = _partition(totals, vg_f, liq_f_g / 1000, temperature_K)
-        vap_f = _vapour_mol(vg_f, p_f, temperature_K)
+        vg_f = V - liq_f_g / w["density_g_per_cm3"] * 1e-6 - soot_m3
+        gas, aq, p_f, phi = _partition(totals, vg_f, liq_f_g / 1000, temperature_K,
+                                       cross_model)
+        new_vap = _vapour_mol(vg_f, p_f, temperature_K)
+        converged = abs(new_vap - vap_f) <= 1e-12 * max(vap_f, 1e-300) + 1e-18
+        vap_f = new_vap
+        if converged:
+            break
+    else:
+        raise ConvergenceError("water vapour / gas volume of the final bomb state did not "
+                               "converge", found=f"{_MAX_ITERATIONS} iterations")
     final = BombState(
         label="final", temperature_K=temperature_K, gas_mol=gas, dissolved_mol=aq,
         water_vapour_mol=vap_f, water_liquid_g=liq_f_g, gas_volume_m3=vg_f, pressure_Pa=p_f,
@@ -290,14 +331,15 @@ def bomb_states(
     return initial, final
 
 
-def state_departure_J(state: BombState) -> dict[str, float]:
+def state_departure_J(state: BombState, cross_model: str = RECOMMENDED_CROSS_MODEL
+                      ) -> dict[str, float]:
     """``U − U°`` of a bomb state by term, J (gas, dissolved, vapour, compression)."""
     props = _props()
     T = state.temperature_K
     rt = R_J_per_mol_K * T
     n = sum(state.gas_mol.values())
     y = {k: v / n for k, v in state.gas_mol.items()}
-    _, dB = mixture_virial_m3_per_mol(y, T)
+    _, dB = mixture_virial_m3_per_mol(y, T, cross_model)
     gas = -n * state.pressure_Pa * T * dB
     dissolved = sum(
         n_aq * (props["gases"][k]["solution_enthalpy_kJ_per_mol"] * 1e3 + rt)
@@ -321,26 +363,42 @@ class WashburnResult:
     """
 
     correction_J: float
+    #: standard uncertainty (k = 1) of ``correction_J``, from ``u_components_J``
+    u_correction_J: float
+    #: independent standard-uncertainty components, J: the cross-virial model (spread
+    #: between the two GERG-2008 fits), pure-gas virial data, other property data
+    u_components_J: Mapping[str, float]
     terms_J: Mapping[str, float]
     initial: BombState
     final: BombState
     temperature_K: float
+    cross_model: str = RECOMMENDED_CROSS_MODEL
     notes: tuple[str, ...] = ()
     source: str = ""
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "terms_J", MappingProxyType(dict(self.terms_J)))
+        object.__setattr__(self, "u_components_J",
+                           MappingProxyType(dict(self.u_components_J)))
+        u = self.u_correction_J
+        if not (math.isfinite(u) and u > 0):
+            raise UncertaintyError("the Washburn correction's uncertainty is not positive",
+                                   found=u)
 
     def to_dict(self) -> dict[str, Any]:
         return {
-            "correction_J": self.correction_J, "terms_J": dict(self.terms_J),
+            "correction_J": self.correction_J, "u_correction_J": self.u_correction_J,
+            "u_components_J": dict(self.u_components_J), "cross_model": self.cross_model,
+            "terms_J": dict(self.terms_J),
             "initial": self.initial.to_dict(), "final": self.final.to_dict(),
             "temperature_K": self.temperature_K, "notes": list(self.notes),
             "source": self.source,
         }
 
     def report(self) -> str:
-        lines = [f"Standard-state correction ΔU_Σ = {self.correction_J:+.3f} J"]
+        head = (f"Standard-state correction ΔU_Σ = {self.correction_J:+.3f} J, "
+                f"u = {self.u_correction_J:.3f} J")
+        lines = [head]
         lines += [f"  {k:<22} {v:+10.3f} J" for k, v in self.terms_J.items()]
         lines.append(
             f"  initial p = {self.initial.pressure_Pa / 1e6:.4f} MPa, "
@@ -377,7 +435,7 @@ def washburn_correction(
     Examples
     --------
     Benzoic acid under the certificate's standard bomb conditions (1 L, 3 g, 3 g water,
-    30 atm): about +21 J/g (METHODS.md §3.3).
+    30 atm): about +21 J/g (docs/methods.md §3.3).
 
     >>> ba = Combustible.from_formula("sample", "C7H6O2", 3.0, density_g_per_cm3=1.32)
     >>> r = washburn_correction([ba], bomb_volume_L=1.0, o2_pressure_MPa=3.03975,
@@ -385,17 +443,39 @@ def washburn_correction(
     >>> 18 < r.correction_J / 3.0 < 26
     True
     """
-    initial, final = states or bomb_states(
-        combustibles, bomb_volume_L=bomb_volume_L, o2_pressure_MPa=o2_pressure_MPa,
-        bomb_water_g=bomb_water_g, nitric_acid_mol=nitric_acid_mol, soot_g=soot_g,
-        temperature_K=temperature_K,
-    )
-    di = state_departure_J(initial)
-    df = state_departure_J(final)
-    terms = {f"{k}_initial": v for k, v in di.items()}
-    terms.update({f"{k}_final": -v for k, v in df.items()})
+    kwargs = {"bomb_volume_L": bomb_volume_L, "o2_pressure_MPa": o2_pressure_MPa,
+              "bomb_water_g": bomb_water_g, "nitric_acid_mol": nitric_acid_mol,
+              "soot_g": soot_g, "temperature_K": temperature_K}
+    initial, final = states or bomb_states(combustibles, **kwargs)
+    terms = _terms(initial, final, RECOMMENDED_CROSS_MODEL)
+    correction = sum(terms.values())
+    # the cross-virial model: the other GERG-2008 fit, everything else the same; the two
+    # bracket the reference model, so the difference is the half-width of a rectangular
+    # distribution (u = |Δ|/√3)
+    spread = 0.0
+    for other in CROSS_MODELS:
+        if other != RECOMMENDED_CROSS_MODEL:
+            alt = bomb_states(combustibles, **kwargs, cross_model=other)
+            spread = max(spread, abs(sum(_terms(*alt, other).values()) - correction))
+    rel = _props()["uncertainty_relative"]
+    gas_net = terms["gas_initial"] + terms["gas_final"]
+    other_net = correction - gas_net
+    components = {
+        "cross_virial_model": spread / math.sqrt(3.0),
+        "pure_gas_virial": abs(gas_net) * float(rel["pure_gas_virial"]),
+        "other_property_data": abs(other_net) * float(rel["other_terms"]),
+    }
+    u = math.sqrt(sum(v * v for v in components.values()))
     return WashburnResult(
-        correction_J=sum(terms.values()), terms_J=terms, initial=initial, final=final,
-        temperature_K=temperature_K, notes=NOTES,
+        correction_J=correction, u_correction_J=u, u_components_J=components, terms_J=terms,
+        initial=initial, final=final, temperature_K=temperature_K, notes=NOTES,
         source=_props()["source"]["citation"],
     )
+
+
+def _terms(initial: BombState, final: BombState, cross_model: str) -> dict[str, float]:
+    di = state_departure_J(initial, cross_model)
+    df = state_departure_J(final, cross_model)
+    terms = {f"{k}_initial": v for k, v in di.items()}
+    terms.update({f"{k}_final": -v for k, v in df.items()})
+    return terms
