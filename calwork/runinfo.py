@@ -58,6 +58,7 @@ EXTENSION_COLUMNS: dict[str, type] = {
     "operator": str,
     "mass_basis": str,                 # 'vacuum' (default) or 'air' (apply buoyancy)
     "sample_density_g_per_cm3": float, # for buoyancy and the bomb gas volume
+    "u_certified_J_per_g": float,      # standard uncertainty (k = 1) of certified_J_per_g
     "fuse_material": str,              # 'iron', 'nickel-chromium', 'platinum', 'cotton'...
     "fuse_mass_g": float,
     "soot_g": float,                   # unburnt carbon found after the run
@@ -122,6 +123,7 @@ class RunInfo:
     operator: str | None = None
     mass_basis: str | None = None
     sample_density_g_per_cm3: float | None = None
+    u_certified_J_per_g: float | None = None
     fuse_material: str | None = None
     fuse_mass_g: float | None = None
     soot_g: float | None = None

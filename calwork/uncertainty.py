@@ -35,6 +35,7 @@ __all__ = [
     "propagate",
     "propagate_linear",
     "standard_uncertainty",
+    "variance_component",
     "welch_satterthwaite",
 ]
 
@@ -82,6 +83,29 @@ def standard_uncertainty(variance: float, *, name: str = "result") -> float:
         raise UncertaintyError(f"propagated uncertainty of {name} is zero: an input "
                                "uncertainty is missing", found=v)
     return math.sqrt(v)
+
+
+#: Relative size below which a negative computed variance is rounding error of a zero one.
+ROUNDING_RTOL = 1e-10
+
+
+def variance_component(variance: float, *, magnitude: float, name: str = "component") -> float:
+    """A variance that may legitimately be zero (one component of a budget), checked.
+
+    ``magnitude`` is the size of the terms whose sum gave ``variance`` (e.g. ``|g|ᵀ|Σ||g|``
+    for a quadratic form, or the larger of two variances subtracted). A negative value within
+    :data:`ROUNDING_RTOL` of it is the rounding error of a zero variance and returns 0; a
+    clearly negative or non-finite variance raises — it is never clamped.
+    """
+    v = float(variance)
+    if not math.isfinite(v):
+        raise UncertaintyError(f"variance of {name} is not finite", found=v)
+    if v < 0:
+        if v < -ROUNDING_RTOL * abs(float(magnitude)):
+            raise UncertaintyError(f"variance of {name} is negative", found=v,
+                                   expected="a non-negative variance")
+        return 0.0
+    return v
 
 
 def propagate_linear(jacobian: np.ndarray, covariance: np.ndarray) -> np.ndarray:

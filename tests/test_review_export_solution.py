@@ -70,9 +70,26 @@ def _q_vap_J(volume_mL: float, T_K: float) -> float:
     return p * volume_mL * 1e-6 / (R_J_per_mol_K * T_K) * dH
 
 
+def _A_H_by_hand(T_K: float) -> float:
+    """A_H = 4RT² dA_φ/dT with A_φ = (1/3)(2πN_Aρ)^½ (e²/4πε0 ε_r kT)^{3/2} (Pitzer 1991),
+    ρ from IAPWS-95 and ε_r from the IAPWS 1997 release (both via chemicals)."""
+    from chemicals.iapws import iapws95_properties
+    from chemicals.permittivity import permittivity_IAPWS
+
+    def a_phi(T):
+        rho = iapws95_properties(T, 101325.0)[0]
+        eps = permittivity_IAPWS(T, rho)
+        e, eps0, k, n_a = 1.602176634e-19, 8.8541878128e-12, 1.380649e-23, 6.02214076e23
+        return math.sqrt(2 * math.pi * n_a * rho) / 3 * (
+            e * e / (4 * math.pi * eps0 * eps * k * T)) ** 1.5
+
+    h = 0.05
+    return 4 * R_J_per_mol_K * T_K**2 * (a_phi(T_K + h) - a_phi(T_K - h)) / (2 * h)
+
+
 def _phi_L_kcl_J_per_mol(m: float, T_K: float) -> float:
     d = load_data("solution_properties.toml")
-    A_H = d["debye_huckel"]["A_H_J_kg05_per_mol15"]
+    A_H = _A_H_by_hand(T_K)
     b, alpha = d["debye_huckel"]["b_kg05_per_mol05"], d["debye_huckel"]["alpha_kg05_per_mol05"]
     k = d["pitzer"]["KCl"]
     x = alpha * math.sqrt(m)

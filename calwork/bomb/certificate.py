@@ -13,6 +13,7 @@ codes require, and fire it only from behind a shield.
 
 from __future__ import annotations
 
+import math
 from collections.abc import Mapping
 from dataclasses import dataclass, field
 from types import MappingProxyType
@@ -75,22 +76,52 @@ class ReferenceMaterial:
     def __post_init__(self) -> None:
         for name in ("standard_conditions", "jessup_ppm"):
             object.__setattr__(self, name, MappingProxyType(dict(getattr(self, name))))
+        u = self.u_certified_J_per_g
+        if not (math.isfinite(u) and u > 0):
+            raise CalibrationError("the certified value needs a standard uncertainty > 0",
+                                   column="u_certified_J_per_g", found=u,
+                                   expected="the certificate's standard uncertainty in J/g")
+
+    @property
+    def has_condition_factor(self) -> bool:
+        """True when the certificate gives standard conditions and Jessup-type coefficients."""
+        return bool(self.jessup_ppm) and bool(self.standard_conditions)
+
+    @classmethod
+    def sheet_certified(cls, name: str, formula: str, certified_J_per_g: float,
+                        u_certified_J_per_g: float, *, phase: str = "cr",
+                        density_g_per_cm3: float, heat_capacity_J_per_g_K: float
+                        ) -> ReferenceMaterial:
+        """A material calwork has no certificate for, exactly as the run sheet gives it.
+
+        No certificate-condition factor is applied (``jessup_ppm`` empty): the certified
+        value is used as given.
+        """
+        return cls(name=name, formula=formula, phase=phase,
+                   certified_J_per_g=abs(float(certified_J_per_g)),
+                   u_certified_J_per_g=float(u_certified_J_per_g),
+                   density_g_per_cm3=density_g_per_cm3,
+                   heat_capacity_J_per_g_K=heat_capacity_J_per_g_K,
+                   source="certified value and its uncertainty from the run sheet")
 
     @property
     def u_relative(self) -> float:
         """Relative standard uncertainty of the certified value."""
         return self.u_certified_J_per_g / self.certified_J_per_g
 
-    def with_certified(self, certified_J_per_g: float) -> ReferenceMaterial:
+    def with_certified(self, certified_J_per_g: float,
+                       u_certified_J_per_g: float | None = None) -> ReferenceMaterial:
         """The same material with another certified value (a sheet's ``certified_J_per_g``).
 
-        The relative standard uncertainty of the bundled certificate is kept (the sheet does
-        not give one).
+        Without ``u_certified_J_per_g`` the relative standard uncertainty of the bundled
+        certificate is kept (the caller warns that it was assumed).
         """
         value = abs(float(certified_J_per_g))
+        u = value * self.u_relative if u_certified_J_per_g is None else float(
+            u_certified_J_per_g)
         return ReferenceMaterial(
             name=self.name, formula=self.formula, phase=self.phase,
-            certified_J_per_g=value, u_certified_J_per_g=value * self.u_relative,
+            certified_J_per_g=value, u_certified_J_per_g=u,
             density_g_per_cm3=self.density_g_per_cm3,
             heat_capacity_J_per_g_K=self.heat_capacity_J_per_g_K,
             standard_conditions=self.standard_conditions, jessup_ppm=self.jessup_ppm,
@@ -219,6 +250,8 @@ def certified_massic_energy_J_per_g(
     ...       sample_g_per_L=2.924, water_g_per_L=2.924, temperature_K=298.15), 2)
     26431.21
     """
+    if not material.has_condition_factor:
+        return material.certified_J_per_g
     f = jessup_factor(
         o2_pressure_MPa, sample_g_per_L, water_g_per_L, temperature_K, material=material
     )

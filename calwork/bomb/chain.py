@@ -44,8 +44,8 @@ from calwork.bomb.corrections import (
 from calwork.bomb.washburn import Combustible, bomb_states, washburn_correction
 from calwork.constants import CELSIUS_ZERO_K, T_REF_K, STANDARD_ATMOSPHERE_Pa
 from calwork.data import load_data
-from calwork.errors import CalworkError, RunError, check_choice
-from calwork.formula import element_counts
+from calwork.errors import CalibrationError, CalworkError, RunError, check_choice
+from calwork.formula import element_counts, molar_mass_g_per_mol
 from calwork.results import CalibrationResult, RunResult
 
 __all__ = ["BombConditions", "bomb_conditions", "reduce_calibration_run",
@@ -257,28 +257,74 @@ def _extras(details: dict, combustibles: list[Combustible]) -> None:
             heat_capacity_J_per_g_K=props["auxiliary"]["heat_capacity_J_per_g_K"]))
 
 
+def calibration_material(info: Any, warnings: list[str]) -> ReferenceMaterial:
+    """The reference material of a calibration row: a bundled certificate, or exactly the
+    sheet's certified value — never another material's data (warnings say what was used)."""
+    name = info.reference_material
+    certified = info.certified_J_per_g
+    if name is None and certified is None:
+        raise RunError("a calibration run needs its reference material",
+                       column="reference_material", found=None, expected="e.g. 'benzoic acid'")
+    known = name is None or _key_known(name)
+    if known:
+        material = load_reference_material(name or "benzoic acid")
+        if name is None:
+            warnings.append("reference-material-assumed: no reference_material given; the "
+                            f"certified value is taken as {material.name}'s")
+        if certified is None:
+            return material
+        if info.u_certified_J_per_g is None:
+            warnings.append(
+                f"certificate-u-assumed: no u_certified_J_per_g; the relative standard "
+                f"uncertainty of the bundled {material.name} certificate "
+                f"({material.u_relative * 1e6:.0f} ppm) is used for the sheet's value")
+        return material.with_certified(_positive(abs(float(certified)), "certified_J_per_g"),
+                                       info.u_certified_J_per_g)
+    if certified is None:
+        return load_reference_material(name)  # raises: unknown, with the known names
+    if info.u_certified_J_per_g is None:
+        raise RunError("a reference material calwork has no certificate for needs the "
+                       "certificate's standard uncertainty", column="u_certified_J_per_g",
+                       found=None, expected=f"u of {name}'s certified value in J/g")
+    if not info.formula:
+        raise RunError("a reference material calwork has no certificate for needs its "
+                       "formula (for the bomb contents)", column="formula", found=None,
+                       expected=f"the chemical formula of {name}")
+    cond = load_data("washburn_properties.toml")["condensed"]
+    key = "l" if (info.phase or "cr").lower().startswith("l") else "cr"
+    density = info.sample_density_g_per_cm3
+    if density is None:
+        density = float(cond["density_g_per_cm3"][key])
+        warnings.append(f"density-assumed: {name}: typical condensed-phase density "
+                        f"{density} g/cm³ used for the bomb gas volume")
+    warnings.append(f"reference-material-not-bundled: {name} reduced with the sheet's "
+                    f"certified value {abs(certified):g} J/g as given; no "
+                    "certificate-condition (Jessup-type) factor applied")
+    return ReferenceMaterial.sheet_certified(
+        name, info.formula, certified, info.u_certified_J_per_g, phase=info.phase or "cr",
+        density_g_per_cm3=density,
+        heat_capacity_J_per_g_K=float(cond["heat_capacity_J_per_g_K"][key]))
+
+
+def _key_known(name: str) -> bool:
+    try:
+        load_reference_material(name)
+    except CalibrationError:
+        return False
+    return True
+
+
 def reduce_calibration_run(info: Any, rise: Any, *,
                            material: ReferenceMaterial | None = None) -> RunResult:
     """Energy equivalent ε(calor) from one reference-material run (errors raised)."""
+    warnings: list[str] = []
     if material is None:
-        if info.reference_material is None and info.certified_J_per_g is None:
-            raise RunError("a calibration run needs its reference material",
-                           column="reference_material", found=None,
-                           expected="e.g. 'benzoic acid'")
-        try:
-            material = load_reference_material(info.reference_material or "benzoic acid")
-        except CalworkError:
-            if info.certified_J_per_g is None:
-                raise
-            material = load_reference_material("benzoic acid")
-        if info.certified_J_per_g is not None:
-            _positive(abs(float(info.certified_J_per_g)), "certified_J_per_g")
-            material = material.with_certified(info.certified_J_per_g)
+        material = calibration_material(info, warnings)
     details: dict[str, Any] = {"reference_material": material.name,
                                "certified_J_per_g": material.certified_J_per_g,
                                "u_certificate_relative": material.u_relative,
-                               "certificate_source": material.source}
-    warnings: list[str] = []
+                               "certificate_source": material.source,
+                               "certificate_condition_factor": material.has_condition_factor}
     density = info.sample_density_g_per_cm3 or material.density_g_per_cm3
     mass = _vacuum_mass(info, density, details, warnings)
     dT, u_dT, Ti = _rise_numbers(rise)
@@ -296,6 +342,8 @@ def reduce_calibration_run(info: Any, rise: Any, *,
     if cond.complete:
         V = cond.bomb_volume_L
         s_per_L, w_per_L = mass / V, cond.bomb_water_g / V
+    elif not material.has_condition_factor:
+        s_per_L = w_per_L = math.nan  # not used: no certificate-condition factor
     else:
         s_per_L = material.standard_conditions["sample_g_per_L"]
         w_per_L = material.standard_conditions["water_g_per_L"]
@@ -358,7 +406,7 @@ def reduce_combustion_run(info: Any, rise: Any, calibration: CalibrationResult |
     check_choice("sulfur_convention", convention, SULFUR_CONVENTIONS)
     water_per_s = None
     if n_s > 0 and cond.complete:
-        water_per_s = (cond.bomb_water_g / 18.015) / n_s
+        water_per_s = (cond.bomb_water_g / molar_mass_g_per_mol("H2O")) / n_s
     corr, u_corr, n_hno3, fuel = _corrections(info, sulfur_mol=n_s, convention=convention,
                                               water_per_s=water_per_s, details=details)
     combustibles: list[Combustible] = []
@@ -369,6 +417,9 @@ def reduce_combustion_run(info: Any, rise: Any, calibration: CalibrationResult |
     else:
         # no formula: the products are unknown; the sample is treated as (CH2)n for the bomb
         # gas (contents only; no standard-state values without a formula)
+        warnings.append(f"formula-assumed: no formula for sample {info.sample!r}; the bomb "
+                        "contents (gas amounts for the contents' energy equivalent) are "
+                        "computed as if it were (CH2)n; no standard-state or formation values")
         combustibles.append(Combustible.from_formula(
             "sample", "CH2", mass, phase=info.phase or "cr",
             density_g_per_cm3=info.sample_density_g_per_cm3))

@@ -32,6 +32,7 @@ from calwork.bomb.fuels import fuel_outputs
 from calwork.data import load_data
 from calwork.errors import CalworkError, UncertaintyError
 from calwork.results import CalibrationResult, RunResult, SampleResult
+from calwork.uncertainty import variance_component
 
 __all__ = [
     "SampleTerms",
@@ -48,8 +49,10 @@ def calibration_series(
 ) -> CalibrationResult:
     """The energy equivalent of ``calorimeter`` from its successful calibration runs.
 
-    ``u_energy_equivalent_J_per_K`` combines the standard deviation of the mean with the
-    certificate's relative standard uncertainty; both are in ``budget`` separately. With a
+    ``u_energy_equivalent_J_per_K`` combines the standard deviation of the mean, the
+    certificate's relative standard uncertainty and the correction constants (systematic);
+    each is in ``budget`` separately (the sample budgets use them separately, with their
+    correlations). With a
     single run the propagated rise uncertainty stands in for the scatter (and a warning says
     so).
     """
@@ -70,21 +73,26 @@ def calibration_series(
     if not sdm or not math.isfinite(sdm) or sdm <= 0:
         raise UncertaintyError(f"calorimeter {calorimeter!r}: the scatter of ε is zero",
                                found=sdm, expected="a positive standard deviation")
-    u_r_cert = float(np.mean([r.details.get("u_certificate_relative", 0.0) for r in ok]))
+    u_r_cert = float(np.mean([r.details["u_certificate_relative"] for r in ok]))
     u_cert = st.mean * u_r_cert
     names_k = sorted({k for r in ok for k in r.corrections_J})
     per_rise = {k: float(np.mean([r.corrections_J.get(k, 0.0) / r.corrected_rise_K
                                   for r in ok])) for k in names_k}
+    # the correction constants (fuse J/cm, ΔfU(HNO3), the ignition estimate…): a relative
+    # error r_k moves every run's ε by r_k C_k/ΔT, so the mean by r_k·mean(C_k/ΔT) (systematic)
+    rel = load_data("bomb_corrections.toml")["uncertainty_relative"]
+    u_corr = math.sqrt(sum((float(rel[k]) * per_rise[k]) ** 2 for k in names_k))
     materials = sorted({str(r.details.get("reference_material")) for r in ok})
     certs = sorted({float(r.details.get("certified_J_per_g", math.nan)) for r in ok})
     return CalibrationResult(
         calorimeter=calorimeter, energy_equivalent_J_per_K=st.mean,
-        u_energy_equivalent_J_per_K=math.hypot(sdm, u_cert), n_runs=st.n,
+        u_energy_equivalent_J_per_K=math.sqrt(sdm**2 + u_cert**2 + u_corr**2), n_runs=st.n,
         rsd_percent=math.nan if st.rsd_percent is None else st.rsd_percent,
         std_dev_J_per_K=math.nan if st.std_dev is None else st.std_dev,
         std_dev_of_mean_J_per_K=sdm, runs=names, values_J_per_K=values,
         method="reference-material: " + ", ".join(materials),
         budget={"std_dev_of_mean_J_per_K": sdm, "certificate_J_per_K": u_cert,
+                "corrections_J_per_K": u_corr,
                 "certificate_relative": u_r_cert, "certified_J_per_g": certs[0]
                 if len(certs) == 1 else math.nan,
                 "rsd_limit_percent": math.nan if rsd_limit_percent is None
@@ -314,8 +322,10 @@ def formation_enthalpies(
                                      "matrix": links.covariance.tolist()})
             for i, link in zip(batch, links.links, strict=True):
                 budget = dict(out[i].budget)
-                budget["key_values_kJ_per_mol"] = math.sqrt(max(
-                    link.u_delta_f_H_kJ_per_mol**2 - link.u_delta_c_H_kJ_per_mol**2, 0.0))
+                # the key values' share of u(Δ_fH°): u_f² − u_c² (the two are independent)
+                budget["key_values_kJ_per_mol"] = math.sqrt(variance_component(
+                    link.u_delta_f_H_kJ_per_mol**2 - link.u_delta_c_H_kJ_per_mol**2,
+                    magnitude=link.u_delta_f_H_kJ_per_mol**2, name="key-value component"))
                 budget["u_delta_c_H_kJ_per_mol"] = link.u_delta_c_H_kJ_per_mol
                 budget["u_delta_f_H_kJ_per_mol"] = link.u_delta_f_H_kJ_per_mol
                 out[i] = replace(

@@ -271,8 +271,10 @@ def bomb_states(
                        expected="a bomb charging pressure of a few MPa")
     n_o2_gas = p_i * vg_i / (rt + B_O2 * p_i)
     M_w = w["molar_mass_g_per_mol"]
-    vap_i = _vapour_mol(vg_i, p_i, temperature_K) if bomb_water_g > 0 else 0.0
-    liq_i_g = max(bomb_water_g - vap_i * M_w, 0.0)
+    # saturated vapour, unless there is too little water to saturate the gas: then all of
+    # it is vapour (a dry bomb has none)
+    vap_i = min(_vapour_mol(vg_i, p_i, temperature_K), bomb_water_g / M_w)
+    liq_i_g = bomb_water_g - vap_i * M_w
     phi_o2 = fugacity_coefficients({"O2": 1.0}, p_i, temperature_K)["O2"]
     o2_aq = _props()["gases"]["O2"]["henry_mol_per_kg_bar"] * phi_o2 * p_i / _BAR_Pa \
         * liq_i_g / 1000
@@ -297,7 +299,16 @@ def bomb_states(
     water_f = water_i + (el["H"] - n_hno3 - 2 * n_s) / 2
     o2_i = initial.total_mol("O2")
     o2_f = (el["O"] + 2 * o2_i + water_i - 2 * n_co2 - water_f - 3 * n_hno3 - 4 * n_s) / 2
-    if o2_f <= 0 or n_co2 < 0 or water_f <= 0:
+    if n_co2 < 0:
+        carbon_g = el["C"] * molar_mass_g_per_mol("C")
+        raise RunError("more soot than the carbon of the combustibles", column="soot_g",
+                       found=soot_g, expected=f"at most {carbon_g:.4g} g")
+    if water_f <= 0:
+        raise RunError("the final state has no liquid water (no water put into the bomb and "
+                       "none formed): the standard-state correction assumes a liquid phase",
+                       column="bomb_water_g", found=bomb_water_g,
+                       expected="the water put into the bomb, in g (usually ~1 g)")
+    if o2_f <= 0:
         raise RunError(
             "the bomb holds too little oxygen for this combustion",
             column="o2_pressure_MPa", found=o2_pressure_MPa,
@@ -315,7 +326,7 @@ def bomb_states(
         vg_f = V - liq_f_g / w["density_g_per_cm3"] * 1e-6 - soot_m3
         gas, aq, p_f, phi = _partition(totals, vg_f, liq_f_g / 1000, temperature_K,
                                        cross_model)
-        new_vap = _vapour_mol(vg_f, p_f, temperature_K)
+        new_vap = min(_vapour_mol(vg_f, p_f, temperature_K), water_f)
         converged = abs(new_vap - vap_f) <= 1e-12 * max(vap_f, 1e-300) + 1e-18
         vap_f = new_vap
         if converged:

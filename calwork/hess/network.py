@@ -38,6 +38,7 @@ from calwork.hess.network_result import NetworkResult, free_directions, monte_ca
 from calwork.hess.reactions import Reaction
 from calwork.hess.species import Species, species_or_parse
 from calwork.hess.wls import solve_wls
+from calwork.uncertainty import standard_uncertainty
 
 __all__ = ["WORST_OFFENDER_MODES", "Network", "solve_network"]
 
@@ -391,8 +392,8 @@ def solve_network(
         mc = monte_carlo_check(sol, names, variances, int(monte_carlo), seed, coverage_factor)
     return NetworkResult(
         species=tuple(names), values=values,
-        uncertainties={k: (float(np.sqrt(max(v, 0.0))) if v is not None else None)
-                       for k, v in variances.items()},
+        uncertainties={k: (standard_uncertainty(v, name=f"Δ_fH°({k})") if v is not None
+                           else None) for k, v in variances.items()},
         covariance_names=tuple(cov_names), covariance=cov,
         undetermined=tuple(names[i] for i in range(n) if not sol.determined[i]),
         free_directions=tuple(free_directions(sol, asm.unknowns, asm.rows)),

@@ -248,6 +248,8 @@ class NetworkResult:
             "free_directions": list(self.free_directions),
             "monte_carlo": self.monte_carlo,
             "coverage_factor": k, "method": self.method,
+            "solver": {"method": self.method, "converged": True,
+                       "iterations": self.solution.iterations if self.solution else 0},
             "key_values_used": [dict(kv) for kv in self.key_values_used],
             "temperature_adjustments_kJ_per_mol": dict(self.temperature_adjustments),
             "warnings": list(self.warnings),

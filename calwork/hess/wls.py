@@ -24,7 +24,7 @@ import scipy.linalg as sla
 import scipy.sparse as sp
 from scipy.sparse.csgraph import connected_components
 
-from calwork.errors import NetworkError, UncertaintyError
+from calwork.errors import ConvergenceError, NetworkError, UncertaintyError
 
 __all__ = ["DENSE_MAX_UNKNOWNS", "ComponentSolution", "LinearSolution", "solve_wls"]
 
@@ -81,6 +81,11 @@ class LinearSolution:
     whitened_y: np.ndarray = field(repr=False)
     whitening: list[tuple[np.ndarray, np.ndarray | None]] = field(repr=False,
                                                                   default_factory=list)
+
+    @property
+    def iterations(self) -> int:
+        """Most conjugate-gradient iterations any sparse component needed (0: all dense)."""
+        return max((c.iterations for c in self.components), default=0)
 
     def null_projection(self, c: np.ndarray) -> float:
         """Norm of the part of ``c`` (over all unknowns) the data do not determine."""
@@ -147,6 +152,8 @@ def _block_pcg(n: sp.csr_matrix, b: np.ndarray, precond: np.ndarray, *,
 
     Columns that have converged are frozen (step 0) rather than removed, so every
     iteration is a handful of whole-array operations and one sparse matrix product.
+    Returns the solution and the number of iterations; raises :class:`ConvergenceError`
+    when a column has not reached ``rtol`` within the iteration limit.
     """
     b = np.asarray(b, dtype=float).reshape(b.shape[0], -1)
     x = np.zeros_like(b)
@@ -173,8 +180,20 @@ def _block_pcg(n: sp.csr_matrix, b: np.ndarray, precond: np.ndarray, *,
         beta = np.where(ok & (rz != 0), rz_new / np.where(rz != 0, rz, 1.0), 0.0)
         p = z + beta * p
         rz = rz_new
-        active = ok & (np.einsum("ij,ij->j", r, r) > tol2)
+        still = np.einsum("ij,ij->j", r, r) > tol2
+        stalled = still & ~ok
+        active = ok & still
         it += 1
+        if stalled.any():
+            raise ConvergenceError(
+                "conjugate gradients broke down on the network's normal equations (a search "
+                "direction of zero curvature)", found=f"{int(stalled.sum())} column(s)")
+    if active.any():
+        worst = float(np.sqrt(np.max(np.einsum("ij,ij->j", r, r) / (bnorm**2))))
+        raise ConvergenceError(
+            "conjugate gradients did not converge on the network's normal equations",
+            found=f"relative residual {worst:.3g} after {it} iterations",
+            expected=f"≤ {rtol:g}")
     return x, it
 
 

@@ -51,7 +51,7 @@ POSITIVE_COLUMNS = frozenset({
     "mass_g", "cotton_g", "aux_mass_g", "bomb_water_g", "solvent_mass_g", "fuse_mass_g",
     "bomb_volume_L", "ampoule_gas_volume_mL", "o2_pressure_MPa", "amount_mol",
     "certified_J_per_g", "standard_resistor_ohm", "acid_titrant_mol_per_L",
-    "sample_density_g_per_cm3",
+    "sample_density_g_per_cm3", "u_certified_J_per_g",
 })
 #: Quantities that must be ≥ 0 where given.
 NON_NEGATIVE_COLUMNS = frozenset({

@@ -213,9 +213,17 @@ def _calibration_budget(plan: Plan, table: Table, row: int, c: Any) -> int:
         parts.append(_budget_row(table, row + 2, name, q, "certificate ε̄·u_r", content, "J/K",
                                  "formula"))
         row += 3
+        n_parts = 2
+        if "corrections_J_per_K" in b:
+            parts.append(_budget_row(table, row, name, q,
+                                     "correction constants √Σ(r_k·mean(C_k/ΔT))²",
+                                     b.pop("corrections_J_per_K"), "J/K",
+                                     "calwork (bomb_corrections.toml relative u)"))
+            row += 1
+            n_parts = 3
         parts = [p for p in parts if p is not None]
         total_content: Any = c.u_energy_equivalent_J_per_K
-        if len(parts) == 2:
+        if len(parts) == n_parts:
             total_content = plan.checked(quadrature(*parts), c.u_energy_equivalent_J_per_K,
                                          f"u(ε) of {name}")
     else:

@@ -38,6 +38,8 @@ WARNING_CODES = {
     "dickinson-60-percent": "the 60 % shortcut differs from the equal-area Dickinson value",
     "boundary-uncertain": "a detected period boundary is poorly defined",
     "time-unit-assumed": "the log names no time unit; the importer assumed seconds",
+    "boundary-component-incomplete": "a part of the boundary uncertainty could not be "
+                                     "evaluated (the message says which; give the boundary)",
 }
 
 #: Minimum fore/after lengths (ASTM D240 rates over 5 min before firing and after c; ISO 1928

@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import contextlib
 import math
 from dataclasses import replace
 from functools import cache
@@ -66,7 +65,7 @@ def _apply_overrides(thermogram: Thermogram, periods: Periods | None, fire_time_
 
 
 def _boundary_component(thermogram: Thermogram, sel: Selection, out: MethodOutput,
-                        periods: Periods, reduce) -> float | None:
+                        periods: Periods, reduce, warns: list[str]) -> float | None:
     """Spread of ΔT_c over plausible boundaries when they were detected automatically.
 
     End of the main period: the method is repeated with the after period starting
@@ -87,13 +86,21 @@ def _boundary_component(thermogram: Thermogram, sel: Selection, out: MethodOutpu
                 again = (newton_rise_only(sub, out.model) if reduce is reduce_newton
                          else reduce(sub).rise_K)
                 parts.append(abs(again - out.rise_K))
-            except CalworkError:
-                pass
+            except CalworkError as exc:
+                warns.append(warning(
+                    "boundary-component-incomplete", "the rise with the end of the main "
+                    f"period moved {shift} reading(s) later could not be computed ({exc}); "
+                    "the boundary uncertainty lacks that part: give main_end_s"))
     if periods.fire_source != "given":
         earlier = sel.previous_reading_s(1)
         if earlier < sel.t_i and earlier > periods.fore_period_s[0]:
-            with contextlib.suppress(ValueError, CalworkError):
+            try:
                 parts.append(abs(out.rise_at(earlier, sel.t_f) - out.rise_K))
+            except (ValueError, CalworkError) as exc:
+                warns.append(warning(
+                    "boundary-component-incomplete", "the rise with the start of the main "
+                    f"period one reading earlier could not be computed ({exc}); the "
+                    "boundary uncertainty lacks that part: give fire_time_s"))
     if not parts:
         return None
     return math.sqrt(sum(p * p for p in parts))
@@ -225,7 +232,8 @@ def corrected_rise(thermogram: Thermogram, method: str = "newton-fit",
         reduce = METHODS[method]
     out = reduce(sel)
     budget = dict(out.budget)
-    boundary = _boundary_component(thermogram, sel, out, periods, reduce)
+    component_warnings: list[str] = []
+    boundary = _boundary_component(thermogram, sel, out, periods, reduce, component_warnings)
     if boundary is not None:
         budget["boundary"] = boundary
     tail = _tail_component(sel, out, periods, reduce)
@@ -236,6 +244,7 @@ def corrected_rise(thermogram: Thermogram, method: str = "newton-fit",
     except CalworkError as exc:
         raise exc.with_context(path=thermogram.provenance.source_path) from None
     warns, cross = _diagnostics(thermogram, sel, out, u, method)
+    warns.extend(component_warnings)
     if thermogram.metadata.get("time_unit_source") == "assumed":
         column = thermogram.metadata.get("time_column", "")
         warns.append(warning("time-unit-assumed", f"time column {column!r} names no unit, so "

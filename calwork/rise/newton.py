@@ -23,6 +23,7 @@ import numpy as np
 
 from calwork.errors import FitError
 from calwork.rise.drift import convergence_temperature_K
+from calwork.uncertainty import standard_uncertainty
 
 __all__ = ["NewtonFit", "fit_newton", "newton_rise"]
 
@@ -113,7 +114,7 @@ class NewtonFit:
         if k == 0.0:
             return float("inf")
         grad = np.array([1.0 / k, -g / (k * k)])
-        return float(np.sqrt(max(grad @ self.covariance[2:, 2:] @ grad, 0.0)))
+        return standard_uncertainty(grad @ self.covariance[2:, 2:] @ grad, name="T_inf_K")
 
     def theta(self, t_s, which: str) -> tuple[np.ndarray, np.ndarray]:
         """``θ`` of the fore (``'fore'``) or after (``'after'``) curve at ``t_s`` and its
@@ -233,7 +234,11 @@ def fit_newton(t_fore: np.ndarray, T_fore: np.ndarray, t_after: np.ndarray,
         p = p + step
         # converged when every step is far below the parameter's own standard deviation
         rss = float(r @ r)
-        sd = np.sqrt(np.maximum(np.diag(inv) * rss / max(n - 4, 1), 0.0)) / scale
+        diag = np.diag(inv)
+        if np.any(~(diag > 0)):
+            raise FitError("the Newtonian fit is numerically singular (a parameter variance is "
+                           "not positive)")
+        sd = np.sqrt(diag * rss / max(n - 4, 1)) / scale
         if start is not None or rss == 0.0 or np.all(np.abs(step) <= 1e-3 * sd):
             converged = True
             break

@@ -24,6 +24,7 @@ from collections.abc import Callable, Mapping, Sequence
 import numpy as np
 
 from calwork.errors import UncertaintyError
+from calwork.uncertainty import variance_component
 
 __all__ = ["combine", "numeric_gradient", "propagate"]
 
@@ -42,7 +43,8 @@ def propagate(gradient: Sequence[float] | np.ndarray, covariance: np.ndarray) ->
     if not math.isfinite(var):
         raise UncertaintyError("the fit covariance is not available (not finite)",
                                found=var, expected="a finite variance")
-    return math.sqrt(max(var, 0.0))
+    magnitude = float(np.abs(g) @ np.abs(cov) @ np.abs(g))
+    return math.sqrt(variance_component(var, magnitude=magnitude, name="drift-fit component"))
 
 
 def numeric_gradient(f: Callable[[np.ndarray], float], x: Sequence[float],

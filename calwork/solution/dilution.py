@@ -22,7 +22,9 @@ For an electrolyte M_νM X_νX (charges z_M, z_X; ν = ν_M + ν_X) three models
 
 :func:`extrapolate_to_infinite_dilution` fits ``Δ_solH(m) − ΦL_model(m) = Δ_solH^∞ + B_L m`` by
 weighted least squares (weights 1/u²) and gives the intercept with its standard uncertainty.
-The parameters are at 298.15 K; other temperatures use the same A_H (a warning is given).
+A_H is computed at the run's temperature from the IAPWS water properties
+(:mod:`calwork.solution.water`); Pitzer's β and C parameters are those at 298.15 K (a
+warning is given away from it).
 """
 
 from __future__ import annotations
@@ -34,10 +36,11 @@ from typing import Any
 
 import numpy as np
 
-from calwork.constants import R_J_per_mol_K
+from calwork.constants import T_REF_K, R_J_per_mol_K
 from calwork.data import load_data
 from calwork.errors import RunError, UncertaintyError, check_choice
 from calwork.results import jsonable
+from calwork.solution.water import debye_huckel_slopes
 
 __all__ = [
     "PHI_L_MODELS",
@@ -117,15 +120,15 @@ def electrolyte_by_name(name: str) -> Electrolyte:
                    expected=f"one of {sorted(set(known) | set(data.get('pitzer', {})))}")
 
 
-def debye_huckel_A_H() -> float:
-    """Debye–Hückel enthalpy slope A_H at 298.15 K, J kg^½ mol^−3/2 (bundled, recalled value).
+def debye_huckel_A_H(temperature_K: float = T_REF_K) -> float:
+    """Debye–Hückel enthalpy slope A_H, J kg^½ mol^−3/2, from the IAPWS water properties.
 
     Examples
     --------
-    >>> round(debye_huckel_A_H() / (8.314462618 * 298.15), 3)
-    0.801
+    >>> round(debye_huckel_A_H() / (8.314462618 * 298.15), 4)
+    0.7956
     """
-    return float(load_data(_DATA)["debye_huckel"]["A_H_J_kg05_per_mol15"])
+    return debye_huckel_slopes(temperature_K)[1]
 
 
 def ionic_strength_mol_per_kg(molality_mol_per_kg, z_M: int = 1, z_X: int = -1,
@@ -161,6 +164,7 @@ def apparent_molar_enthalpy_DH(
     electrolyte: str | Electrolyte | None = None,
     A_H_J_kg05_per_mol15: float | None = None,
     b_kg05_per_mol05: float | None = None,
+    temperature_K: float = T_REF_K,
 ):
     """Debye–Hückel relative apparent molar enthalpy ΦL, J/mol.
 
@@ -173,9 +177,11 @@ def apparent_molar_enthalpy_DH(
     electrolyte
         Name of a bundled electrolyte or an :class:`Electrolyte`; default a 1:1 electrolyte.
     A_H_J_kg05_per_mol15
-        Enthalpy slope A_H, J kg^½ mol^−3/2; default the bundled value at 298.15 K.
+        Enthalpy slope A_H, J kg^½ mol^−3/2; default the IAPWS value at ``temperature_K``.
     b_kg05_per_mol05
         Pitzer's b, kg^½ mol^−½; default 1.2.
+    temperature_K
+        Temperature of the solution, K (for A_H).
 
     Returns
     -------
@@ -185,14 +191,15 @@ def apparent_molar_enthalpy_DH(
     Examples
     --------
     >>> round(float(apparent_molar_enthalpy_DH(0.01, model="limiting")), 1)  # A_H √m
-    198.6
+    197.2
     """
     check_choice("model", model, ("extended", "limiting"))
     e = _as_electrolyte(electrolyte)
     m = np.asarray(molality_mol_per_kg, dtype=float)
     _check_molality(m)
     data = load_data(_DATA)["debye_huckel"]
-    A_H = debye_huckel_A_H() if A_H_J_kg05_per_mol15 is None else float(A_H_J_kg05_per_mol15)
+    A_H = (debye_huckel_A_H(temperature_K) if A_H_J_kg05_per_mol15 is None
+           else float(A_H_J_kg05_per_mol15))
     b = float(data["b_kg05_per_mol05"] if b_kg05_per_mol05 is None else b_kg05_per_mol05)
     sqrt_I = np.sqrt(ionic_strength_mol_per_kg(m, e.z_M, e.z_X, e.nu_M, e.nu_X))
     factor = e.nu * abs(e.z_M * e.z_X)
@@ -207,7 +214,7 @@ def apparent_molar_enthalpy_pitzer(
     molality_mol_per_kg,
     *,
     electrolyte: str | Electrolyte,
-    temperature_K: float = 298.15,
+    temperature_K: float = T_REF_K,
     A_H_J_kg05_per_mol15: float | None = None,
 ):
     """Pitzer relative apparent molar enthalpy ΦL, J/mol (METHODS.md (2.5)).
@@ -222,7 +229,7 @@ def apparent_molar_enthalpy_pitzer(
     temperature_K
         Temperature for the R T² factor, K (parameters are those at 298.15 K).
     A_H_J_kg05_per_mol15
-        Enthalpy slope, J kg^½ mol^−3/2; default the bundled value.
+        Enthalpy slope, J kg^½ mol^−3/2; default the IAPWS value at ``temperature_K``.
 
     Examples
     --------
@@ -238,7 +245,8 @@ def apparent_molar_enthalpy_pitzer(
     _check_molality(m)
     alpha = float(load_data(_DATA)["debye_huckel"]["alpha_kg05_per_mol05"])
     dh = np.asarray(apparent_molar_enthalpy_DH(m, model="extended", electrolyte=e,
-                                               A_H_J_kg05_per_mol15=A_H_J_kg05_per_mol15))
+                                               A_H_J_kg05_per_mol15=A_H_J_kg05_per_mol15,
+                                               temperature_K=temperature_K))
     ionic = ionic_strength_mol_per_kg(m, e.z_M, e.z_X, e.nu_M, e.nu_X)
     x = alpha * np.sqrt(ionic)
     # g(x) = 2[1 − (1 + x) e^−x]/x², → 1 − 2x/3 as x → 0 (series used below x = 1e-4)
@@ -257,7 +265,7 @@ def relative_apparent_molar_enthalpy_J_per_mol(
     *,
     model: str = "extended",
     electrolyte: str | Electrolyte | None = None,
-    temperature_K: float = 298.15,
+    temperature_K: float = T_REF_K,
 ):
     """ΦL by ``model`` (one of :data:`PHI_L_MODELS`), J/mol; ``'none'`` gives zeros."""
     check_choice("model", model, PHI_L_MODELS)
@@ -269,7 +277,8 @@ def relative_apparent_molar_enthalpy_J_per_mol(
     if model == "pitzer":
         return apparent_molar_enthalpy_pitzer(molality_mol_per_kg, electrolyte=electrolyte,
                                               temperature_K=temperature_K)
-    return apparent_molar_enthalpy_DH(molality_mol_per_kg, model=model, electrolyte=electrolyte)
+    return apparent_molar_enthalpy_DH(molality_mol_per_kg, model=model, electrolyte=electrolyte,
+                                      temperature_K=temperature_K)
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -318,7 +327,7 @@ def extrapolate_to_infinite_dilution(
     model: str = "extended",
     electrolyte: str | Electrolyte | None = None,
     fit_slope: bool | None = None,
-    temperature_K: float = 298.15,
+    temperature_K: float = T_REF_K,
     scale_by_birge: bool = True,
     u_phi_L_fraction: float = 0.0,
 ) -> DilutionExtrapolation:
@@ -380,8 +389,9 @@ def extrapolate_to_infinite_dilution(
                                column="u_molar_enthalpy_kJ_per_mol", found=u.tolist())
     e = None if model == "none" else _as_electrolyte(electrolyte)
     warnings: list[str] = []
-    if abs(temperature_K - 298.15) > 5.0 and model != "none":
-        warnings.append(f"ΦL parameters are for 298.15 K; results at {temperature_K:.2f} K")
+    if abs(temperature_K - T_REF_K) > 5.0 and model == "pitzer":
+        warnings.append(f"Pitzer's ΦL parameters are for 298.15 K; results at "
+                        f"{temperature_K:.2f} K (A_H is computed at that temperature)")
     if e is not None and e.m_max_mol_per_kg is not None and m.max() > e.m_max_mol_per_kg:
         warnings.append(f"molality above the range of the {e.name} parameters")
     phi = np.atleast_1d(relative_apparent_molar_enthalpy_J_per_mol(

@@ -19,6 +19,7 @@ from collections.abc import Iterable, Mapping, Sequence
 
 import numpy as np
 
+from calwork.constants import T_REF_K
 from calwork.errors import CalworkError
 from calwork.results import RunResult, SampleResult
 from calwork.runinfo import RunInfo
@@ -109,7 +110,7 @@ def _sample(name: str, formula: str | None, items: Sequence[RunResult], phi_L_mo
     mean_m = float(np.mean(molal)) if have_m else None
     inf = u_inf = None
     temps = [r.reference_temperature_K for r in items if r.reference_temperature_K is not None]
-    T_mean = float(np.mean(temps)) if temps else 298.15
+    T_mean = float(np.mean(temps)) if temps else T_REF_K
     if abs(T_mean - 298.15) > 1.0:
         warnings.append(f"results refer to {T_mean:.2f} K, not 298.15 K (no Kirchhoff "
                         "correction applied)")
