@@ -41,7 +41,7 @@ _export("calwork.simulate", "CalorimeterParams", "CombustionPulse", "HeaterInter
         "FirstOrderRelease", "simulate_run", "SimulatedRun", "SimulationTruth", "EventTruth",
         "simulate_scenario", "build_scenario", "ScenarioRun")
 _export("calwork.rise", "corrected_rise", "detect_periods", "Periods", "RiseResult",
-        "plot_rise", "validate_methods")
+        "plot_rise", "validate_methods", "find_events", "list_heat_events")
 _export("calwork.hess", "parse_species", "Species", "parse_equation", "Reaction", "combine",
         "Combination", "Network", "solve_network", "NetworkResult", "load_key_values",
         "combustion_link", "combustion_link_many", "combustion_reaction", "read_network_file")
@@ -52,7 +52,7 @@ _export("calwork.bomb", "jessup_factor", "buoyancy_factor", "mass_in_vacuum_g",
         "net_calorific_value_J_per_g", "convert_basis", "convert_calorific_value",
         "fuel_outputs")
 _export("calwork.solution", "reduce_solution_runs", "SolutionOptions", "electrical_energy_J",
-        "find_events", "vaporisation_correction_J", "apparent_molar_enthalpy_DH",
+        "vaporisation_correction_J", "apparent_molar_enthalpy_DH",
         "apparent_molar_enthalpy_pitzer", "extrapolate_to_infinite_dilution",
         "solution_determination", "determination_from_sample", "solve_cycle",
         "write_network_csv")

@@ -214,6 +214,10 @@ class PeriodDetectionError(CalworkError, ValueError):
     """Fore, main or after period cannot be located in a thermogram."""
 
 
+class MultipleEventsError(PeriodDetectionError):
+    """A log holds several heat events and nothing says which one to reduce."""
+
+
 class FitError(CalworkError, RuntimeError):
     """A least-squares fit did not converge or gave no usable covariance."""
 

@@ -82,7 +82,7 @@ def _read_and_rise(info: RunInfo, method: str) -> tuple[Any, Any]:
     except CalworkError as exc:
         return exc, None
     try:
-        rise = corrected_rise(tg, method, fire_time_s=info.fire_time_s,
+        rise = corrected_rise(tg, method, event=info.event, fire_time_s=info.fire_time_s,
                               main_end_s=info.main_end_s)
     except CalworkError as exc:
         return tg, exc

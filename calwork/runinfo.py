@@ -64,6 +64,7 @@ EXTENSION_COLUMNS: dict[str, type] = {
     "soot_g": float,                   # unburnt carbon found after the run
     "fire_time_s": float,              # override of the detected firing / start time
     "main_end_s": float,               # override of the detected end of the main period
+    "event": int,                      # which heat event of a multi-event log (1-based)
     "sensor": str,                     # 'pt100', 'pt1000', 'steinhart-hart' for resistance logs
     "hydrogen_mass_fraction": float,   # fuel outputs (net calorific value)
     "oxygen_mass_fraction": float,
@@ -129,6 +130,7 @@ class RunInfo:
     soot_g: float | None = None
     fire_time_s: float | None = None
     main_end_s: float | None = None
+    event: int | None = None
     sensor: str | None = None
     hydrogen_mass_fraction: float | None = None
     oxygen_mass_fraction: float | None = None

@@ -186,6 +186,7 @@ def write_outputs(red: Reduction, out_dir: str | Path, *, plots: bool = True) ->
 
 def _plots(red: Reduction, out: Path) -> list[Path]:
     try:
+        from calwork.report.texts import primary_rise
         from calwork.rise import plot_rise
     except ImportError as exc:  # a checkout without the plotting module
         print(f"calwork reduce: plots not written ({exc})", file=sys.stderr)
@@ -193,7 +194,7 @@ def _plots(red: Reduction, out: Path) -> list[Path]:
     files = []
     for r in red.runs:
         tg = red.thermograms.get(r.run)
-        rise = r.rise[0] if isinstance(r.rise, (list, tuple)) and r.rise else r.rise
+        rise = primary_rise(r)  # for a multi-event (solution) log: the reaction's
         if tg is None or rise is None or not hasattr(rise, "corrected_rise_K"):
             continue
         path = out / f"{_safe(r.run)}.png"

@@ -20,6 +20,8 @@ Methods: newton-fit (default; fore and after periods fitted jointly to Newton's 
 cooling), regnault-pfaundler, dickinson (--dickinson-rule equal-area, the exact t_x; or
 60-percent, the fuel standards' shortcut — for routine fuel work, not thermochemistry).
 --fire-time and --main-end override the detected boundaries (times in s on the log's axis).
+A log with several heat events (two firings; a calibration, a reaction and a calibration) is
+refused with the list of its events unless --event N says which one to reduce.
 
 Caution: the logs come from oxygen bombs (pressure vessels) and electrically heated cells;
 operate them only as the maker and the local pressure-equipment and electrical-safety codes
@@ -44,6 +46,8 @@ def register(subparsers: argparse._SubParsersAction) -> None:
                    help="firing / heater-on time, s (overrides detection)")
     p.add_argument("--main-end", type=float, metavar="S",
                    help="end of the main period, s (overrides detection)")
+    p.add_argument("--event", type=int, metavar="N",
+                   help="for a log with several heat events: reduce event N (1-based)")
     p.add_argument("--time-column", metavar="C", help="header of the time column")
     p.add_argument("--temperature-column", metavar="C", help="header of the temperature column")
     p.add_argument("--time-unit", metavar="U", help="unit of the time column (overrides header)")
@@ -78,6 +82,9 @@ def _table(result) -> str:
         ("reading noise", f"{(result.noise_K or 0.0) * 1e3:.3g}", "mK"),
     ]
     rows += [(f"u: {k}", f"{v:.2g}", "K") for k, v in result.uncertainty_budget.items()]
+    if result.event is not None:
+        rows.insert(0, ("event", f"{result.event} of {len(result.events)}",
+                        result.events[result.event - 1]["kind"]))
     text = format_table(("quantity", "value", "unit"), rows)
     if result.warnings:
         text += "\n" + "\n".join(f"warning: {w}" for w in result.warnings)
@@ -102,7 +109,8 @@ def run(args: argparse.Namespace) -> int:
         sensor_coefficients=coefficients, sheet=args.sheet,
     )
     result = corrected_rise(thermogram, args.method, fire_time_s=args.fire_time,
-                            main_end_s=args.main_end, dickinson_rule=args.dickinson_rule)
+                            main_end_s=args.main_end, dickinson_rule=args.dickinson_rule,
+                            event=args.event)
     out = result.to_dict()
     if args.plot:
         out["plot"] = str(plot_rise(thermogram, result, args.plot))

@@ -100,6 +100,12 @@ def _typed(name: str, raw: Any, where: dict[str, Any]) -> Any:
             raise SheetError("a mass fraction must lie between 0 and 1", found=raw,
                              expected="0 ≤ value ≤ 1 (not percent)", **where)
         return value
+    if _TYPES[name] is int:
+        value = _number(raw, where)
+        if not value.is_integer() or value < 1:
+            raise SheetError("must be a whole number ≥ 1", found=raw,
+                             expected="a count such as 2", **where)
+        return int(value)
     if isinstance(raw, float) and raw.is_integer():
         raw = int(raw)  # a run id typed as 7 in a spreadsheet is '7', not '7.0'
     text = str(raw).strip()

@@ -26,6 +26,7 @@ from calwork.rise.drift import (
     newton_temperature_K,
 )
 from calwork.rise.engine import corrected_rise
+from calwork.rise.events import find_events, list_heat_events
 from calwork.rise.methods import METHODS
 from calwork.rise.periods import Periods, detect_periods
 from calwork.rise.regnault_pfaundler import (
@@ -46,6 +47,8 @@ __all__ = [
     "dickinson_exact_tx_s",
     "dickinson_rise_K",
     "exchange_correction_K",
+    "find_events",
+    "list_heat_events",
     "newton_constants_from_drifts",
     "newton_drift_K_per_s",
     "newton_temperature_K",

@@ -8,10 +8,17 @@ from functools import cache
 
 import numpy as np
 
-from calwork.errors import CalworkError, check_choice
+from calwork.errors import (
+    CalworkError,
+    ChoiceError,
+    MultipleEventsError,
+    PeriodDetectionError,
+    check_choice,
+)
 from calwork.provenance import Provenance, calwork_version
 from calwork.rise.diagnostics import format_times, sampling_gaps, warning
 from calwork.rise.dickinson import DICKINSON_RULES
+from calwork.rise.events import LogEvent, LogEvents, list_heat_events
 from calwork.rise.methods import (
     METHODS,
     newton_rise_only,
@@ -175,7 +182,7 @@ def _diagnostics(thermogram: Thermogram, sel: Selection, out: MethodOutput,
 def corrected_rise(thermogram: Thermogram, method: str = "newton-fit",
                    periods: Periods | None = None, *, fire_time_s: float | None = None,
                    main_end_s: float | None = None, dickinson_rule: str = "equal-area",
-                   ) -> RiseResult:
+                   event: int | None = None) -> RiseResult:
     """The corrected (adiabatic) temperature rise of a thermogram.
 
     Parameters
@@ -195,6 +202,11 @@ def corrected_rise(thermogram: Thermogram, method: str = "newton-fit",
     dickinson_rule
         For ``method='dickinson'``: ``'equal-area'`` (exact ``t_x`` (1.7), default) or
         ``'60-percent'`` (the fuel standards' shortcut (1.8); for routine fuel work only).
+    event
+        For a log with several heat events (:func:`calwork.rise.events.list_heat_events`):
+        which one to reduce, 1-based. Without it such a log is refused (a given
+        ``fire_time_s`` also says which: the event it falls in). Ignored with explicit
+        ``periods``.
 
     Returns
     -------
@@ -208,6 +220,8 @@ def corrected_rise(thermogram: Thermogram, method: str = "newton-fit",
         Unknown ``method`` or ``dickinson_rule`` (the message lists the valid ones).
     PeriodDetectionError
         No event, or too short fore/after periods.
+    MultipleEventsError
+        Several heat events and nothing says which (the message lists them).
     UncertaintyError
         The uncertainty cannot be propagated (never reported as zero instead).
 
@@ -223,6 +237,17 @@ def corrected_rise(thermogram: Thermogram, method: str = "newton-fit",
     """
     check_choice("method", method, METHODS)
     check_choice("dickinson_rule", dickinson_rule, DICKINSON_RULES)
+    whole = thermogram
+    events: tuple = ()
+    chosen = None
+    if periods is None:
+        found = list_heat_events(thermogram)
+        if len(found.events) > 1 or (event is not None and event != 1):
+            chosen = choose_event(found, event, fire_time_s,
+                                  path=thermogram.provenance.source_path)
+            ev = found.events[chosen - 1]
+            thermogram = thermogram.window(ev.window_start_s, ev.window_end_s)
+            events = tuple(_event_summary(e) for e in found.events)
     periods = _apply_overrides(thermogram, periods, fire_time_s, main_end_s)
     sel = select(thermogram, periods)
     if method == "dickinson":
@@ -274,5 +299,42 @@ def corrected_rise(thermogram: Thermogram, method: str = "newton-fit",
         provenance=Provenance(method=method if method != "dickinson" else
                               f"dickinson ({dickinson_rule})",
                               importer="calwork.rise.corrected_rise",
-                              parents=(thermogram.provenance,), calwork_version=_version()),
+                              parents=(whole.provenance,), calwork_version=_version()),
+        events=events, event=chosen,
     )
+
+
+def _event_summary(ev: LogEvent) -> dict[str, object]:
+    return {"kind": ev.kind, "start_s": ev.start_s, "end_s": ev.active_end_s,
+            "window_start_s": ev.window_start_s, "window_end_s": ev.window_end_s}
+
+
+def describe_events(found: LogEvents) -> str:
+    """``'1: event at 600–720 s; 2: heater at 1500–1805 s'``."""
+    return "; ".join(f"{i}: {e.kind} at {e.start_s:.0f}–{e.active_end_s:.0f} s"
+                     for i, e in enumerate(found.events, start=1))
+
+
+def choose_event(found: LogEvents, event: int | None, fire_time_s: float | None, *,
+                 path: object = None) -> int:
+    """The 1-based event to reduce: ``event`` if given, else the one ``fire_time_s`` falls
+    in; otherwise :class:`MultipleEventsError` naming the events."""
+    n = len(found.events)
+    if event is not None:
+        if not 1 <= int(event) <= n:
+            raise ChoiceError(f"the log holds {n} heat event(s): {describe_events(found)}",
+                              path=path, column="event", found=event,
+                              expected=f"a number from 1 to {n}")
+        return int(event)
+    if fire_time_s is not None:
+        for i, e in enumerate(found.events, start=1):
+            if e.window_start_s <= fire_time_s <= e.window_end_s:
+                return i
+        raise PeriodDetectionError(
+            f"the given firing time is in none of the log's heat events "
+            f"({describe_events(found)})", path=path, column="fire_time_s",
+            found=fire_time_s, expected="a time inside one event's window, or the event")
+    raise MultipleEventsError(
+        f"the log holds {n} heat events ({describe_events(found)}); reducing them as one "
+        "would sum them: say which with --event N (the sheet column event)", path=path,
+        column="event", expected="the number of the event to reduce")

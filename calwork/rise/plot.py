@@ -45,8 +45,15 @@ def plot_rise(thermogram: Thermogram, result: RiseResult, path_or_ax: Any) -> An
     ------
     ExportError
         The file cannot be written.
+
+    A result about one event of a log with several (``result.event``) is drawn on that
+    event's window of the record.
     """
     import matplotlib
+
+    if result.event is not None and result.events:
+        window = result.events[result.event - 1]
+        thermogram = thermogram.window(window["window_start_s"], window["window_end_s"])
 
     if isinstance(path_or_ax, (str, Path)):
         matplotlib.use("Agg", force=False)

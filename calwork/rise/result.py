@@ -105,6 +105,9 @@ class RiseResult:
         :data:`calwork.rise.diagnostics.WARNING_CODES`).
     provenance
         Method and the thermogram's provenance.
+    events, event
+        For a log with several heat events: all of them and the (1-based) one this result is
+        about (reduced on that event's window of the log).
     """
 
     corrected_rise_K: float
@@ -133,6 +136,11 @@ class RiseResult:
     cross_check: Mapping[str, float] = field(default_factory=dict)
     warnings: tuple[str, ...] = ()
     provenance: Provenance = field(default_factory=Provenance)
+    #: every heat event of a log with several (``kind``, ``start_s``, ``end_s``,
+    #: ``window_start_s``, ``window_end_s``), in time order; empty for a one-event log
+    events: tuple[Mapping[str, Any], ...] = ()
+    #: which of ``events`` this result is about (1-based), or ``None``
+    event: int | None = None
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "uncertainty_budget",
@@ -141,6 +149,8 @@ class RiseResult:
         object.__setattr__(self, "warnings", tuple(self.warnings))
         object.__setattr__(self, "fore_period_s", tuple(self.fore_period_s))
         object.__setattr__(self, "after_period_s", tuple(self.after_period_s))
+        object.__setattr__(self, "events", tuple(MappingProxyType(dict(e))
+                                                 for e in self.events))
 
     def fore_curve(self, t_s):
         """The fitted fore-period drift curve at ``t_s``, K."""
@@ -185,6 +195,9 @@ class RiseResult:
             "periods": self.periods.to_dict(),
             "provenance": self.provenance.to_dict(),
         }
+        if self.events:
+            out["event"] = self.event
+            out["events"] = [dict(e, number=i) for i, e in enumerate(self.events, start=1)]
         return jsonable(out)
 
     def report(self) -> str:

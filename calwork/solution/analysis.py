@@ -18,6 +18,7 @@ import numpy as np
 
 from calwork.errors import PeriodDetectionError, RunError, check_choice
 from calwork.rise import Periods, corrected_rise
+from calwork.rise.events import LogEvent, LogEvents, find_events
 from calwork.solution.electrical import (
     POTENTIAL_LEADS,
     ElectricalEnergy,
@@ -27,7 +28,6 @@ from calwork.solution.electrical import (
     find_heater_intervals,
     heater_power_W,
 )
-from calwork.solution.events import LogEvent, LogEvents, find_events
 from calwork.solution.reaction import CALIBRATION_BASES
 from calwork.thermogram import Thermogram
 
@@ -63,7 +63,7 @@ class SolutionOptions:
     u_mass_g
         Standard uncertainty of a weighing, g; default the bundled value.
     half_width_s, n_sigma
-        Event-detection settings (:func:`calwork.solution.events.find_events`).
+        Event-detection settings (:func:`calwork.rise.events.find_events`).
     periods
         ``'events'`` (default): the periods of each event are set from the event detection —
         fore period from the window start to the reading before heater-on / onset, main

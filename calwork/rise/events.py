@@ -34,8 +34,9 @@ from functools import cache
 import numpy as np
 
 from calwork.errors import PeriodDetectionError
+from calwork.thermogram import Thermogram
 
-__all__ = ["LogEvent", "LogEvents", "find_events", "local_slopes_K_per_s"]
+__all__ = ["LogEvent", "LogEvents", "find_events", "list_heat_events", "local_slopes_K_per_s"]
 
 
 def local_slopes_K_per_s(time_s, temperature_K, half_width: int) -> np.ndarray:
@@ -186,6 +187,70 @@ def _theil_sen(x: np.ndarray, y: np.ndarray, max_points: int = 120) -> np.ndarra
     return np.array([c, float(np.median(y - c * x))])
 
 
+def _departures(t: np.ndarray, T: np.ndarray, quiet: np.ndarray, h: int, n_sigma: float,
+                *, slope: np.ndarray | None = None, robust_start: bool = True,
+                passes: int = 3) -> tuple[list[tuple[int, int]], np.ndarray, float]:
+    """Stretches where the local slope departs from Newtonian drift, the slope residuals and
+    their robust noise.
+
+    Newtonian drift is ``g = a + c T``: a Theil–Sen line through (T, g) of the ``quiet``
+    readings (an event's readings are a small minority), then least squares with trimming
+    (``passes`` times). With ``robust_start=False`` (the events already masked out of
+    ``quiet``) the Theil–Sen start is skipped.
+    """
+    if slope is None:
+        slope = local_slopes_K_per_s(t, T, h)
+    if np.count_nonzero(quiet) < 10:
+        quiet = np.ones(t.size, dtype=bool)
+    coef = (_theil_sen(T[quiet] - T[0], slope[quiet]) if robust_start
+            else _line(T[quiet] - T[0], slope[quiet]))
+    r = slope - (coef[0] * (T - T[0]) + coef[1])
+    sigma = _robust_sigma(r[quiet])
+    use = quiet & (np.abs(r) < 5.0 * sigma) if sigma > 0 else quiet.copy()
+    for _ in range(passes):
+        if np.count_nonzero(use) < 10:
+            break
+        coef = _line(T[use] - T[0], slope[use])
+        r = slope - (coef[0] * (T - T[0]) + coef[1])
+        sigma = _robust_sigma(r[use])
+        if sigma <= 0:
+            break
+        trimmed = quiet & (np.abs(r) < 5.0 * sigma)
+        if np.count_nonzero(trimmed) < 10:
+            break
+        use = trimmed
+    resid = slope - (coef[0] * (T - T[0]) + coef[1])
+    if sigma <= 0:
+        sigma = max(float(np.std(resid[quiet])), 1e-12)
+    active = np.abs(resid) > n_sigma * sigma
+    return _segments(active, merge_gap=h, min_points=3), resid, float(sigma)
+
+
+def _windows(events: list[dict], t: np.ndarray, h: int, dt: float, settle_fraction: float,
+             min_drift_s: float, warnings: list[str]) -> list[LogEvent]:
+    """Each event's window: from a little after the previous event to just before the next."""
+    out = []
+    for i, e in enumerate(events):
+        prev_end = events[i - 1]["active_end"] if i > 0 else float(t[0])
+        w0 = prev_end + settle_fraction * (e["start"] - prev_end) if i > 0 else float(t[0])
+        w1 = events[i + 1]["start"] - (h + 1) * dt if i + 1 < len(events) else float(t[-1])
+        if e["start"] - w0 < min_drift_s:
+            warnings.append(f"{e['kind']} at {e['start']:.0f} s: drift period before it is only "
+                            f"{e['start'] - w0:.0f} s")
+        if w1 - e["active_end"] < min_drift_s:
+            warnings.append(f"{e['kind']} at {e['start']:.0f} s: drift period after it is only "
+                            f"{max(w1 - e['active_end'], 0.0):.0f} s")
+        if w1 <= e["start"]:
+            raise PeriodDetectionError(
+                f"events overlap: the {e['kind']} at {e['start']:.0f} s has no after period",
+                column="fire_time_s", found=e["start"])
+        out.append(LogEvent(kind=e["kind"], start_s=float(e["start"]), end_s=float(e["end"]),
+                            active_end_s=float(e["active_end"]), window_start_s=float(w0),
+                            window_end_s=float(w1), u_start_s=float(e["u_start"]),
+                            u_end_s=float(e["u_end"]), source=e["source"]))
+    return out
+
+
 def find_events(
     time_s,
     temperature_K,
@@ -237,7 +302,6 @@ def find_events(
     T = np.asarray(temperature_K, dtype=float)
     dt = float(np.median(np.diff(t)))
     h = max(2, round(half_width_s / dt))
-    slope = local_slopes_K_per_s(t, T, h)
     heaters = sorted((float(h_[0]), float(h_[1]), float(h_[2]), float(h_[3]),
                       str(h_[4]) if len(h_) > 4 else heater_source)
                      for h_ in heater_intervals)
@@ -246,31 +310,7 @@ def find_events(
         quiet &= ~((t >= on - (h + 1) * dt) & (t <= off + (4 * h + 1) * dt))
     if fire_time_s is not None:
         quiet &= ~((t >= fire_time_s - (h + 1) * dt) & (t <= fire_time_s + 10 * h * dt))
-    if np.count_nonzero(quiet) < 10:
-        quiet = np.ones(t.size, dtype=bool)
-    # Newtonian drift g = a + c T on the quiet readings, robustly: a Theil–Sen line through
-    # (T, g) (an event's readings are a small minority), then least squares with trimming
-    coef = _theil_sen(T[quiet] - T[0], slope[quiet])
-    r = slope - (coef[0] * (T - T[0]) + coef[1])
-    sigma = _robust_sigma(r[quiet])
-    use = quiet & (np.abs(r) < 5.0 * sigma) if sigma > 0 else quiet.copy()
-    for _ in range(3):
-        if np.count_nonzero(use) < 10:
-            break
-        coef = _line(T[use] - T[0], slope[use])
-        r = slope - (coef[0] * (T - T[0]) + coef[1])
-        sigma = _robust_sigma(r[use])
-        if sigma <= 0:
-            break
-        trimmed = quiet & (np.abs(r) < 5.0 * sigma)
-        if np.count_nonzero(trimmed) < 10:
-            break
-        use = trimmed
-    resid = slope - (coef[0] * (T - T[0]) + coef[1])
-    if sigma <= 0:
-        sigma = max(float(np.std(resid[quiet])), 1e-12)
-    active = np.abs(resid) > n_sigma * sigma
-    segments = _segments(active, merge_gap=h, min_points=3)
+    segments, resid, sigma = _departures(t, T, quiet, h, n_sigma)
 
     events: list[dict] = []
     claimed = np.zeros(len(segments), dtype=bool)
@@ -308,24 +348,79 @@ def find_events(
                            "active_end": float(t[b]), "u_start": 0.0, "u_end": 0.0,
                            "source": "detected"})
     events.sort(key=lambda e: e["start"])
-    out = []
-    for i, e in enumerate(events):
-        prev_end = events[i - 1]["active_end"] if i > 0 else float(t[0])
-        w0 = prev_end + settle_fraction * (e["start"] - prev_end) if i > 0 else float(t[0])
-        w1 = events[i + 1]["start"] - (h + 1) * dt if i + 1 < len(events) else float(t[-1])
-        if e["start"] - w0 < min_drift_s:
-            warnings.append(f"{e['kind']} at {e['start']:.0f} s: drift period before it is only "
-                            f"{e['start'] - w0:.0f} s")
-        if w1 - e["active_end"] < min_drift_s:
-            warnings.append(f"{e['kind']} at {e['start']:.0f} s: drift period after it is only "
-                            f"{max(w1 - e['active_end'], 0.0):.0f} s")
-        if w1 <= e["start"]:
-            raise PeriodDetectionError(
-                f"events overlap: the {e['kind']} at {e['start']:.0f} s has no after period",
-                column="fire_time_s", found=e["start"])
-        out.append(LogEvent(kind=e["kind"], start_s=float(e["start"]), end_s=float(e["end"]),
-                            active_end_s=float(e["active_end"]), window_start_s=float(w0),
-                            window_end_s=float(w1), u_start_s=float(e["u_start"]),
-                            u_end_s=float(e["u_end"]), source=e["source"]))
+    out = _windows(events, t, h, dt, settle_fraction, min_drift_s, warnings)
+    return LogEvents(events=tuple(out), noise_slope_K_per_s=float(sigma),
+                     warnings=tuple(warnings))
+
+
+def list_heat_events(
+    thermogram: Thermogram,
+    *,
+    half_width_s: float = 15.0,
+    n_sigma: float = 8.0,
+    min_gap_s: float = 120.0,
+    min_fraction: float = 0.05,
+    settle_fraction: float = 0.2,
+    min_drift_s: float = 60.0,
+) -> LogEvents:
+    """Every heat event of a log, whatever its nature, with the window to reduce it on.
+
+    An event is a stretch where the temperature departs from Newtonian drift (see
+    :func:`find_events`); stretches closer than ``min_gap_s`` (or 10 readings) are one event
+    (a two-body transient, a slow dissolution), and stretches whose departure from drift is
+    below ``min_fraction`` of the largest event's are noise, not events. An event during
+    which the ``heater_V`` channel shows power is labelled ``'heater'``, the others
+    ``'event'``. The rise engine refuses to reduce a log with several events as one.
+
+    Parameters
+    ----------
+    thermogram
+        The log.
+    half_width_s, n_sigma
+        As for :func:`find_events`.
+    min_gap_s
+        Shortest drift period between two separate events, s.
+    min_fraction
+        Smallest departure from drift, relative to the largest event, that counts as an event.
+    """
+    t = np.asarray(thermogram.time_s, dtype=float)
+    T = np.asarray(thermogram.temperature_K, dtype=float)
+    if t.size < 12:
+        return LogEvents(events=(), noise_slope_K_per_s=0.0)
+    dt = float(np.median(np.diff(t)))
+    h = max(2, round(half_width_s / dt))
+    slope = local_slopes_K_per_s(t, T, h)
+    segments, resid, sigma = _departures(t, T, np.ones(t.size, dtype=bool), h, n_sigma,
+                                         slope=slope, passes=1)
+    # the first pass's events, masked out, sharpen the drift baseline of the second
+    quiet = np.ones(t.size, dtype=bool)
+    for a, b in segments:
+        quiet[max(a - 2 * h, 0):b + 4 * h + 1] = False
+    segments, resid, sigma = _departures(t, T, quiet, h, n_sigma, slope=slope,
+                                         robust_start=False, passes=1)
+    gap = max(round(min_gap_s / dt), 10)
+    merged: list[list[int]] = []
+    for a, b in segments:
+        if merged and a - merged[-1][1] <= gap:
+            merged[-1][1] = b
+        else:
+            merged.append([a, b])
+    step = np.gradient(t)
+    size = [abs(float(np.sum(resid[a:b + 1] * step[a:b + 1]))) for a, b in merged]
+    biggest = max(size, default=0.0)
+    heater = thermogram.channels.get("heater_V")
+    events: list[dict] = []
+    for (a, b), departure in zip(merged, size, strict=True):
+        if departure < min_fraction * biggest:
+            continue
+        powered = heater is not None and bool(
+            np.nanmax(np.abs(np.asarray(heater)[a:b + 1]), initial=0.0)
+            > 0.5 * np.nanmax(np.abs(np.asarray(heater)), initial=0.0) > 0)
+        start = float(t[max(a - h, 0)])
+        events.append({"kind": "heater" if powered else "event", "start": start,
+                       "end": float(t[b]), "active_end": float(t[b]), "u_start": 0.0,
+                       "u_end": 0.0, "source": "detected"})
+    warnings: list[str] = []
+    out = _windows(events, t, h, dt, settle_fraction, min_drift_s, warnings)
     return LogEvents(events=tuple(out), noise_slope_K_per_s=float(sigma),
                      warnings=tuple(warnings))
