@@ -353,6 +353,10 @@ def find_events(
                      warnings=tuple(warnings))
 
 
+#: Dense logs are scanned for events on block means of at most this many points.
+_SCAN_POINTS = 600
+
+
 def list_heat_events(
     thermogram: Thermogram,
     *,
@@ -387,6 +391,15 @@ def list_heat_events(
     T = np.asarray(thermogram.temperature_K, dtype=float)
     if t.size < 12:
         return LogEvents(events=(), noise_slope_K_per_s=0.0)
+    heater = thermogram.channels.get("heater_V")
+    heater = None if heater is None else np.abs(np.asarray(heater, dtype=float))
+    if t.size > _SCAN_POINTS:
+        # events last minutes: block means of a dense log keep them and bound the cost
+        block = -(-t.size // _SCAN_POINTS)
+        n = t.size // block * block
+        t, T = (x[:n].reshape(-1, block).mean(axis=1) for x in (t, T))
+        if heater is not None:
+            heater = heater[:n].reshape(-1, block).max(axis=1)
     dt = float(np.median(np.diff(t)))
     h = max(2, round(half_width_s / dt))
     slope = local_slopes_K_per_s(t, T, h)
@@ -408,14 +421,13 @@ def list_heat_events(
     step = np.gradient(t)
     size = [abs(float(np.sum(resid[a:b + 1] * step[a:b + 1]))) for a, b in merged]
     biggest = max(size, default=0.0)
-    heater = thermogram.channels.get("heater_V")
     events: list[dict] = []
     for (a, b), departure in zip(merged, size, strict=True):
         if departure < min_fraction * biggest:
             continue
         powered = heater is not None and bool(
-            np.nanmax(np.abs(np.asarray(heater)[a:b + 1]), initial=0.0)
-            > 0.5 * np.nanmax(np.abs(np.asarray(heater)), initial=0.0) > 0)
+            np.nanmax(heater[a:b + 1], initial=0.0)
+            > 0.5 * np.nanmax(heater, initial=0.0) > 0)
         start = float(t[max(a - h, 0)])
         events.append({"kind": "heater" if powered else "event", "start": start,
                        "end": float(t[b]), "active_end": float(t[b]), "u_start": 0.0,
