@@ -152,11 +152,18 @@ def _segments(mask: np.ndarray, merge_gap: int, min_points: int) -> list[tuple[i
     return [(a, b) for a, b in merged if b - a + 1 >= min_points]
 
 
+def _median(x: np.ndarray) -> float:
+    """The upper median (one partition; a robust location needs no averaging of the two
+    middle values, and this is several times faster than ``np.median`` on short arrays)."""
+    k = x.size // 2
+    return float(np.partition(x, k)[k])
+
+
 def _robust_sigma(r: np.ndarray) -> float:
     r = r[np.isfinite(r)]
     if r.size == 0:
         return 0.0
-    return float(1.4826 * np.median(np.abs(r - np.median(r))))
+    return 1.4826 * _median(np.abs(r - _median(r)))
 
 
 def _line(x: np.ndarray, y: np.ndarray) -> np.ndarray:
@@ -173,7 +180,7 @@ def _pairs(n: int) -> tuple[np.ndarray, np.ndarray]:
     return np.triu_indices(n, k=1)
 
 
-def _theil_sen(x: np.ndarray, y: np.ndarray, max_points: int = 120) -> np.ndarray:
+def _theil_sen(x: np.ndarray, y: np.ndarray, max_points: int = 60) -> np.ndarray:
     """Median-of-pairwise-slopes line ``y = c x + a`` (on at most ``max_points`` readings)."""
     if x.size > max_points:
         pick = (np.arange(max_points) * (x.size - 1)) // (max_points - 1)
@@ -182,9 +189,9 @@ def _theil_sen(x: np.ndarray, y: np.ndarray, max_points: int = 120) -> np.ndarra
     dx = x[j] - x[i]
     ok = np.abs(dx) > 0
     if not np.any(ok):
-        return np.array([0.0, float(np.median(y))])
-    c = float(np.median((y[j] - y[i])[ok] / dx[ok]))
-    return np.array([c, float(np.median(y - c * x))])
+        return np.array([0.0, _median(y)])
+    c = _median((y[j] - y[i])[ok] / dx[ok])
+    return np.array([c, _median(y - c * x)])
 
 
 def _departures(t: np.ndarray, T: np.ndarray, quiet: np.ndarray, h: int, n_sigma: float,
