@@ -79,6 +79,7 @@ _TEMPERATURE_UNITS = {
     "c": "C", "°c": "C", "degc": "C", "deg c": "C", "celsius": "C", "oc": "C", "º c": "C",
     "ºc": "C", "℃": "C",
     "k": "K", "kelvin": "K",
+    "f": "F", "°f": "F", "degf": "F", "deg f": "F", "fahrenheit": "F", "℉": "F",
     "ohm": "ohm", "ω": "ohm", "ohms": "ohm", "Ω": "ohm",
 }
 
@@ -102,20 +103,23 @@ def time_to_s(value: float, unit: str) -> float:
 
 
 def parse_temperature_unit(text: str) -> str:
-    """Normalise a temperature unit to ``'C'``, ``'K'`` or ``'ohm'`` (raw sensor resistance)."""
+    """Normalise a temperature unit to ``'C'``, ``'K'``, ``'F'`` or ``'ohm'`` (raw sensor
+    resistance)."""
     key = re.sub(r"\s+", " ", text.strip()).lower()
     if key in _TEMPERATURE_UNITS:
         return _TEMPERATURE_UNITS[key]
     if text.strip() in _TEMPERATURE_UNITS:
         return _TEMPERATURE_UNITS[text.strip()]
-    raise UnitError("unknown temperature unit", found=text, expected="°C, K or ohm")
+    raise UnitError("unknown temperature unit", found=text, expected="°C, K, °F or ohm")
 
 
 def temperature_to_K(value, unit: str):
-    """Convert a temperature (not a difference) in ``'C'`` or ``'K'`` to kelvin."""
+    """Convert a temperature (not a difference) in ``'C'``, ``'K'`` or ``'F'`` to kelvin."""
     unit = parse_temperature_unit(unit)
     if unit == "C":
         return value + CELSIUS_ZERO_K
     if unit == "K":
         return value
+    if unit == "F":
+        return (value - 32.0) * (5.0 / 9.0) + CELSIUS_ZERO_K
     raise UnitError("a resistance needs a sensor model to become a temperature", found=unit)

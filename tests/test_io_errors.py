@@ -172,7 +172,6 @@ def test_too_few_points(tmp_path):
 @pytest.mark.parametrize(
     ("header", "message", "column"),
     [
-        ("time_s,temperature_F", "cannot parse the temperature unit", "temperature_F"),
         ("time_s,T [furlong]", "cannot parse the temperature unit", "T [furlong]"),
         ("time [fortnight],T [K]", "cannot parse the time unit", "time [fortnight]"),
     ],
@@ -183,11 +182,24 @@ def test_unit_errors_in_header(tmp_path, header, message, column):
         read_log(path)
 
 
+def test_a_fahrenheit_header_is_read_and_its_values_checked(tmp_path):
+    # °F is a unit calwork reads; 298 "°F" is kelvin typed under the wrong unit
+    path = _log(tmp_path, ["time_s,temperature_F", *_readings(T0=298.0)])
+    with pytest.raises(SensorRangeError, match="look like kelvin"):
+        read_log(path)
+    path = _log(tmp_path, ["time_s,temperature_F", *_readings(T0=77.0)], "f.csv")
+    # 77 °F = 25 °C exactly (definition of the scales)
+    assert read_log(path).temperature_K[0] == pytest.approx(298.15, abs=1e-9)
+
+
 def test_unit_errors_in_arguments(tmp_path):
     path = _log(tmp_path, ["time_s,temperature_C", *_readings()])
     with pytest.raises(UnitError, match=r"column 'time_unit': unknown time unit.*'fortnight'"):
         read_log(path, time_unit="fortnight")
-    with pytest.raises(UnitError, match=r"unknown temperature unit.*'F'"):
+    with pytest.raises(UnitError, match=r"unknown temperature unit.*'R'"):
+        read_log(path, temperature_unit="R")
+    # °F is known: 25 "°F" is °C given the wrong unit, and the message says so
+    with pytest.raises(SensorRangeError, match=r"read as °F.*look like °C"):
         read_log(path, temperature_unit="F")
     with pytest.raises(ValueCellError, match=_where(path, 2, "time_s") + "not a clock time"):
         read_log(path, time_unit="mm:ss")
@@ -202,7 +214,7 @@ def test_temperature_outside_plausible_range(tmp_path):
         read_log(path)
     # °C values under a K header: 25 K is not a calorimeter temperature
     wrong_unit = _log(tmp_path, ["time_s,temperature_K", *_readings()], name="k.csv")
-    with pytest.raises(SensorRangeError, match=r"read as K.*got 25\.0"):
+    with pytest.raises(SensorRangeError, match=r"read as kelvin.*look like °C.*got 25\.0"):
         read_log(wrong_unit)
 
 

@@ -51,8 +51,10 @@ from calwork.io._text import (
 )
 from calwork.io._xlsx import is_xlsx, read_xlsx_rows
 from calwork.io.sensors import SensorModel, resolve_sensor
+from calwork.plausibility import temperature_slip
 from calwork.provenance import Provenance, calwork_version
 from calwork.thermogram import Thermogram
+from calwork.units import temperature_to_K
 
 __all__ = ["MIN_READINGS", "PLAUSIBLE_RANGE_K", "read_log"]
 
@@ -262,6 +264,28 @@ def _check_range_K(values_K: np.ndarray, raw: np.ndarray, rows: np.ndarray, path
         )
 
 
+_UNIT_WORDS = {"C": "°C", "K": "kelvin", "F": "°F"}
+
+
+def _check_unit_slip(raw: np.ndarray, rows: np.ndarray, path, column: str, unit: str,
+                     inferred: bool) -> None:
+    """A calorimeter log sits near room temperature: readings whose median is far from it in
+    the unit they were read in are a unit slip (°F or kelvin read as °C...), named."""
+    median = float(np.median(raw))
+    slip, (lo, hi) = temperature_slip(median, unit)
+    if slip is None:
+        return
+    i = int(np.argmin(np.abs(raw - median)))
+    how = "no unit given, so read" if inferred else "read"
+    hint = (f"they look like {_UNIT_WORDS[slip]}: give the unit ({slip}) in the header, "
+            "temperature_unit or --temperature-unit" if slip != "?" else
+            "check the unit and the column")
+    raise SensorRangeError(
+        f"temperatures ({how} as {_UNIT_WORDS[unit]}) are not near room temperature; {hint}",
+        path=path, line=int(rows[i]), column=column, found=float(raw[i]),
+        expected=f"{lo:g} to {hi:g} {_UNIT_WORDS[unit]} for a calorimeter (common practice)")
+
+
 def _to_kelvin(raw: np.ndarray, unit: str | None, rows: np.ndarray, path, column: str,
                model: SensorModel | None) -> tuple[np.ndarray, str, bool]:
     """(kelvin, unit used, unit inferred?) for a temperature-like column."""
@@ -296,10 +320,9 @@ def _to_kelvin(raw: np.ndarray, unit: str | None, rows: np.ndarray, path, column
             kelvin = np.asarray(model.temperature_K(raw), dtype=float)
         except SensorRangeError as err:
             raise err.with_context(path=path, column=column) from None
-    elif unit == "C":
-        kelvin = raw + CELSIUS_ZERO_K
     else:
-        kelvin = raw
+        kelvin = np.asarray(temperature_to_K(raw, unit), dtype=float)
+        _check_unit_slip(raw, rows, path, column, unit, inferred)
     _check_range_K(kelvin, raw, rows, path, column, unit)
     return kelvin, unit, inferred
 

@@ -30,6 +30,7 @@ from calwork.io._text import decode_bytes, read_file_bytes
 from calwork.io._xlsx import is_xlsx, read_xlsx_rows
 from calwork.io.logs import read_log
 from calwork.io.sensors import SENSORS
+from calwork.plausibility import PLAUSIBLE_COLUMNS, check_plausible
 from calwork.runinfo import EXTENSION_COLUMNS, RUN_KINDS, RUN_SHEET_COLUMNS, RunInfo
 from calwork.thermogram import Thermogram
 from calwork.units import parse_temperature_unit, parse_time_unit
@@ -99,6 +100,12 @@ def _typed(name: str, raw: Any, where: dict[str, Any]) -> Any:
         if name in _FRACTIONS and not 0.0 <= value <= 1.0:
             raise SheetError("a mass fraction must lie between 0 and 1", found=raw,
                              expected="0 ≤ value ≤ 1 (not percent)", **where)
+        if name in PLAUSIBLE_COLUMNS:
+            try:
+                check_plausible(name, value)
+            except UnitError as err:
+                raise SheetError(err.message, found=raw, expected=err.expected,
+                                 **where) from None
         return value
     if _TYPES[name] is int:
         value = _number(raw, where)
