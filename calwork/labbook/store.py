@@ -45,6 +45,7 @@ __all__ = [
     "connect_checked",
     "crash_point",
     "is_busy",
+    "is_disk_full",
     "resolve_labbook_path",
     "write_transaction",
 ]
@@ -96,6 +97,27 @@ def is_busy(exc: sqlite3.Error) -> bool:
     return name.startswith(("SQLITE_BUSY", "SQLITE_LOCKED")) or "locked" in str(exc)
 
 
+def is_disk_full(exc: BaseException) -> bool:
+    """Whether an error means the disk (or the file-size limit) is full."""
+    if isinstance(exc, sqlite3.Error):
+        name = getattr(exc, "sqlite_errorname", "")
+        return name.startswith("SQLITE_FULL") or "database or disk is full" in str(exc)
+    return isinstance(exc, OSError) and exc.errno in (28, 27)  # ENOSPC, EFBIG
+
+
+def _space_hint(path: Path, exc: BaseException) -> str:
+    """For an I/O failure: the free space of the lab book's disk, the usual cause."""
+    if "disk I/O error" not in str(exc) and not is_disk_full(exc):
+        return ""
+    import shutil
+
+    try:
+        free = shutil.disk_usage(path.parent).free
+    except OSError:
+        return " (is the disk full?)"
+    return f" (is the disk full? {free / 2**20:.0f} MiB free)"
+
+
 def _check_file_header(path: Path) -> None:
     """Refuse files that are not SQLite databases or are truncated, before SQLite sees them."""
     try:
@@ -118,6 +140,13 @@ def _check_file_header(path: Path) -> None:
         raise LabbookFormatError("truncated or corrupt lab book (header incomplete)", path=path)
     n_pages = int.from_bytes(head[28:32], "big")
     header_valid = head[24:28] == head[92:96]
+    wal = path.with_name(path.name + "-wal")
+    with contextlib.suppress(OSError):
+        if wal.stat().st_size > 0:
+            # WAL mode: until a checkpoint completes (it may have stopped at a full disk) the
+            # main file can be shorter than its header says; the pages are in the WAL and
+            # SQLite's recovery reads them. SQLite itself judges such a file.
+            return
     if size % page_size or (header_valid and n_pages and size < n_pages * page_size):
         raise LabbookFormatError(
             "truncated or corrupt lab book (file shorter than its header says)", path=path,
@@ -165,8 +194,16 @@ def write_transaction(conn: sqlite3.Connection, path: Path | None = None, *,
             raise LabbookBusyError(
                 "lab book is busy (another process is writing); retry", path=path
             ) from None
+        if is_disk_full(exc):
+            raise LabbookError("disk full: nothing was written to the lab book; free some "
+                               "space and retry", path=path) from None
+        if "readonly" in str(exc):
+            raise LabbookError("the lab book is read-only here (file or folder not writable); "
+                               "nothing was written", path=path) from None
         if isinstance(exc, sqlite3.DatabaseError):
-            raise LabbookError(f"lab book write failed: {exc}", path=path) from None
+            hint = _space_hint(path, exc) if path is not None else ""
+            raise LabbookError(f"lab book write failed: {exc}{hint}; nothing was written "
+                               "(the transaction was rolled back)", path=path) from None
         raise
 
 
@@ -174,16 +211,22 @@ def _create(path: Path, timeout_s: float, user: str) -> None:
     """Build a new lab book in a temporary file and link it into place atomically."""
     if not path.parent.is_dir():
         raise LabbookError("folder of the lab book does not exist", path=path)
+    if not os.access(path.parent, os.W_OK):
+        raise LabbookError("cannot create the lab book: its folder is not writable", path=path)
     tmp = path.with_name(f".{path.name}.{os.getpid()}.{secrets.token_hex(4)}.creating")
-    conn = sqlite3.connect(str(tmp), timeout=timeout_s, isolation_level=None)
+    conn = None
     try:
+        conn = sqlite3.connect(str(tmp), timeout=timeout_s, isolation_level=None)
         _build_new(conn, tmp, user)
         conn.close()
         _link_into_place(tmp, path)
-    except sqlite3.Error as exc:
+    except (sqlite3.Error, OSError) as exc:
+        if is_disk_full(exc):
+            raise LabbookError("disk full: the lab book was not created", path=path) from None
         raise LabbookError(f"cannot create the lab book: {exc}", path=path) from None
     finally:
-        conn.close()
+        if conn is not None:
+            conn.close()
         for suffix in ("", "-wal", "-shm"):
             with contextlib.suppress(FileNotFoundError):
                 os.unlink(f"{tmp}{suffix}")
@@ -239,21 +282,40 @@ def connect_checked(path: Path, *, create: bool, timeout_s: float,
             )
         _create(path, timeout_s, user)
     _check_file_header(path)
+    read_only = not (os.access(path, os.W_OK) and os.access(path.parent, os.W_OK))
     try:
-        conn = _connect(path, timeout_s)
+        conn = _connect_read_only(path, timeout_s) if read_only else _connect(path, timeout_s)
     except sqlite3.OperationalError as exc:
-        raise LabbookError(f"cannot open the lab book: {exc}", path=path) from None
+        raise LabbookError(f"cannot open the lab book: {exc}{_space_hint(path, exc)}",
+                           path=path) from None
     except sqlite3.Error as exc:
         raise LabbookFormatError(f"cannot open the lab book: {exc}", path=path) from None
     try:
-        _check_identity(conn, path, user)
+        _check_identity(conn, path, user, read_only=read_only)
     except BaseException:
         conn.close()
         raise
     return conn
 
 
-def _check_identity(conn: sqlite3.Connection, path: Path, user: str) -> None:
+def _connect_read_only(path: Path, timeout_s: float) -> sqlite3.Connection:
+    """A lab book in a place this user cannot write (a read-only folder or file): readers
+    work, writers get SQLite's "readonly database" error (a :class:`LabbookError`)."""
+    from urllib.parse import quote
+
+    uri = f"file:{quote(str(path.resolve()))}?mode=ro"
+    wal = path.with_name(path.name + "-wal")
+    if not os.access(path.parent, os.W_OK) and not wal.exists():
+        # no writer can change a file whose folder cannot hold its WAL: reading it as
+        # immutable needs no shared-memory file (which could not be created here)
+        uri += "&immutable=1"
+    conn = sqlite3.connect(uri, uri=True, timeout=timeout_s, isolation_level=None)
+    conn.execute("PRAGMA trusted_schema = OFF")
+    return conn
+
+
+def _check_identity(conn: sqlite3.Connection, path: Path, user: str, *,
+                    read_only: bool = False) -> None:
     try:
         app_id = conn.execute("PRAGMA application_id").fetchone()[0]
         version = conn.execute("PRAGMA user_version").fetchone()[0]
@@ -276,6 +338,13 @@ def _check_identity(conn: sqlite3.Connection, path: Path, user: str) -> None:
                 f"lab book was written by a newer calwork (schema {version}; this calwork "
                 f"{calwork_version()} reads up to schema {SCHEMA_VERSION})", path=path,
             )
+        if read_only:
+            if version < SCHEMA_VERSION:
+                raise LabbookError(
+                    f"the lab book (schema {version}) must be migrated to schema "
+                    f"{SCHEMA_VERSION} before this calwork reads it, and it is read-only "
+                    "here: open it once where it can be written", path=path)
+            return
         if conn.execute("PRAGMA journal_mode").fetchone()[0].lower() != "wal":
             conn.execute("PRAGMA journal_mode = WAL")
         if version < SCHEMA_VERSION:
