@@ -155,11 +155,20 @@ _SAMPLE_COLUMNS = ("sample", "formula", "n_runs", "massic_energy_J_per_g",
 
 
 def _write_csv(path: Path, columns: tuple[str, ...], records: list[dict]) -> None:
+    from calwork.report.sanitise import csv_text  # text from sheets is data, never formulas
+
     with path.open("w", newline="", encoding="utf-8") as fh:
         w = csv.writer(fh)
         w.writerow(columns)
         for rec in records:
-            w.writerow(["" if rec.get(c) is None else rec.get(c) for c in columns])
+            w.writerow(["" if rec.get(c) is None else csv_text(_cell(rec.get(c)))
+                        for c in columns])
+
+
+def _cell(value: object) -> object:
+    if isinstance(value, (list, tuple)):
+        return "; ".join(str(v) for v in value)
+    return value
 
 
 def write_outputs(red: Reduction, out_dir: str | Path, *, plots: bool = True) -> list[Path]:
@@ -212,10 +221,12 @@ def _safe(name: str) -> str:
 
 
 def reduction_markdown(red: Reduction) -> str:
-    """A readable markdown report of a reduction."""
+    """A readable markdown report of a reduction (every text from a sheet or log escaped)."""
+    from calwork.report.sanitise import markdown_text as md
+
     lines = ["# Reduction report", ""]
     if red.sheet_path:
-        lines.append(f"Run sheet: `{red.sheet_path}`  ")
+        lines.append(f"Run sheet: {md(red.sheet_path)}  ")
     lines += [f"Temperature-rise method: {red.method}", "", _SAFETY, ""]
     if red.calibrations:
         header = "| calorimeter | ε / J K⁻¹ | u(ε) / J K⁻¹ | n | RSD / % | outlier test |"
@@ -223,9 +234,9 @@ def reduction_markdown(red: Reduction) -> str:
         for c in red.calibrations:
             t = c.outlier_test
             test = (f"G = {t['G']:.3f} vs {t['G_critical']:.3f}"
-                    f"{' — outlier ' + str(t['suspect']) if t.get('outlier') else ''}"
-                    if t.get("applied") else str(t.get("reason", "")))
-            lines.append(f"| {c.calorimeter} | {_fmt(c.energy_equivalent_J_per_K, 2)} | "
+                    f"{' — outlier ' + md(t['suspect']) if t.get('outlier') else ''}"
+                    if t.get("applied") else md(t.get("reason", "")))
+            lines.append(f"| {md(c.calorimeter)} | {_fmt(c.energy_equivalent_J_per_K, 2)} | "
                          f"{_fmt(c.u_energy_equivalent_J_per_K, 2)} | {c.n_runs} | "
                          f"{_fmt(c.rsd_percent, 4)} | {test} |")
         lines.append("")
@@ -234,14 +245,16 @@ def reduction_markdown(red: Reduction) -> str:
     lines += ["## Runs", "", header, "|---|---|---|---|---|---|---|---|"]
     for r in red.runs:
         corr = ", ".join(f"{k} {v:.2f}" for k, v in r.corrections_J.items() if v)
-        lines.append(f"| {r.run} | {r.kind} | {r.sample or ''} | {_fmt(r.corrected_rise_K, 5)}"
+        lines.append(f"| {md(r.run)} | {md(r.kind)} | {md(r.sample or '')} | "
+                     f"{_fmt(r.corrected_rise_K, 5)}"
                      f" | {_fmt(r.energy_equivalent_J_per_K, 2)} | "
-                     f"{_fmt(r.massic_energy_J_per_g, 2)} | {corr} | {r.error or ''} |")
+                     f"{_fmt(r.massic_energy_J_per_g, 2)} | {corr} | {md(r.error or '')} |")
     lines.append("")
     if red.samples:
         lines += ["## Samples", ""]
         for s in red.samples:
-            lines.append(f"### {s.sample} ({s.formula or 'no formula'}), {s.n_runs} run(s)")
+            lines.append(f"### {md(s.sample)} ({md(s.formula or 'no formula')}), "
+                         f"{s.n_runs} run(s)")
             lines.append("")
             for key in ("massic_energy_J_per_g", "u_massic_energy_J_per_g",
                         "standard_massic_energy_J_per_g", "u_standard_massic_energy_J_per_g",
@@ -258,13 +271,13 @@ def reduction_markdown(red: Reduction) -> str:
             if s.fuel:
                 lines.append("- fuel: " + ", ".join(f"{k} {_fmt(v, 3)}"
                                                     for k, v in s.fuel.items()))
-            lines += [f"- warning: {w}" for w in s.warnings]
+            lines += [f"- warning: {md(w)}" for w in s.warnings]
             lines.append("")
     warns = list(red.warnings) + [f"{c.calorimeter}: {w}" for c in red.calibrations
                                   for w in c.warnings]
     warns += [f"run {r.run}: {w}" for r in red.runs for w in r.warnings]
     if warns:
-        lines += ["## Warnings", ""] + [f"- {w}" for w in warns]
+        lines += ["## Warnings", ""] + [f"- {md(w)}" for w in warns]
     lines.append("")
     lines.append("Uncertainties: u is a standard uncertainty (k = 1); U = 2u (k = 2).")
     return "\n".join(lines) + "\n"

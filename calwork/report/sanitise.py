@@ -12,6 +12,10 @@ Text that comes from a run sheet or a log (sample names, notes, metadata) is dat
   spreadsheet limit of 32 767 characters.
 * :func:`safe_sheet_title` makes a unique, valid worksheet title from free text.
 * :func:`safe_filename` makes a file name (never a path) from free text.
+* :func:`csv_text` and :func:`markdown_text` do the same for the plain-text outputs: a CSV
+  cell that a spreadsheet program would run gets a leading apostrophe (OWASP's advice for
+  CSV injection), and markdown text is HTML-escaped with markdown's own markup characters
+  escaped, so a sample name renders as the text it is.
 """
 
 from __future__ import annotations
@@ -23,7 +27,9 @@ from collections.abc import Iterable
 __all__ = [
     "FORMULA_TRIGGERS",
     "cell_text",
+    "csv_text",
     "is_formula_like",
+    "markdown_text",
     "safe_filename",
     "safe_sheet_title",
 ]
@@ -65,6 +71,39 @@ def cell_text(value: object) -> str:
     if len(text) > MAX_CELL_TEXT:
         text = text[: MAX_CELL_TEXT - 1] + "…"
     return text
+
+
+def csv_text(value: object) -> object:
+    """A CSV cell: numbers as they are, text with a leading apostrophe when formula-like.
+
+    Examples
+    --------
+    >>> csv_text("=1+1"), csv_text(-26.4), csv_text("BA-1")
+    ("'=1+1", -26.4, 'BA-1')
+    """
+    if isinstance(value, str) and is_formula_like(value):
+        return "'" + value
+    return value
+
+
+# characters that make markup inside a line (a list or heading marker needs a line start,
+# which a table cell or the text after "### " never is)
+_MARKDOWN_SPECIAL = re.compile(r"([\\`*_\[\]|~])")
+
+
+def markdown_text(value: object) -> str:
+    r"""Free text for a markdown document: HTML-escaped, inline markup characters
+    backslashed, one line.
+
+    Examples
+    --------
+    >>> print(markdown_text("<script>alert(1)</script> | *x* BA-01"))
+    &lt;script&gt;alert(1)&lt;/script&gt; \| \*x\* BA-01
+    """
+    import html
+
+    text = " ".join(str(value).split())
+    return _MARKDOWN_SPECIAL.sub(r"\\\1", html.escape(text, quote=True))
 
 
 def safe_filename(text: str, *, default: str = "unnamed", max_length: int = 120) -> str:
