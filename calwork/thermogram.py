@@ -13,6 +13,10 @@ from calwork.constants import CELSIUS_ZERO_K
 from calwork.errors import LogFormatError, TimeAxisError, ValueCellError
 from calwork.provenance import Provenance
 
+#: Shortest median interval between readings accepted, s: calorimeter logs are sampled at
+#: 0.1 s at the fastest (common practice); far shorter spacing is a time-unit slip.
+MIN_SAMPLING_INTERVAL_S = 1e-3
+
 __all__ = ["CHANNELS", "Thermogram"]
 
 #: Known optional channels and their meaning (SI units in the names).
@@ -92,6 +96,13 @@ class Thermogram:
                 line=None if rows is None else int(rows[i]),
                 found=float(t[i]), expected=f"a time after {float(t[i - 1])!r} s", **where,
             )
+        spacing = float(np.median(steps)) if steps.size else 1.0
+        if spacing < MIN_SAMPLING_INTERVAL_S:
+            raise TimeAxisError(
+                f"readings only {spacing:.3g} s apart: no calorimeter log is sampled that fast;"
+                " check the time unit (ms read as s, or a time of day in days?)",
+                found=spacing, expected=f"at least {MIN_SAMPLING_INTERVAL_S} s between "
+                "readings", **where)
         chans = {}
         for name, values in dict(self.channels).items():
             arr = _frozen_array(values, name)

@@ -11,6 +11,7 @@ from __future__ import annotations
 import argparse
 import importlib
 import sys
+import warnings
 
 from calwork.errors import CalworkError
 from calwork.provenance import calwork_version
@@ -70,7 +71,11 @@ def main(argv: list[str] | None = None) -> int:
         parser.print_help()
         return 2
     try:
-        return int(args.func(args))
+        with warnings.catch_warnings():
+            # numerical warnings (overflow in a fit on a hopeless record…) are not for the
+            # user: the result carries its own warning codes, or an error says what failed
+            warnings.simplefilter("ignore", RuntimeWarning)
+            return int(args.func(args))
     except CalworkError as exc:
         print(f"calwork {args.command}: error: {exc}", file=sys.stderr)
         return 2

@@ -13,7 +13,7 @@ from importlib import resources
 from pathlib import Path
 from typing import Any
 
-from calwork.errors import DataFileError
+from calwork.errors import CalworkError, DataFileError
 
 __all__ = ["data_path", "load_data", "load_toml"]
 
@@ -23,16 +23,41 @@ def data_path(name: str) -> Path:
     return Path(str(resources.files("calwork.data").joinpath(name)))
 
 
+#: Largest TOML text calwork parses (a run sheet of thousands of runs is well below it).
+MAX_TOML_CHARS = 32 * 2**20
+
+
+def parse_toml_text(text: str, *, path: object = None,
+                    error: type[CalworkError] = DataFileError) -> dict[str, Any]:
+    """Parse TOML text from a file, with every failure as ``error`` naming the file.
+
+    Beyond malformed TOML this catches what :mod:`tomllib` raises on hostile input: an
+    integer of more than 4300 digits (Python's conversion limit), nesting deeper than the
+    parser's recursion allows, and text larger than :data:`MAX_TOML_CHARS`.
+    """
+    if len(text) > MAX_TOML_CHARS:
+        raise error("TOML file too large", path=path, found=f"{len(text)} characters",
+                    expected=f"at most {MAX_TOML_CHARS} characters")
+    try:
+        return tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise error(f"not valid TOML: {exc}", path=path) from None
+    except ValueError as exc:  # e.g. an integer beyond the int-conversion digit limit
+        raise error(f"not valid TOML: {exc}", path=path) from None
+    except RecursionError:
+        raise error("not valid TOML: nested too deeply", path=path) from None
+
+
 def load_toml(path: str | Path) -> dict[str, Any]:
     """Parse a TOML data file (bundled or the user's) and check it names its source."""
     path = Path(path)
     try:
-        with path.open("rb") as fh:
-            data = tomllib.load(fh)
+        text = path.read_text(encoding="utf-8")
     except FileNotFoundError:
         raise DataFileError("data file not found", path=path) from None
-    except tomllib.TOMLDecodeError as exc:
-        raise DataFileError(f"not valid TOML: {exc}", path=path) from None
+    except (OSError, UnicodeDecodeError) as exc:
+        raise DataFileError(f"cannot read the data file ({exc})", path=path) from None
+    data = parse_toml_text(text, path=path)
     if "source" not in data:
         raise DataFileError("data file must have a [source] table naming its origin", path=path)
     return data

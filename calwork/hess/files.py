@@ -42,12 +42,12 @@ from __future__ import annotations
 import csv
 import math
 import re
-import tomllib
 from collections.abc import Mapping
 from pathlib import Path
 from typing import Any
 
 from calwork.constants import T_REF_K
+from calwork.data import parse_toml_text
 from calwork.errors import CalworkError, InputFileError, NetworkError, ValueCellError
 from calwork.hess.kirchhoff import Piecewise, cp_model_from_dict
 from calwork.hess.network import Network
@@ -187,10 +187,7 @@ def _header_lines(text: str, table: str) -> list[int]:
 
 
 def _read_toml(path: Path, text: str) -> Network:
-    try:
-        data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        raise NetworkError(f"not valid TOML: {exc}", path=path) from None
+    data = parse_toml_text(text, path=path, error=NetworkError)
     known = {"determination", "species", "heat_capacity", "correlation", "name", "source"}
     unknown = sorted(set(data) - known)
     if unknown:

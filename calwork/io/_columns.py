@@ -217,6 +217,16 @@ def plan_columns(
 
     def plan(i: int, role: str, unit_arg: str | None, parse, named: bool = False) -> ColumnPlan:
         unit, source, error = roles[i][1], roles[i][2], roles[i][3]
+        own = roles[i][0]
+        # time against a temperature-like role (temperature, resistance, jacket…): the
+        # column's unit is of the wrong kind; a resistance read as temperature is fine
+        if (own is not None and (own == "time") != (role == "time") and unit is not None
+                and unit_arg is None):
+            # a user-named column whose header states a unit of another kind ('jacket_C'
+            # as the time column): its unit must not be read as one of this role
+            raise ColumnError(f"holds {own} values ({unit}), not {role}",
+                              path=path, column=header[i], found=header[i],
+                              expected=f"a {role} column (or give its unit with {role}_unit)")
         if unit_arg is not None:
             unit, source = parse(unit_arg), "argument"
         elif error is not None:  # a unit that does not parse matters only for a used column

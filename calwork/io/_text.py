@@ -51,14 +51,17 @@ _WS_HEADER = re.compile(r"[^\s\[\(]+(?:\s*[\[\(][^\]\)]*[\]\)])?|[\[\(][^\]\)]*[
 def read_file_bytes(path: str | Path) -> tuple[bytes, str]:
     """The file's bytes and their SHA-256; missing or unreadable files raise InputFileError."""
     p = Path(path)
+    if "\x00" in str(p):
+        raise InputFileError("a file name cannot contain a NUL character", path=repr(str(p)))
     try:
         data = p.read_bytes()
     except FileNotFoundError:
         raise InputFileError("file not found", path=path) from None
     except IsADirectoryError:
         raise InputFileError("is a directory, not a file", path=path) from None
-    except OSError as exc:
-        raise InputFileError(f"cannot read the file: {exc.strerror or exc}", path=path) from None
+    except (OSError, ValueError) as exc:  # ENAMETOOLONG, ELOOP, …
+        reason = getattr(exc, "strerror", None) or str(exc)
+        raise InputFileError(f"cannot read the file: {reason}", path=path) from None
     return data, sha256_bytes(data)
 
 

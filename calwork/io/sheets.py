@@ -13,12 +13,12 @@ import csv
 import io
 import math
 import re
-import tomllib
 from collections.abc import Iterable, Mapping
 from datetime import date, datetime
 from pathlib import Path, PurePosixPath, PureWindowsPath
 from typing import Any
 
+from calwork.data import parse_toml_text
 from calwork.errors import (
     CalworkError,
     DuplicateRunError,
@@ -374,10 +374,7 @@ def _csv_rows(text: str, path: Path) -> list[tuple[int, list[Any]]]:
 
 
 def _toml_records(text: str, path: Path):
-    try:
-        data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        raise SheetError(f"not valid TOML: {exc}", path=path) from None
+    data = parse_toml_text(text, path=path, error=SheetError)
     tables = data.get("run")
     if not isinstance(tables, list) or not all(isinstance(t, dict) for t in tables):
         raise SheetError("a TOML run sheet needs [[run]] tables", path=path,

@@ -25,6 +25,7 @@ from dataclasses import dataclass
 from datetime import UTC, datetime
 from typing import Any
 
+from calwork.errors import LabbookIntegrityError
 from calwork.results import jsonable
 
 __all__ = ["GENESIS_HASH", "AuditEntry", "append", "canonical_json", "check_chain",
@@ -86,7 +87,19 @@ class AuditEntry:
     def from_row(cls, row: tuple) -> AuditEntry:
         id_, ts, user, action, obj, reason, details, prev, h = row
         return cls(id=id_, ts_utc=ts, user=user, action=action, object=obj, reason=reason,
-                   details=json.loads(details), prev_hash=prev, hash=h)
+                   details=json_of(details, f"audit entry #{id_}", column="details"),
+                   prev_hash=prev, hash=h)
+
+
+def json_of(text: str | None, where: str, *, column: str = "json") -> Any:
+    """A stored JSON text, or :class:`LabbookIntegrityError` naming the damaged row."""
+    if text is None:
+        return None
+    try:
+        return json.loads(text)
+    except (ValueError, TypeError) as exc:
+        raise LabbookIntegrityError(f"{where}: the stored {column} is not valid JSON ({exc})",
+                                    column=column, expected="the JSON calwork wrote") from None
 
 
 def entry_hash(id_: int, ts_utc: str, user: str, action: str, obj: str, reason: str,

@@ -10,7 +10,12 @@ from collections.abc import Callable
 from pathlib import Path
 from typing import Any, TypeVar
 
-from calwork.errors import LabbookBusyError, LabbookError, LabbookFormatError
+from calwork.errors import (
+    LabbookBusyError,
+    LabbookError,
+    LabbookFormatError,
+    LabbookIntegrityError,
+)
 from calwork.labbook import audit, ingest, queries, store
 from calwork.labbook import backup as _backup
 from calwork.labbook import export as _export
@@ -39,6 +44,10 @@ def _guarded(method: Callable[..., _T]) -> Callable[..., _T]:
             raise LabbookError(f"lab book error: {exc}", path=self.path) from None
         except sqlite3.DatabaseError as exc:
             raise LabbookFormatError(f"corrupt lab book: {exc}", path=self.path) from None
+        except json.JSONDecodeError as exc:
+            raise LabbookIntegrityError(
+                f"damaged record: a stored JSON text does not parse ({exc}); run `calwork "
+                "labbook verify` to name it", path=self.path) from None
 
     return wrapper
 

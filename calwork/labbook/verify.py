@@ -28,6 +28,7 @@ from typing import Any
 
 from calwork.errors import LabbookIntegrityError
 from calwork.labbook import audit
+from calwork.labbook.audit import json_of
 from calwork.labbook.blobs import unpack
 from calwork.labbook.ingest import date_key, results_digest, runs_digest, stored_bundle_digest
 from calwork.labbook.schema import EXPECTED_TRIGGERS
@@ -158,11 +159,11 @@ def _changed_runs(conn: sqlite3.Connection, sheet_id: int) -> list[str]:
     """Name the run rows of a sheet whose columns disagree with their own stored sheet row
     (``row_json``, as ``ingest`` wrote both) or with the hashed results of the run."""
     recorded: dict[str, list[dict[str, Any]]] = {}
-    for key, text in conn.execute(
-            "SELECT res.key, res.json FROM results res JOIN reductions red"
+    for rid, key, text in conn.execute(
+            "SELECT res.id, res.key, res.json FROM results res JOIN reductions red"
             " ON red.id = res.reduction_id WHERE red.sheet_id = ? AND res.type = 'run'",
             (sheet_id,)):
-        recorded.setdefault(key, []).append(json.loads(text))
+        recorded.setdefault(key, []).append(json_of(text, f"result row {rid} (run {key})"))
     out = []
     for pk, run, line, kind, cal, sample, date, dkey, row_text in conn.execute(
             "SELECT id, run, line, kind, calorimeter, sample, date, date_key, row_json"
@@ -228,6 +229,15 @@ def _check_calibrations(conn: sqlite3.Connection, problems: list[str]) -> None:
                             "is missing")
 
 
+def _noting(problems: list[str], default: Any, check: Any) -> Any:
+    """Run one check; a damaged row it cannot read is a finding, not a crash."""
+    try:
+        return check()
+    except LabbookIntegrityError as exc:
+        problems.append(exc.message)
+        return default
+
+
 def verify(conn: sqlite3.Connection) -> VerifyReport:
     """Run every check (see the module docstring); never raises for a failed check."""
     problems: list[str] = []
@@ -240,11 +250,12 @@ def verify(conn: sqlite3.Connection) -> VerifyReport:
                  for t in sorted(EXPECTED_TRIGGERS - triggers)]
     problems += [f"unexpected trigger {t}" for t in sorted(triggers - EXPECTED_TRIGGERS)]
     problems += audit.check_chain(conn)
-    entries = audit.entries(conn)
+    entries = _noting(problems, [], lambda: audit.entries(conn))
     n_blobs = _check_blobs(conn, problems)
-    n_results = _check_results(conn, entries, problems)
-    n_sheets, n_runs, n_voids = _check_records(conn, entries, problems)
-    _check_calibrations(conn, problems)
+    n_results = _noting(problems, 0, lambda: _check_results(conn, entries, problems))
+    n_sheets, n_runs, n_voids = _noting(problems, (0, 0, 0),
+                                        lambda: _check_records(conn, entries, problems))
+    _noting(problems, None, lambda: _check_calibrations(conn, problems))
     counts = {"audit entries": len(entries), "blobs": n_blobs, "sheets": n_sheets,
               "runs": n_runs, "void runs": n_voids, "results": n_results}
     return VerifyReport(problems=tuple(problems), counts=counts)

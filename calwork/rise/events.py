@@ -408,7 +408,7 @@ def list_heat_events(
         if heater is not None:
             heater = heater[:n].reshape(-1, block).max(axis=1)
     dt = float(np.median(np.diff(t)))
-    h = max(2, round(half_width_s / dt))
+    h = max(2, min(round(half_width_s / dt), t.size // 4))
     slope = local_slopes_K_per_s(t, T, h)
     segments, resid, sigma = _departures(t, T, np.ones(t.size, dtype=bool), h, n_sigma,
                                          slope=slope, passes=1)

@@ -11,12 +11,11 @@ two heat capacities form one body.
 from __future__ import annotations
 
 import math
-import tomllib
 from dataclasses import asdict, dataclass, fields, replace
 from pathlib import Path
 from typing import Any
 
-from calwork.data import load_data
+from calwork.data import load_data, parse_toml_text
 from calwork.errors import ChoiceError, InputFileError, SimulationError, check_choice
 
 __all__ = ["INITIAL_STATES", "PRESETS", "CalorimeterParams"]
@@ -269,15 +268,15 @@ class CalorimeterParams:
         """
         path = Path(path)
         try:
-            with path.open("rb") as fh:
-                data = tomllib.load(fh)
+            text = path.read_text(encoding="utf-8")
         except FileNotFoundError:
             raise InputFileError("calorimeter parameter file not found", path=path) from None
+        except UnicodeDecodeError:
+            raise InputFileError("the file is not UTF-8 text", path=path) from None
         except OSError as exc:
             raise InputFileError(f"cannot read the file: {exc.strerror or exc}",
                                  path=path) from None
-        except tomllib.TOMLDecodeError as exc:
-            raise SimulationError(f"not valid TOML: {exc}", path=path) from None
+        data = parse_toml_text(text, path=path, error=SimulationError)
         table = data.get("calorimeter")
         if not isinstance(table, dict):
             raise SimulationError("no [calorimeter] table", path=path,

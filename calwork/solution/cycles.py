@@ -57,7 +57,6 @@ from __future__ import annotations
 
 import csv
 import math
-import tomllib
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 from fractions import Fraction
@@ -65,7 +64,7 @@ from pathlib import Path
 from typing import Any
 
 from calwork.constants import T_REF_K
-from calwork.data import load_data
+from calwork.data import load_data, parse_toml_text
 from calwork.errors import CalworkError, ExportError, InputFileError, NetworkError
 from calwork.hess.key_values import KeyValues, load_key_values
 from calwork.hess.network import Network, solve_network
@@ -280,10 +279,7 @@ def _load_spec(path_or_spec: str | Path | Mapping[str, Any]) -> tuple[dict[str, 
         raise InputFileError("cycle file not found", path=path) from None
     except (OSError, UnicodeDecodeError) as exc:
         raise InputFileError(f"cannot read the cycle file ({exc})", path=path) from None
-    try:
-        return tomllib.loads(text), str(path)
-    except tomllib.TOMLDecodeError as exc:
-        raise NetworkError(f"not valid TOML: {exc}", path=path) from None
+    return parse_toml_text(text, path=path, error=NetworkError), str(path)
 
 
 def _number(raw: Mapping[str, Any], key: str, where: dict[str, Any], *,
