@@ -120,3 +120,35 @@ def test_anchor_column_in_files_and_cli(tmp_path, capsys):
                    "x,CO(g) + 1/2 O2(g) = CO2(g),-283,0.1,perhaps\n", encoding="utf-8")
     with pytest.raises(ValueCellError, match="anchor"):
         read_network_file(bad)
+
+
+def test_a_tiny_uncertainty_is_not_rank_deficiency():
+    # 1e-12 kJ/mol makes the whitened matrix scaled by 1e12; identifiability is a property
+    # of the stoichiometry alone, so every species stays determined
+    rows = (
+        R("C(cr,graphite) + O2(g) = CO2(g)", -393.51, 0.13, id="c1"),
+        R("CO(g) + 1/2 O2(g) = CO2(g)", -282.98, 1e-12, id="c2"),
+        R("H2(g) + 1/2 O2(g) = H2O(l)", -285.83, 0.04, id="h1"),
+        R("CH4(g) + 2 O2(g) = CO2(g) + 2 H2O(l)", -890.6, 0.3, id="m1"),
+        R("CH3OH(l) + 3/2 O2(g) = CO2(g) + 2 H2O(l)", COMB_TRUE, 0.25, id="m2"),
+        R("CH3OH(l) = CH3OH(g)", 38.0, 0.2, id="v1"),
+        R("H2O(l) = H2O(g)", 44.0, 0.02, id="v2"),
+    )
+    res = solve_network(Network(determinations=rows), key_values=False, worst_offender="none")
+    assert res.undetermined == ()
+    assert len(res.species) == 7
+    assert any(w.startswith("c2: u = 1e-12") and "implausibly small" in w
+               for w in res.warnings)
+    # the row is then exact: Δ_fH°(CO) = Δ_fH°(CO2) − Δ_rH(c2) (hand algebra)
+    co2, _ = res.value("CO2(g)")
+    co, _ = res.value("CO(g)")
+    assert co == pytest.approx(co2 + 282.98, abs=1e-6)
+    # and the solution is continuous in u: close to that with u = 1e-6 kJ/mol. A weight
+    # ratio of 1e12 costs double precision about eps·1e12·|y|/u_others ≈ 0.01 kJ/mol in the
+    # species the heavy row touches (measured: 0.0097 for CH3OH), far below every real u
+    mild = solve_network(Network(determinations=tuple(
+        Reaction(stoichiometry=r.stoichiometry, delta_r_H_kJ_per_mol=r.delta_r_H_kJ_per_mol,
+                 u_delta_r_H_kJ_per_mol=1e-6 if r.id == "c2" else r.u_delta_r_H_kJ_per_mol,
+                 id=r.id) for r in rows)), key_values=False, worst_offender="none")
+    for name in res.species:
+        assert res.value(name)[0] == pytest.approx(mild.value(name)[0], abs=0.02)

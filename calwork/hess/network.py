@@ -46,6 +46,9 @@ WORST_OFFENDER_MODES = ("none", "report", "inflate")
 #: Largest number of unknowns for which the full covariance matrix is returned.
 FULL_COVARIANCE_MAX = 2000
 _T_TOLERANCE_K = 0.005
+#: Smallest standard uncertainty of a determination taken as plausible, kJ/mol (1 J/mol:
+#: the best calorimetric and key values are ~10–40 J/mol; common practice).
+_U_PLAUSIBLE_MIN_KJ_PER_MOL = 1e-3
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -206,6 +209,12 @@ def _assemble(network: Network, key_values: bool | KeyValues | None,
             ci.append(col)
             vals.append(c)
     a = sp.csr_matrix((vals, (ri, ci)), shape=(len(rows), len(unknowns)))
+    warnings.extend(
+        f"{r.id}: u = {r.u_delta_r_H_kJ_per_mol:.3g} kJ/mol is implausibly small (no "
+        f"thermochemical measurement is better than {_U_PLAUSIBLE_MIN_KJ_PER_MOL * 1e3:g} "
+        "J/mol); the row dominates the network" for r in rows
+        if r.u_delta_r_H_kJ_per_mol is not None
+        and 0 < r.u_delta_r_H_kJ_per_mol < _U_PLAUSIBLE_MIN_KJ_PER_MOL)
     ids = [r.id for r in rows]
     pos = {rid: j for j, rid in enumerate(ids)}
     offdiag: dict[tuple[int, int], float] = {}

@@ -32,6 +32,9 @@ __all__ = ["DENSE_MAX_UNKNOWNS", "ComponentSolution", "LinearSolution", "solve_w
 DENSE_MAX_UNKNOWNS = 600
 _RCOND = 1e-10
 _CG_RTOL = 1e-12
+#: Row weights (1/u) spread wider than this make a single SVD of the whitened matrix call
+#: well-determined directions null; the rank is then found from the unweighted matrix.
+_WEIGHT_RATIO_MAX = 1e6
 
 
 @dataclass
@@ -197,7 +200,9 @@ def _block_pcg(n: sp.csr_matrix, b: np.ndarray, precond: np.ndarray, *,
     return x, it
 
 
-def _solve_dense(a_c: np.ndarray, yw: np.ndarray, a_orig: np.ndarray) -> tuple:
+def _solve_dense_direct(a_c: np.ndarray, yw: np.ndarray, a_orig: np.ndarray) -> tuple:
+    """One SVD of the whitened matrix: rank-revealing while the row weights are of
+    comparable size (see :data:`_WEIGHT_RATIO_MAX`)."""
     m, n = a_c.shape
     a_pad = a_c if m >= n else np.vstack([a_c, np.zeros((n - m, n))])
     u_, s, vt = np.linalg.svd(a_pad, full_matrices=False)
@@ -207,6 +212,38 @@ def _solve_dense(a_c: np.ndarray, yw: np.ndarray, a_orig: np.ndarray) -> tuple:
     x = vr @ ((ur.T @ yw) / sr)
     cov = (vr / sr**2) @ vr.T
     null = vt[rank:].T
+    fit_var = np.sum((a_orig @ cov) * a_orig, axis=1)
+    return x, rank, null, cov, fit_var
+
+
+def _solve_dense(a_c: np.ndarray, yw: np.ndarray, a_orig: np.ndarray) -> tuple:
+    """Weighted least squares of one component.
+
+    Which unknowns the data determine does not depend on the weights, so the rank and the
+    null space come from the *unweighted* stoichiometry (rows scaled to unit length):
+    a tiny (but positive) uncertainty, which makes the whitened matrix badly scaled, can
+    then not pass for rank deficiency. The weighted problem is solved in the row space.
+    """
+    m, n = a_c.shape
+    norms = np.linalg.norm(a_orig, axis=1)
+    weights = np.linalg.norm(a_c, axis=1) / np.where(norms > 0, norms, 1.0)
+    if weights.size and weights.max() <= _WEIGHT_RATIO_MAX * weights.min():
+        return _solve_dense_direct(a_c, yw, a_orig)
+    a_unit = a_orig / np.where(norms > 0, norms, 1.0)[:, None]
+    a_pad = a_unit if m >= n else np.vstack([a_unit, np.zeros((n - m, n))])
+    _, s, vt = np.linalg.svd(a_pad, full_matrices=False)  # a_pad has ≥ n rows: vt is n × n
+    tol = (s[0] if s.size else 0.0) * _RCOND * max(m, n)
+    rank = int(np.sum(s > tol)) if s.size and s[0] > 0 else 0
+    v_r, null = vt[:rank].T, vt[rank:].T
+    b = a_c @ v_r  # the whitened problem in row-space coordinates: full column rank
+    ub, sb, vbt = np.linalg.svd(b, full_matrices=False)
+    if sb.size and not sb[-1] > 0:
+        raise UncertaintyError("the weighted network is singular in its own row space",
+                               found=float(sb[-1]))
+    z = vbt.T @ ((ub.T @ yw) / sb)
+    x = v_r @ z
+    w = v_r @ (vbt.T / sb)
+    cov = w @ w.T
     fit_var = np.sum((a_orig @ cov) * a_orig, axis=1)
     return x, rank, null, cov, fit_var
 
