@@ -114,9 +114,16 @@ def register(subparsers: argparse._SubParsersAction) -> None:
 
     p = sub.add_parser("verify", help="check the audit chain and every stored file",
                        description="Check the audit hash chain, every stored raw file "
-                       "against its SHA-256, the stored results against the audit record, "
-                       "and the insert-only triggers. Exit 0 if intact, 1 otherwise.")
+                       "against its SHA-256, the stored results and records against the audit "
+                       "record, the schema (views, triggers, indexes) and the insert-only "
+                       "triggers. Exit 0 if intact, 1 otherwise. Record the printed head "
+                       "(--print-head) somewhere outside the lab book and check against it "
+                       "later (--expect-head): a chain rebuilt from scratch cannot contain it.")
     p.add_argument("--json", action="store_true", help="print one JSON object")
+    p.add_argument("--print-head", action="store_true",
+                   help="also print the hash of the newest audit entry")
+    p.add_argument("--expect-head", metavar="HASH",
+                   help="fail unless the audit chain contains this recorded head")
     _common(p)
     p.set_defaults(func=_verify)
 
@@ -294,11 +301,13 @@ def _recompute(args: argparse.Namespace) -> int:
 
 def _verify(args: argparse.Namespace) -> int:
     with _open(args) as book:
-        report = book.verify()
+        report = book.verify(expect_head=args.expect_head)
     if args.json:
         print_json(report)
     else:
         print(report.report())
+        if args.print_head:
+            print(f"audit head: {report.head} (entry #{report.head_entry})")
     return 0 if report.ok else 1
 
 

@@ -164,9 +164,10 @@ class Labbook:
                                     jobs=jobs)
 
     @_guarded
-    def verify(self) -> _verify.VerifyReport:
-        """Check the audit chain, the blobs, the results and the triggers."""
-        return _verify.verify(self._conn)
+    def verify(self, *, expect_head: str | None = None) -> _verify.VerifyReport:
+        """Check the schema, the audit chain, the blobs, the results and the triggers (and
+        that the chain contains ``expect_head``, a head recorded earlier)."""
+        return _verify.verify(self._conn, expect_head=expect_head)
 
     @_guarded
     def export_raw(self, run: str, dest: str | os.PathLike[str]) -> list[Path]:

@@ -246,7 +246,9 @@ def add_sheet(conn: sqlite3.Connection, path: Path, sheet_path: str | Path, *, m
                      "files": {f["rel_path"]: f["sha256"] for f in files},
                      "runs": [i.run for i in infos], "reduction": red_id,
                      "method": method, "results_sha256": digest,
-                     "runs_sha256": runs_digest(conn, sheet_id)},
+                     "runs_sha256": runs_digest(conn, sheet_id),
+                     "sheet_record_sha256": sheet_record_digest(conn, sheet_id),
+                     "results_meta_sha256": results_meta_digest(conn, red_id)},
         )
         crash_point("audit")
     crash_point("committed")
@@ -334,6 +336,26 @@ def insert_reduction(conn: sqlite3.Connection, sheet_id: int, version: int,
     return red_id, results_digest(red_text, hashes)
 
 
+def sheet_record_digest(conn: sqlite3.Connection, sheet_id: int) -> str:
+    """SHA-256 over a sheets row's stored columns that no other digest covers (original path,
+    the sheet's rows as read); recorded in the audit log, checked by verify."""
+    row = conn.execute("SELECT original_path, rows_json FROM sheets WHERE id = ?",
+                       (sheet_id,)).fetchone()
+    return sha256_bytes(audit.canonical_json(list(row) if row else []).encode())
+
+
+def results_meta_digest(conn: sqlite3.Connection, reduction_id: int) -> str:
+    """SHA-256 over the method, calwork version and constants of a reduction and its results
+    (the columns beside each result's hashed JSON); recorded in the audit log."""
+    red = conn.execute("SELECT method, calwork_version, runs_json, full_sheet FROM reductions"
+                       " WHERE id = ?", (reduction_id,)).fetchone()
+    rows = conn.execute("SELECT seq, type, key, method, calwork_version, constants_json"
+                        " FROM results WHERE reduction_id = ? ORDER BY seq",
+                        (reduction_id,)).fetchall()
+    return sha256_bytes(audit.canonical_json([list(red or []), [list(r) for r in rows]])
+                        .encode())
+
+
 def results_digest(reduction_json: str, result_hashes: Sequence[str]) -> str:
     """SHA-256 binding a reduction's summary and its results (recorded in the audit log)."""
     return sha256_bytes(audit.canonical_json(
@@ -379,7 +401,8 @@ def void_run(conn: sqlite3.Connection, path: Path, run: str, *, reason: str,
             conn, user=user, action="void", obj=f"run:{run}", reason=reason, ts_utc=now,
             details={"run": run, "sheet": sheet_id, "reduction": red_id,
                      "version": current[1] + 1, "active_runs": active,
-                     "results_sha256": digest},
+                     "results_sha256": digest,
+                     "results_meta_sha256": results_meta_digest(conn, red_id)},
         )
         conn.execute(
             "INSERT INTO run_voids (run_id, reason, voided_utc, voided_by, audit_id)"

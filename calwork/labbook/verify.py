@@ -30,8 +30,15 @@ from calwork.errors import LabbookIntegrityError
 from calwork.labbook import audit
 from calwork.labbook.audit import json_of
 from calwork.labbook.blobs import unpack
-from calwork.labbook.ingest import date_key, results_digest, runs_digest, stored_bundle_digest
-from calwork.labbook.schema import EXPECTED_TRIGGERS
+from calwork.labbook.ingest import (
+    date_key,
+    results_digest,
+    results_meta_digest,
+    runs_digest,
+    sheet_record_digest,
+    stored_bundle_digest,
+)
+from calwork.labbook.schema import EXPECTED_TRIGGERS, migrate
 from calwork.provenance import sha256_bytes
 
 __all__ = ["VerifyReport", "verify"]
@@ -43,13 +50,18 @@ class VerifyReport:
 
     problems: tuple[str, ...]
     counts: dict[str, int] = field(default_factory=dict)
+    #: hash of the newest audit entry (record it outside the lab book, and give it back with
+    #: ``expect_head`` later: a rebuilt chain cannot contain it)
+    head: str | None = None
+    head_entry: int | None = None
 
     @property
     def ok(self) -> bool:
         return not self.problems
 
     def to_dict(self) -> dict[str, Any]:
-        return {"ok": self.ok, "problems": list(self.problems), "counts": dict(self.counts)}
+        return {"ok": self.ok, "problems": list(self.problems), "counts": dict(self.counts),
+                "head": self.head, "head_entry": self.head_entry}
 
     def report(self) -> str:
         checked = ", ".join(f"{n} {k}" for k, n in self.counts.items())
@@ -111,6 +123,11 @@ def _check_results(conn: sqlite3.Connection, entries: list[audit.AuditEntry],
         elif entry.details.get("results_sha256") != results_digest(text, hashes.get(red_id, [])):
             problems.append(f"reductions row {red_id} (sheet #{sheet_id}): results differ "
                             f"from those recorded by audit row {entry.id}")
+        elif ("results_meta_sha256" in entry.details
+              and entry.details["results_meta_sha256"] != results_meta_digest(conn, red_id)):
+            problems.append(f"reductions row {red_id} (sheet #{sheet_id}): the stored method, "
+                            "calwork version or constants differ from those recorded by audit "
+                            f"row {entry.id}")
     return n
 
 
@@ -118,12 +135,23 @@ def _check_records(conn: sqlite3.Connection, entries: list[audit.AuditEntry],
                    problems: list[str]) -> tuple[int, int, int]:
     adds = _audit_by(entries, "add")
     n_sheets = 0
-    for sheet_id, bundle in conn.execute("SELECT id, bundle_sha256 FROM sheets"):
+    for sheet_id, bundle, added_utc, added_by, file_name in conn.execute(
+            "SELECT id, bundle_sha256, added_utc, added_by, file_name FROM sheets"):
         n_sheets += 1
         entry = adds.get(sheet_id)
         if entry is None:
             problems.append(f"sheets row {sheet_id}: no audit entry records it")
             continue
+        # ingest writes the sheets row with the audit entry's time and user (entries that
+        # name the file; older lab books' entries may not)
+        if "file_name" in entry.details and (added_utc, added_by, file_name) != (
+                entry.ts_utc, entry.user, entry.details["file_name"]):
+            problems.append(f"sheets row {sheet_id}: who, when or the file name differ from "
+                            f"audit row {entry.id}")
+        if ("sheet_record_sha256" in entry.details
+                and entry.details["sheet_record_sha256"] != sheet_record_digest(conn, sheet_id)):
+            problems.append(f"sheets row {sheet_id}: the original path or the stored sheet rows "
+                            f"differ from those recorded by audit row {entry.id}")
         recorded = entry.details.get("bundle_sha256")
         if recorded != bundle or recorded != stored_bundle_digest(conn, sheet_id):
             problems.append(f"sheets row {sheet_id}: raw files differ from those recorded by "
@@ -229,6 +257,45 @@ def _check_calibrations(conn: sqlite3.Connection, problems: list[str]) -> None:
                             "is missing")
 
 
+def _schema_objects(conn: sqlite3.Connection) -> dict[tuple[str, str], str]:
+    """(type, name) → definition: the SQL of views, triggers and indexes (white space
+    folded), the column list of tables (``ALTER TABLE`` in migrations rewrites a table's
+    stored text, not its columns)."""
+    out: dict[tuple[str, str], str] = {}
+    for kind, name, sql in conn.execute(
+            "SELECT type, name, sql FROM sqlite_master WHERE name NOT LIKE 'sqlite_%'"):
+        if kind == "table":
+            cols = conn.execute(f'PRAGMA table_info("{name}")').fetchall()
+            out[(kind, name)] = ", ".join(f"{c[1]} {c[2]}" for c in cols)
+        else:
+            out[(kind, name)] = " ".join((sql or "").split())
+    return out
+
+
+def _check_schema(conn: sqlite3.Connection) -> list[str]:
+    """Every view, trigger, index and table as calwork defines them: a redefined view (one
+    statement that would undo a void in every listing) or an extra object is a finding."""
+    fresh = sqlite3.connect(":memory:")
+    try:
+        migrate(fresh, 0)
+        expected = _schema_objects(fresh)
+    finally:
+        fresh.close()
+    actual = _schema_objects(conn)
+    problems = []
+    for key in sorted(set(expected) | set(actual)):
+        kind, name = key
+        if kind == "trigger" and (key not in actual) != (key not in expected):
+            continue  # missing/unexpected triggers are reported by the trigger check
+        if key not in actual:
+            problems.append(f"{kind} {name} is missing from the schema")
+        elif key not in expected:
+            problems.append(f"unexpected {kind} {name} in the schema (not calwork's)")
+        elif actual[key] != expected[key]:
+            problems.append(f"{kind} {name} differs from calwork's definition (redefined)")
+    return problems
+
+
 def _noting(problems: list[str], default: Any, check: Any) -> Any:
     """Run one check; a damaged row it cannot read is a finding, not a crash."""
     try:
@@ -238,8 +305,13 @@ def _noting(problems: list[str], default: Any, check: Any) -> Any:
         return default
 
 
-def verify(conn: sqlite3.Connection) -> VerifyReport:
-    """Run every check (see the module docstring); never raises for a failed check."""
+def verify(conn: sqlite3.Connection, *, expect_head: str | None = None) -> VerifyReport:
+    """Run every check (see the module docstring); never raises for a failed check.
+
+    ``expect_head`` is an audit head recorded earlier outside the lab book: the chain must
+    still contain it (entries may have been added since); a chain rebuilt by someone with
+    write access, consistent in itself, does not.
+    """
     problems: list[str] = []
     for (msg,) in conn.execute("PRAGMA quick_check"):
         if msg != "ok":
@@ -249,6 +321,7 @@ def verify(conn: sqlite3.Connection) -> VerifyReport:
     problems += [f"trigger {t} is missing (insert-only protection removed)"
                  for t in sorted(EXPECTED_TRIGGERS - triggers)]
     problems += [f"unexpected trigger {t}" for t in sorted(triggers - EXPECTED_TRIGGERS)]
+    problems += _check_schema(conn)
     problems += audit.check_chain(conn)
     entries = _noting(problems, [], lambda: audit.entries(conn))
     n_blobs = _check_blobs(conn, problems)
@@ -258,4 +331,12 @@ def verify(conn: sqlite3.Connection) -> VerifyReport:
     _noting(problems, None, lambda: _check_calibrations(conn, problems))
     counts = {"audit entries": len(entries), "blobs": n_blobs, "sheets": n_sheets,
               "runs": n_runs, "void runs": n_voids, "results": n_results}
-    return VerifyReport(problems=tuple(problems), counts=counts)
+    last = conn.execute("SELECT id, hash FROM audit ORDER BY id DESC LIMIT 1").fetchone()
+    if expect_head is not None:
+        wanted = expect_head.strip().lower()
+        if conn.execute("SELECT 1 FROM audit WHERE hash = ?", (wanted,)).fetchone() is None:
+            problems.append(f"the recorded audit head {wanted} is not in the audit chain (the "
+                            "chain was rebuilt, or entries were removed)")
+    return VerifyReport(problems=tuple(problems), counts=counts,
+                        head=None if last is None else last[1],
+                        head_entry=None if last is None else last[0])
