@@ -261,3 +261,31 @@ def test_key_values_table_convention():
     assert ext["CO2(g)"].u_kJ_per_mol == 0.2
     assert "Xe2(g)" in ext
     assert "Xe2(g)" not in kv
+
+
+def test_large_network_says_which_uncertainties_it_did_not_compute():
+    # 2 100 isomers (above the full-covariance size): each linked to the first and to its
+    # neighbour, the first one known; values follow from the differences
+    rng = np.random.default_rng(5)
+    n = 2100
+    names = [f"C4H10(g,isomer{k})" for k in range(n)]
+    truth = rng.normal(-130.0, 5.0, n)
+    rows = [F(names[0], truth[0], 0.5, id="known")]
+    for k in range(1, n):
+        rows.append(R(f"{names[0]} = {names[k]}", truth[k] - truth[0], 0.4, id=f"a{k}"))
+        rows.append(R(f"{names[k - 1]} = {names[k]}", truth[k] - truth[k - 1], 0.4,
+                      id=f"b{k}"))
+    net = Network(determinations=tuple(r for r in rows if r.id != "known"),
+                  priors=(rows[0],))
+    res = solve_network(net, key_values=False, worst_offender="none")
+    assert res.undetermined == ()
+    assert all(v is not None for v in res.values.values())
+    note = [w for w in res.warnings if w.startswith("uncertainties-not-computed")]
+    assert len(note) == 1
+    assert f"{n} of {n} determined species" in note[0]
+    picked = [names[1], names[1500]]
+    res = solve_network(net, key_values=False, worst_offender="none",
+                        covariance_species=picked)
+    assert all(res.uncertainties[p] > 0 for p in picked)
+    assert f"{n - 2} of {n} determined species" in next(
+        w for w in res.warnings if w.startswith("uncertainties-not-computed"))

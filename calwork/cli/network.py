@@ -61,6 +61,9 @@ def register(subparsers: argparse._SubParsersAction) -> None:
                         "uncertainties until consistent, or skip")
     p.add_argument("--threshold", type=float, default=2.0,
                    help="|standardised residual| regarded as consistent (default 2)")
+    p.add_argument("--uncertainty-of", action="append", metavar="SPECIES", default=None,
+                   help="species whose uncertainty (and covariance) to compute; repeatable "
+                        "(large networks compute only these)")
     p.set_defaults(func=run)
 
 
@@ -78,6 +81,7 @@ def run(args: argparse.Namespace) -> int:
         threshold=args.threshold, monte_carlo=args.monte_carlo, seed=args.seed,
         coverage_factor=args.coverage_factor,
         include_species=target.species if target is not None else (),
+        covariance_species=args.uncertainty_of,
     )
     if target is not None:
         target = result.reaction_enthalpy(target)

@@ -396,6 +396,14 @@ def solve_network(
     else:
         variances = {w: float(cov[k, k]) for k, w in enumerate(cov_names)}
     values = {names[i]: (float(sol.x[i]) if sol.determined[i] else None) for i in range(n)}
+    missing_u = [w for w in determined if w not in variances]
+    if missing_u:
+        warnings.append(
+            f"uncertainties-not-computed: {len(missing_u)} of {len(determined)} determined "
+            f"species have no uncertainty: the network has {n} unknowns and its covariance "
+            f"is formed only up to {FULL_COVARIANCE_MAX} (each species beyond costs one "
+            "sparse solve); ask for the species you need (covariance_species, or "
+            "`calwork network --uncertainty-of SPECIES`)")
     mc = None
     if monte_carlo:
         mc = monte_carlo_check(sol, names, variances, int(monte_carlo), seed, coverage_factor)
