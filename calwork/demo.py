@@ -37,9 +37,9 @@ from calwork.formula import element_counts, molar_mass_g_per_mol
 __all__ = ["DEMO_SAMPLES", "build_sample_runs"]
 
 #: Invented truth of the demo samples: ΔfH°(cr) in kJ/mol taken from the literature values
-#: listed in REFERENCES.md §4 (succinic acid −940.5, Vanderzee et al. 1972, recalled from memory;
-#: acetanilide −209.4, CRC via the ``chemicals`` library), with density g/cm³ and massic heat
-#: capacity J/(g K) (typical values, common practice) for the bomb contents.
+#: listed in docs/references.md §4 (succinic acid −940.5, Vanderzee et al. 1972, recalled
+#: from memory; acetanilide −209.4, CRC via the ``chemicals`` library), with density g/cm³
+#: and massic heat capacity J/(g K) (typical values, common practice) for the bomb contents.
 DEMO_SAMPLES = {
     "succinic acid": {"formula": "C4H6O4", "delta_f_H_kJ_per_mol": -940.5,
                       "density_g_per_cm3": 1.56, "cp_J_per_g_K": 1.15, "mass_g": (0.95, 1.15),
@@ -110,7 +110,7 @@ def _bomb_day(out: Path, rng: np.random.Generator) -> list[dict[str, Any]]:
             mass = round(float(rng.uniform(*spec["mass_g"])), 5)
             (eps_i, eps_f), e_hno3, washburn_J = _contents(formula, mass, rho, cp, titre, conc)
             standard = _standard_massic_energy_J_per_g(formula, spec["delta_f_H_kJ_per_mol"])
-            # bomb process = standard state − Washburn correction (ΔU_Σ, METHODS.md §3.5)
+            # bomb process = standard state − Washburn correction (ΔU_Σ, docs/methods.md §3.5)
             heat = -(standard * mass - washburn_J)
             run_id = f"{'SA' if name == 'succinic acid' else 'AC'}-{i + 1:02d}"
             sample = name

@@ -4,7 +4,7 @@ Public import path of :mod:`calwork.simulation` (parameters, heat inputs, exact 
 integrator, run and scenario builders). Everything it produces is invented data and is labelled
 ``simulated: true`` in the thermogram metadata.
 
-Model (METHODS.md §1.1, §1.9, §1.10, §2): an inner body (bomb, or reaction vessel/ampoule
+Model (docs/methods.md §1.1, §1.9, §1.10, §2): an inner body (bomb, or reaction vessel/ampoule
 holder, ``C_b``) and the calorimeter water (``C_w``) coupled by ``G_bw``; Newtonian exchange of
 the water with a jacket at ``T_j(t) = T_j0 + drift·(t − t_start)`` through ``G``; constant
 stirring power into the water; heat inputs into the inner body (combustion) or the water

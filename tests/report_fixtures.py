@@ -11,7 +11,7 @@ numbers follow the chain's definitions:
 * ΔcU° = M·Δu°/1000, ΔcH° = ΔcU° + Δn_g·R·T/1000, ΔfH° = a·ΔfH°(CO2) + b/2·ΔfH°(H2O) − ΔcH°.
 
 The massic energy the simulated sample releases is invented; the certified value 26 434 J/g
-is NIST SRM 39j (REFERENCES.md §2).
+is NIST SRM 39j (docs/references.md §2).
 """
 
 from __future__ import annotations
@@ -35,7 +35,7 @@ from calwork.rise import corrected_rise
 from calwork.runinfo import RunInfo
 from calwork.simulate import CalorimeterParams, CombustionPulse, simulate_run
 
-CERTIFIED_J_PER_G = 26434.0  # NIST SRM 39j, mass in vacuum (REFERENCES.md §2, confirmed)
+CERTIFIED_J_PER_G = 26434.0  # NIST SRM 39j, mass in vacuum (docs/references.md §2, confirmed)
 SAMPLE_J_PER_G = 40_230.0  # invented massic energy of the simulated sample, J/g
 REL = 1e-9  # acceptance tolerance of the formula check (engine vs calwork, relative)
 

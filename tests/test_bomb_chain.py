@@ -44,7 +44,7 @@ def test_calibration_with_contents_refers_to_298():
                    reference_material="benzoic acid", **BOMB)
     r = reduce_calibration_run(info, rise(T_i=298.15))
     d = r.details
-    # starting at T_ref: ε(calor) ΔT = Q − ε^f ΔT  (METHODS (3.2))
+    # starting at T_ref: ε(calor) ΔT = Q − ε^f ΔT  (docs/methods.md (3.2))
     q = 26434 * jessup_factor(3.04, 1 / 0.342, 1 / 0.342, 298.15)
     assert r.energy_equivalent_J_per_K == pytest.approx(
         (q - d["eps_final_contents_J_per_K"] * 2.6) / 2.6, rel=1e-12)

@@ -42,7 +42,7 @@ ATM_MPa = STANDARD_ATMOSPHERE_Pa / 1e6
 # --- certificate and Jessup factor -----------------------------------------------------------
 def test_bundled_certificate_values():
     rm = load_reference_material("Benzoic Acid")
-    # NIST SRM 39j certificate (REFERENCES.md §2, confirmed): 26 434 J/g, ± 3 J/g, 1.320 g/cm³
+    # NIST SRM 39j certificate (docs/references.md §2, confirmed): 26 434 J/g, ± 3 J/g, 1.320 g/cm³
     assert rm.certified_J_per_g == 26434.0
     assert rm.density_g_per_cm3 == 1.320
     # documented assumption: the ± 3 J/g is expanded with k = 2 -> u = 1.5 J/g
@@ -55,7 +55,7 @@ def test_bundled_certificate_values():
 @pytest.mark.parametrize(
     ("p_atm", "s", "w", "t_C", "expected"),
     [
-        # Jessup test vectors (REFERENCES.md §2, derived from the recalled formula)
+        # Jessup test vectors (docs/references.md §2, derived from the recalled formula)
         (30, 3, 3, 25, 1.0),
         (25, 2.924, 2.924, 25, 0.9998945),
         (30, 3, 3, 20, 1.000225),
@@ -69,7 +69,7 @@ def test_jessup_vectors(p_atm, s, w, t_C, expected):
 
 def test_jessup_energies_match_reference_table():
     rm = load_reference_material("benzoic acid")
-    # REFERENCES.md §2: 26 431.21, 26 439.95, 26 436.64 J/g (derived)
+    # docs/references.md §2: 26 431.21, 26 439.95, 26 436.64 J/g (derived)
     for args, value in [((25, 2.924, 2.924, 25), 26431.21), ((30, 3, 3, 20), 26439.95),
                         ((35, 3, 3, 25), 26436.64)]:
         p, s, w, t = args
@@ -87,7 +87,7 @@ def test_sheet_certified_value_keeps_relative_uncertainty():
 # --- buoyancy ---------------------------------------------------------------------------------
 def test_buoyancy_certificate_check():
     # 26 434 J/g in vacuum = 26 454 J/g per gram weighed in air against brass (benzoic acid
-    # 1.320, air 0.0012, brass 8.4 g/cm³; benzoic-acid certificates, REFERENCES.md §2)
+    # 1.320, air 0.0012, brass 8.4 g/cm³; benzoic-acid certificates, docs/references.md §2)
     assert 26434 * buoyancy_factor(1.320) == pytest.approx(26454, abs=0.5)
     # first-order form printed on the certificate: 26 454.25 (derived)
     linear = 26434 * (1 + 0.0012 * (1 / 1.320 - 1 / 8.4))
@@ -102,10 +102,10 @@ def test_buoyancy_certificate_check():
 
 # --- corrections ------------------------------------------------------------------------------
 def test_nitric_acid_per_mL():
-    # METHODS.md §3.4: 0.0866 mol/L titrant with ΔfU(HNO3, aq) = −59.7 kJ/mol -> ≈ 5.17 J/mL
+    # docs/methods.md §3.4: 0.0866 mol/L titrant with ΔfU(HNO3, aq) = −59.7 kJ/mol -> ≈ 5.17 J/mL
     n = nitric_acid_mol(1.0, 0.0866)
     assert nitric_acid_energy_J(n)[0] == pytest.approx(5.170, abs=0.001)
-    # 0.0709 N titrant gives about 1 cal per mL (old ASTM coal practice, METHODS §3.4 ≈ 4.18 J)
+    # 0.0709 N titrant gives about 1 cal per mL (old ASTM coal practice, docs/methods.md §3.4 ≈ 4.18 J)
     assert nitric_acid_energy_J(nitric_acid_mol(1.0, 0.0709))[0] == pytest.approx(4.23, abs=0.01)
 
 
@@ -143,7 +143,7 @@ def test_soot_uses_codata_carbon_dioxide():
 
 
 def test_sulfuric_acid_conventions():
-    # fuel convention: ≈ 9.4 J per mg S (METHODS.md §3.4)
+    # fuel convention: ≈ 9.4 J per mg S (docs/methods.md §3.4)
     e, _ = sulfuric_acid_energy_J(1e-3 / 32.06, "fuel")
     assert e == pytest.approx(9.40, abs=0.01)
     # recomputed from ΔfH(H2SO4 in 115 H2O) = −887.81 (NBS 1982, recalled), SO2(g) −296.81
@@ -151,7 +151,7 @@ def test_sulfuric_acid_conventions():
     du = -887.81 + 296.81 + 285.830 + 1.5 * R_J_per_mol_K * 298.15 / 1000
     assert load_data("bomb_corrections.toml")["sulfuric_acid"][
         "delta_r_U_from_SO2_kJ_per_mol"] == pytest.approx(du, abs=0.01)
-    # ASTM total-acid practice: the extra S correction ≈ 5.7 J per mg S (METHODS §3.4)
+    # ASTM total-acid practice: the extra S correction ≈ 5.7 J per mg S (docs/methods.md §3.4)
     astm = (301.45 - 2 * 59.7) / 32.06
     assert astm == pytest.approx(5.7, abs=0.1)
     # thermochemical: already at 115 H2O -> nothing; a more concentrated bomb solution
@@ -215,7 +215,7 @@ def test_exact_unit_factors():
 
 
 def test_net_value_constants_from_codata_water():
-    # REFERENCES.md §8a derivation: CODATA ΔfH(H2O, l) = −285.830, ΔfH(H2O, g) = −241.826
+    # docs/references.md §8a derivation: CODATA ΔfH(H2O, l) = −285.830, ΔfH(H2O, g) = −241.826
     # kJ/mol; M(H2O) = 18.015, M(H) = 1.008 (conventional atomic weights)
     M_w = molar_mass_g_per_mol("H2O")
     M_H = molar_mass_g_per_mol("H")
@@ -271,7 +271,7 @@ def test_bases():
 
 def test_astm_d240_check_fuel_isooctane():
     # ASTM D240 §8.2: 2,2,4-trimethylpentane, gross heat of combustion 47.788 MJ/kg (weight in
-    # air, confirmed). Its ΔfH°(l) = −259.2 kJ/mol (CRC via chemicals; REFERENCES.md §4) gives
+    # air, confirmed). Its ΔfH°(l) = −259.2 kJ/mol (CRC via chemicals; docs/references.md §4) gives
     # through this chain ΔcH° → ΔcU° → gross CV in vacuum → × buoyancy (liquid density
     # 0.6919 g/cm³, recalled) the same value within 0.01 MJ/kg.
     from calwork.hess import combustion_link

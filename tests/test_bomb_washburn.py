@@ -42,7 +42,7 @@ def per_gram(p=P30, s=3.0, w=3.0, V=1.0):
 def test_benzoic_acid_standard_bomb_conditions():
     # Δcu° from the NIST WebBook ΔcH° = −3226.87 kJ/mol (Mosselman & Dekker 1969) with
     # Δn(gas) = −1/2: ΔcU° = ΔcH° + RT/2, per gram with conventional atomic weights
-    # (REFERENCES.md §2a: −26 413.0 J/g); the certificate's −26 434 J/g holds under standard
+    # (docs/references.md §2a: −26 413.0 J/g); the certificate's −26 434 J/g holds under standard
     # bomb conditions (3.04 MPa, 3 g sample and 3 g water per litre, 25 °C).
     target = (-3226.87e3 + 0.5 * RT) / M_BA
     assert target == pytest.approx(-26413.0, abs=0.5)
@@ -68,7 +68,7 @@ def test_jessup_coefficients_from_first_principles():
 
 
 def test_term_signs_and_magnitudes():
-    # METHODS.md §3.6 table: R2 (O2 initial) negative, tens of J; P1 (final gas) positive;
+    # docs/methods.md §3.6 table: R2 (O2 initial) negative, tens of J; P1 (final gas) positive;
     # P2 (dissolved, final) positive, a few J; R4/P3 water vapour nearly cancel; compression
     # of the condensed sample negative, ~0.1 J/g
     r = washburn_correction([ba(1.0)], bomb_volume_L=0.342, o2_pressure_MPa=3.04,
@@ -119,7 +119,7 @@ def test_virial_coefficients_against_library_and_data():
         assert dB == pytest.approx(
             chem_virial.BVirial_Tsonopoulos(298.15, tc, pc, w, order=1), rel=1e-9)
     # measured B at 298 K (Dymond & Smith compilation, recalled): O2 −16, CO2 −124, N2 −4.5
-    # cm³/mol; METHODS §3.6 T dB/dT ≈ +57 (O2), +290 (CO2), +55 (N2) cm³/mol
+    # cm³/mol; docs/methods.md §3.6 T dB/dT ≈ +57 (O2), +290 (CO2), +55 (N2) cm³/mol
     b = {g: virial_B_m3_per_mol(g, g, 298.15) for g in ("O2", "CO2", "N2")}
     assert b["O2"][0] * 1e6 == pytest.approx(-16, abs=2)
     assert b["CO2"][0] * 1e6 == pytest.approx(-124, abs=5)
@@ -127,7 +127,7 @@ def test_virial_coefficients_against_library_and_data():
     assert 298.15 * b["O2"][1] * 1e6 == pytest.approx(57, rel=0.15)
     assert 298.15 * b["CO2"][1] * 1e6 == pytest.approx(290, rel=0.10)
     assert 298.15 * b["N2"][1] * 1e6 == pytest.approx(55, rel=0.15)
-    # cross coefficient O2–CO2 ≈ −45 cm³/mol (METHODS §3.6, recalled)
+    # cross coefficient O2–CO2 ≈ −45 cm³/mol (docs/methods.md §3.6, recalled)
     assert virial_B_m3_per_mol("O2", "CO2", 298.15)[0] * 1e6 == pytest.approx(-45, abs=6)
 
 
@@ -172,7 +172,7 @@ def test_contents_energy_equivalent():
     m = 1.0
     ini, fin = bomb_states([ba(m)], bomb_volume_L=0.342, o2_pressure_MPa=3.04, bomb_water_g=1.0)
     eps_i, eps_f = contents_energy_equivalents_J_per_K(ini, fin, [ba(m)])
-    # METHODS §3.1: ε(cont) ≈ 15 J/K for a 0.3 L bomb
+    # docs/methods.md §3.1: ε(cont) ≈ 15 J/K for a 0.3 L bomb
     assert 10 < eps_i < 20
     assert 10 < eps_f < 20
     # ε^f − ε^i is Δ_rC_V of the combustion: 7 C_v(CO2) + 3 C_p(H2O, l) − 7.5 C_v(O2) − C_p(BA)

@@ -63,10 +63,10 @@ def test_values_against_the_literature_behind_the_simulation(reduced):
     # simulation's truth): recovered within the expanded uncertainty
     sa = samples["succinic acid"]
     assert abs(sa["delta_f_H_kJ_per_mol"] - (-940.5)) <= sa["U_delta_f_H_kJ_per_mol"]
-    # acetanilide −209.4 kJ/mol (CRC via the chemicals library; REFERENCES.md §4)
+    # acetanilide −209.4 kJ/mol (CRC via the chemicals library; docs/references.md §4)
     ac = samples["acetanilide"]
     assert abs(ac["delta_f_H_kJ_per_mol"] - (-209.4)) <= ac["U_delta_f_H_kJ_per_mol"]
     # KCl: Δ_solH∞ consistent with the CODATA key values, +17.28 ± 0.12 kJ/mol (derived,
-    # REFERENCES.md §1d; CODATA ± read as k = 2)
+    # docs/references.md §1d; CODATA ± read as k = 2)
     kcl = next(s for s in samples.values() if s["infinite_dilution_enthalpy_kJ_per_mol"])
     assert kcl["infinite_dilution_enthalpy_kJ_per_mol"] == pytest.approx(17.28, abs=0.12)

@@ -15,7 +15,7 @@ from calwork.hess.species import parse_species
 
 R = Reaction.from_equation
 
-# REFERENCES.md §1d: C(gr) + ½O2 → CO −110.53 (CODATA, memory) and CO + ½O2 → CO2 −282.98
+# docs/references.md §1d: C(gr) + ½O2 → CO −110.53 (CODATA, memory) and CO + ½O2 → CO2 −282.98
 # (derived: −393.51 − (−110.53)); their sum is ΔfH°(CO2, g) = −393.51 (CODATA, confirmed).
 CO = R("C(cr,graphite) + 1/2 O2(g) = CO(g)", -110.53, 0.085, id="CO")
 CO2 = R("CO(g) + 1/2 O2(g) = CO2(g)", -282.98, 0.11, id="CO->CO2")

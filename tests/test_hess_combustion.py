@@ -29,20 +29,20 @@ def massic_from_delta_c_H(formula: str, delta_c_H_kJ_per_mol: float, phase: str 
 
 def test_benzoic_acid_formation_enthalpy():
     # Δcu° = −26 413.0 J/g derived from ΔcH° = −3226.87 ± 0.18 kJ/mol (Mosselman & Dekker
-    # 1969 via NIST WebBook; REFERENCES §2a); its ± taken as k = 2, so u = 0.09 kJ/mol.
+    # 1969 via NIST WebBook; docs/references.md §2a); its ± taken as k = 2, so u = 0.09 kJ/mol.
     massic = massic_from_delta_c_H("C7H6O2", -3226.87)
     assert massic == pytest.approx(-26413.0, abs=0.5)
     u_massic = 0.09e3 / molar_mass_g_per_mol("C7H6O2")
     link = combustion_link("C7H6O2", massic, u_massic)
     assert link.delta_n_gas == -0.5
     assert link.delta_c_U_kJ_per_mol == pytest.approx(-3225.63, abs=0.01)  # §2a derived
-    # −385.19 ± 0.94 (k = 2) derived from the same ΔcH° with CODATA CO2/H2O (REFERENCES §1d)
+    # −385.19 ± 0.94 (k = 2) derived from the same ΔcH° with CODATA CO2/H2O (docs/references.md §1d)
     assert link.delta_f_H_kJ_per_mol == pytest.approx(-385.19, abs=0.01)
     assert link.U_delta_f_H_kJ_per_mol == pytest.approx(0.94, abs=0.01)
     # published −384.8 ± 0.50 (Corral 1960, WebBook): agrees within the combined uncertainty
     combined = math.hypot(link.u_delta_f_H_kJ_per_mol, 0.50 / 2)
     assert abs(link.delta_f_H_kJ_per_mol - -384.8) <= 2 * combined
-    # hand formula of METHODS §3.8: u² = u²(ΔcH) + a² u²(CO2) + (b/2)² u²(H2O)
+    # hand formula of docs/methods.md §3.8: u² = u²(ΔcH) + a² u²(CO2) + (b/2)² u²(H2O)
     hand = math.sqrt(link.u_delta_c_H_kJ_per_mol**2 + 49 * U_CO2**2 + 9 * U_H2O**2)
     assert link.u_delta_f_H_kJ_per_mol == pytest.approx(hand, rel=1e-10)
     assert set(link.budget) == {"combustion:1:C7H6O2(cr)", "key:CO2(g)", "key:H2O(l)"}
@@ -72,7 +72,7 @@ def test_organic_compounds_from_published_combustion_enthalpies(formula, delta_c
     ("formula", "massic", "published_f_H"),
     [
         # succinic acid: ICTAC Δcu ≈ −12 638 J/g and ΔfH° −940.5 (Vanderzee et al. 1972);
-        # both recalled from memory (REFERENCES §4); tolerance 0.5 kJ/mol ≈ 3e-4 of ΔcH
+        # both recalled from memory (docs/references.md §4); tolerance 0.5 kJ/mol ≈ 3e-4 of ΔcH
         ("C4H6O4", -12638.0, -940.5),
         # acetanilide: ICTAC Δcu ≈ −31 234 J/g (memory); ΔfH° −209.4 (CRC via chemicals)
         ("C8H9NO", -31234.0, -209.4),
@@ -85,7 +85,7 @@ def test_reference_materials_massic_energies(formula, massic, published_f_H):
 
 def test_sulfur_compound_thermochemical_convention():
     # thianthrene: WebBook ΔcH° average −7250 ± 10 kJ/mol (final state H2SO4(aq)) and
-    # ΔfH°(cr) 182.6 ± 1.3 (Sunner 1963), both confirmed (REFERENCES §4)
+    # ΔfH°(cr) 182.6 ± 1.3 (Sunner 1963), both confirmed (docs/references.md §4)
     reaction = combustion_reaction("C12H8S2")
     assert reaction.equation == ("C12H8S2(cr) + 17 O2(g) + 228 H2O(l) = 12 CO2(g) + "
                                  "2 H2SO4·115H2O(l)")
@@ -133,7 +133,7 @@ def test_cross_check_against_chemicals(cas, formula):
 
 
 def test_benzoic_acid_codata_products_column():
-    # REFERENCES §4: chemicals CRC ΔfH −385.20 with CODATA products gives ΔcH° −3226.86
+    # docs/references.md §4: chemicals CRC ΔfH −385.20 with CODATA products gives ΔcH° −3226.86
     net = Network(determinations=(), priors=(Reaction.formation("C7H6O2(cr)", -385.20, 0.1),))
     reaction = combustion_reaction("C7H6O2")
     res = solve_network(net, worst_offender="none", include_species=reaction.species)
@@ -142,7 +142,7 @@ def test_benzoic_acid_codata_products_column():
 
 
 def test_many_compounds_share_a_calibration():
-    # METHODS §4.5: cov(ΔfH_A, ΔfH_B) = M_A M_B cov(Δcu) + a_A a_B u²(CO2) + b_A b_B/4 u²(H2O)
+    # docs/methods.md §4.5: cov(ΔfH_A, ΔfH_B) = M_A M_B cov(Δcu) + a_A a_B u²(CO2) + b_A b_B/4 u²(H2O)
     u_a, u_b, rho = 1.5, 2.0, 0.8
     cov = np.array([[u_a**2, rho * u_a * u_b], [rho * u_a * u_b, u_b**2]])
     many = combustion_link_many([("C7H6O2", -26413.0, None), ("C10H8", -40195.0, None)],

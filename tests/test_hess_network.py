@@ -68,7 +68,7 @@ def test_hess_cycle_with_key_values_and_derived_reaction():
     assert used == {"CO2(g)"}
     assert any("key value of CO(g) is not used" in w for w in res.warnings)
     v, _ = res.value("CO2(g)")
-    assert v == pytest.approx(-393.51, abs=1e-6)  # consistent data: REFERENCES §1d
+    assert v == pytest.approx(-393.51, abs=1e-6)  # consistent data: docs/references.md §1d
     d = res.reaction_enthalpy("C(cr,graphite) + O2(g) = CO2(g)")
     assert d.delta_r_H_kJ_per_mol == pytest.approx(-393.51, abs=1e-6)
     assert d.u_delta_r_H_kJ_per_mol == pytest.approx(res.value("CO2(g)")[1])
@@ -78,7 +78,7 @@ def test_hess_cycle_with_key_values_and_derived_reaction():
 
 
 def test_neutralisation_from_key_values():
-    # REFERENCES §1d (derived from CODATA memory values): H+ + OH- -> H2O(l), -55.815 kJ/mol
+    # docs/references.md §1d (derived from CODATA memory values): H+ + OH- -> H2O(l), -55.815 kJ/mol
     net = Network(determinations=(R("H+(aq) + OH-(aq) = H2O(l)", -55.84, 0.05, id="n"),))
     res = solve_network(net)
     d = res.reaction_enthalpy("H+(aq) + OH-(aq) = H2O(l)")
@@ -102,7 +102,7 @@ def test_sulfuric_acid_key_value_brings_water():
     res = solve_network(net)
     assert {kv["species"] for kv in res.key_values_used} == {"H2SO4·115H2O(l)", "H2O(l)"}
     v, _ = res.value("H2SO4·115H2O(l)")
-    assert v == pytest.approx(-887.81 + 115 * -285.830, abs=1e-6)  # METHODS §3.8
+    assert v == pytest.approx(-887.81 + 115 * -285.830, abs=1e-6)  # docs/methods.md §3.8
 
 
 def test_worst_offender_named_first_and_inflation_record():
@@ -250,7 +250,7 @@ def test_to_dict_contract_keys():
 
 def test_key_values_table_convention():
     kv = load_key_values()
-    # CODATA ± taken as k = 2 expanded uncertainty (REFERENCES §1, memory): u = ±/2
+    # CODATA ± taken as k = 2 expanded uncertainty (docs/references.md §1, memory): u = ±/2
     assert kv["CO2(g)"].pm_kJ_per_mol == 0.13
     assert kv["CO2(g)"].u_kJ_per_mol == pytest.approx(0.065)
     assert kv["H2O(l)"].status == "memory"

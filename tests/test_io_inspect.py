@@ -12,7 +12,7 @@ from calwork.io import write_log
 from calwork.provenance import sha256_file
 from calwork.thermogram import Thermogram
 
-SH = (1.129148e-3, 2.34125e-4, 8.76741e-8)  # REFERENCES.md §6 datasheet set
+SH = (1.129148e-3, 2.34125e-4, 8.76741e-8)  # docs/references.md §6 datasheet set
 
 
 @pytest.fixture

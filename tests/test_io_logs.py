@@ -13,7 +13,7 @@ from calwork.io.sensors import cvd_resistance_ohm
 from calwork.provenance import sha256_file
 from calwork.thermogram import Thermogram
 
-SH = {"a": 1.129148e-3, "b": 2.34125e-4, "c": 8.76741e-8}  # REFERENCES.md §6 datasheet set
+SH = {"a": 1.129148e-3, "b": 2.34125e-4, "c": 8.76741e-8}  # docs/references.md §6 datasheet set
 
 
 def make_thermogram(n: int = 120, seed: int = 7, t0: float = 0.0) -> Thermogram:

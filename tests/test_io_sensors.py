@@ -20,11 +20,11 @@ from calwork.io.sensors import (
 
 # 1 mK of a Pt100 near 0 °C is about 0.39 mΩ (dR/dt = R0·A ≈ 0.39 Ω/K, IEC 60751 coefficients)
 MK_OHM = 0.39e-3
-SH = (1.129148e-3, 2.34125e-4, 8.76741e-8)  # 10 kΩ NTC datasheet set, REFERENCES.md §6 (confirmed)
+SH = (1.129148e-3, 2.34125e-4, 8.76741e-8)  # 10 kΩ NTC datasheet set, docs/references.md §6 (confirmed)
 
 
 def test_coefficients_match_iec_60751():
-    # IEC 60751:2008 A, B, C as quoted in REFERENCES.md §5 (confirmed)
+    # IEC 60751:2008 A, B, C as quoted in docs/references.md §5 (confirmed)
     assert CVD_A_PER_C == 3.9083e-3
     assert CVD_B_PER_C2 == -5.775e-7
     assert CVD_C_PER_C4 == -4.183e-12
@@ -38,35 +38,35 @@ def test_coefficients_match_iec_60751():
     ("t_C", "R_ohm", "tol_ohm"),
     [
         (0.0, 100.0, 1e-12),        # definition of R0 (IEC 60751)
-        (100.0, 138.5055, 1e-4),    # REFERENCES.md §5: 138.5055 Ω calc. (table 138.51, memory)
-        (25.0, 109.7347, 1e-4),     # REFERENCES.md §5: 109.7347 Ω calc. (derived)
-        (200.0, 175.8560, 1e-4),    # REFERENCES.md §5: 175.8560 Ω calc. (table 175.86, memory)
-        (-100.0, 60.2558, 1e-4),    # REFERENCES.md §5: table 60.26 Ω (confirmed), 60.2558 calc.
-        (-200.0, 18.5201, 1e-4),    # REFERENCES.md §5: table 18.52 Ω (confirmed), 18.5201 calc.
-        (-50.0, 80.3063, 1e-4),     # REFERENCES.md §5: table 80.31 Ω (confirmed), 80.3063 calc.
-        (500.0, 280.9775, 1e-4),    # REFERENCES.md §5: 280.9775 Ω calc. (derived)
-        (850.0, 390.4811, 1e-4),    # REFERENCES.md §5: 390.4811 Ω calc. (derived)
+        (100.0, 138.5055, 1e-4),    # docs/references.md §5: 138.5055 Ω calc. (table 138.51, memory)
+        (25.0, 109.7347, 1e-4),     # docs/references.md §5: 109.7347 Ω calc. (derived)
+        (200.0, 175.8560, 1e-4),    # docs/references.md §5: 175.8560 Ω calc. (table 175.86, memory)
+        (-100.0, 60.2558, 1e-4),    # docs/references.md §5: table 60.26 Ω (confirmed), 60.2558 calc.
+        (-200.0, 18.5201, 1e-4),    # docs/references.md §5: table 18.52 Ω (confirmed), 18.5201 calc.
+        (-50.0, 80.3063, 1e-4),     # docs/references.md §5: table 80.31 Ω (confirmed), 80.3063 calc.
+        (500.0, 280.9775, 1e-4),    # docs/references.md §5: 280.9775 Ω calc. (derived)
+        (850.0, 390.4811, 1e-4),    # docs/references.md §5: 390.4811 Ω calc. (derived)
     ],
 )
 def test_pt100_table_values_and_back(t_C, R_ohm, tol_ohm):
     assert cvd_resistance_ohm(t_C) == pytest.approx(R_ohm, abs=tol_ohm)
-    # the inverse reads the tabulated resistance back to within 1 mK (REFERENCES.md §5 test idea)
+    # the inverse reads the tabulated resistance back to within 1 mK (docs/references.md §5 test idea)
     assert cvd_temperature_C(R_ohm) == pytest.approx(t_C, abs=1e-3)
 
 
 def test_pt100_table_minus_10():
-    # REFERENCES.md §5: Pt100 table 96.09 Ω at −10 °C (confirmed, two decimals)
+    # docs/references.md §5: Pt100 table 96.09 Ω at −10 °C (confirmed, two decimals)
     assert cvd_resistance_ohm(-10.0) == pytest.approx(96.09, abs=0.005)
 
 
 def test_alpha_of_standard_platinum():
-    # α = (R100 − R0)/(100 R0) = 0.003 850 55 /°C (REFERENCES.md §5, confirmed)
+    # α = (R100 − R0)/(100 R0) = 0.003 850 55 /°C (docs/references.md §5, confirmed)
     alpha = (cvd_resistance_ohm(100.0) - 100.0) / (100.0 * 100.0)
     assert alpha == pytest.approx(0.00385055, abs=1e-9)
 
 
 def test_inverse_round_trip_full_range():
-    # REFERENCES.md §5: the inverse must round-trip to < 1 mK across −200…850 °C
+    # docs/references.md §5: the inverse must round-trip to < 1 mK across −200…850 °C
     t = np.linspace(-200.0, 850.0, 20001)
     back = cvd_temperature_C(cvd_resistance_ohm(t))
     assert np.max(np.abs(back - t)) < 1e-9  # far inside 1 mK: the inverse is exact
@@ -79,7 +79,7 @@ def test_inverse_round_trip_full_range():
 
 
 def test_c_term_matters_below_zero():
-    # REFERENCES.md §5 (derived): without C, R(−200 °C) = 19.5240 Ω, which the full equation
+    # docs/references.md §5 (derived): without C, R(−200 °C) = 19.5240 Ω, which the full equation
     # reads back as −197.68 °C (an error of about 2.3 °C)
     no_c = cvd_resistance_ohm(-200.0, C=0.0)
     assert no_c == pytest.approx(19.5240, abs=1e-4)
@@ -108,8 +108,8 @@ def test_cvd_rejects_non_positive_resistance():
 @pytest.mark.parametrize(
     ("R_ohm", "T_K"),
     [
-        (10_000.0, 298.1497),  # REFERENCES.md §6: 298.1497 K (derived from the datasheet set)
-        (32_650.0, 273.1502),  # REFERENCES.md §6: 273.1502 K (derived)
+        (10_000.0, 298.1497),  # docs/references.md §6: 298.1497 K (derived from the datasheet set)
+        (32_650.0, 273.1502),  # docs/references.md §6: 273.1502 K (derived)
     ],
 )
 def test_steinhart_hart_datasheet_set(R_ohm, T_K):
@@ -119,8 +119,8 @@ def test_steinhart_hart_datasheet_set(R_ohm, T_K):
 @pytest.mark.parametrize(
     ("t_C", "R_ohm", "tol"),
     [
-        (50.0, 3601.0, 0.05),    # REFERENCES.md §6: 3601.0 Ω (derived, exact cubic inverse)
-        (100.0, 678.42, 0.005),  # REFERENCES.md §6: 678.42 Ω (derived)
+        (50.0, 3601.0, 0.05),    # docs/references.md §6: 3601.0 Ω (derived, exact cubic inverse)
+        (100.0, 678.42, 0.005),  # docs/references.md §6: 678.42 Ω (derived)
     ],
 )
 def test_steinhart_hart_inverse(t_C, R_ohm, tol):
@@ -135,7 +135,7 @@ def test_steinhart_hart_round_trip_and_fit_to_published_table():
     assert steinhart_hart_temperature_K(
         steinhart_hart_resistance_ohm(300.0, SH[0], SH[1], 0.0), SH[0], SH[1], 0.0
     ) == pytest.approx(300.0, abs=1e-9)
-    # fit quality: a 3-term fit to the R–T table in REFERENCES.md §6 (LDT-5525 manual,
+    # fit quality: a 3-term fit to the R–T table in docs/references.md §6 (LDT-5525 manual,
     # Appendix A, confirmed) reproduces it to better than 0.01 °C, as that source claims.
     # The table's 40 °C entry (5331 Ω) is left out: it sits 0.47 °C off the curve through the
     # other six points (probably a copying slip in the table as compiled).
@@ -162,8 +162,8 @@ def test_resolve_sensor_defaults_and_overrides():
                                   "C": CVD_C_PER_C4}
     assert pt100.temperature_K(138.5055) == pytest.approx(373.15, abs=1e-3)
     lo, hi = pt100.resistance_range_ohm()
-    assert lo == pytest.approx(18.5201, abs=1e-4)  # −200 °C, REFERENCES.md §5
-    assert hi == pytest.approx(390.4811, abs=1e-4)  # 850 °C, REFERENCES.md §5
+    assert lo == pytest.approx(18.5201, abs=1e-4)  # −200 °C, docs/references.md §5
+    assert hi == pytest.approx(390.4811, abs=1e-4)  # 850 °C, docs/references.md §5
     custom = resolve_sensor("PT1000", {"R0": 1001.0})
     assert custom.name == "pt1000"
     assert custom.resistance_ohm(273.15) == pytest.approx(1001.0)

@@ -227,7 +227,7 @@ def test_load_run_log_applies_row_overrides(folder):
 
 
 def test_load_run_log_sensor_columns(folder):
-    sh = {"a": 1.129148e-3, "b": 2.34125e-4, "c": 8.76741e-8}  # REFERENCES.md §6 set
+    sh = {"a": 1.129148e-3, "b": 2.34125e-4, "c": 8.76741e-8}  # docs/references.md §6 set
     th = _thermogram()
     write_log(th, folder / "logs" / "nt.csv", temperature_unit="ohm", sensor="steinhart-hart",
               sensor_coefficients=sh)

@@ -2,7 +2,7 @@
 
 The simulated calorimeter is calwork's own simulator (two bodies, thermometer lag, noise);
 every number here is invented and labelled simulated. The heat of each simulated run is
-computed consistently with the chain (METHODS.md (3.1)–(3.2)): benzoic acid releases
+computed consistently with the chain (docs/methods.md (3.1)–(3.2)): benzoic acid releases
 mass × certified value × Jessup factor for the run's bomb conditions, the samples
 mass × |Δu_bomb|; plus ignition, fuse and nitric-acid energies; the bomb contents' energy
 equivalent is part of the simulated heat capacity, so the test measures the reduction and not
@@ -123,7 +123,7 @@ def test_molar_quantities_by_hand(reduction):
 
     (s,) = reduction.samples
     M = molar_mass_g_per_mol(SAMPLE_FORMULA)
-    # ΔcU° = M Δcu°; C10H8 + 12 O2 = 10 CO2 + 4 H2O(l): Δn(gas) = −2 (METHODS (3.6), (3.8))
+    # ΔcU° = M Δcu°; C10H8 + 12 O2 = 10 CO2 + 4 H2O(l): Δn(gas) = −2 (docs/methods.md (3.6), (3.8))
     assert s.delta_c_U_kJ_per_mol == pytest.approx(M * s.standard_massic_energy_J_per_g / 1e3)
     assert s.delta_c_H_kJ_per_mol == pytest.approx(
         s.delta_c_U_kJ_per_mol - 2 * R_J_per_mol_K * 298.15 / 1e3, abs=1e-9)
@@ -332,7 +332,7 @@ def test_sheet_certificate_and_buoyancy(dataset):
     rows = [replace(i, mass_g=i.mass_g / f, mass_basis="air") if i.kind == "calibration"
             else i for i in infos]
     red = reduce_runs(rows)
-    # the same masses, weighed in air: the same energy equivalent (REFERENCES §2 densities)
+    # the same masses, weighed in air: the same energy equivalent (docs/references.md §2 densities)
     assert red.calibrations[0].energy_equivalent_J_per_K == pytest.approx(
         base.calibrations[0].energy_equivalent_J_per_K, rel=1e-9)
     # a sheet's certified value replaces the bundled one (sign ignored)

@@ -89,10 +89,10 @@ def test_formation_formula_matches_the_hess_solver(book, reduction):
     assert row[col_with(cols, "ΔfH° = a·")].startswith("=")
     r = 2 + rows.index(row)
     got = wv["Formation"].cell(r, col_with(cols, "ΔfH° = a·") + 1).value
-    # calwork.hess.combustion_link_many solves a network; the formula is METHODS (3.9)
+    # calwork.hess.combustion_link_many solves a network; the formula is docs/methods.md (3.9)
     assert got == pytest.approx(s.delta_f_H_kJ_per_mol, rel=1e-12)
     kv = {v["species"]: v for v in s.key_values_used["values"]}
-    assert kv["CO2(g)"]["value_kJ_per_mol"] == -393.51  # CODATA 1989 (REFERENCES.md §1a)
+    assert kv["CO2(g)"]["value_kJ_per_mol"] == -393.51  # CODATA 1989 (docs/references.md §1a)
 
 
 def test_inconsistent_value_is_written_as_value_with_a_note(tmp_path):

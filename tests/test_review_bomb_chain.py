@@ -2,7 +2,7 @@
 
 The rises are stand-ins (objects with the fields the chain reads, see DEVELOPERS.md
 "Temperature rise"); every number is invented. Energies are checked by hand against the
-chain's own equations (METHODS.md (3.1)–(3.8)).
+chain's own equations (docs/methods.md (3.1)–(3.8)).
 """
 
 from __future__ import annotations

@@ -113,7 +113,7 @@ def test_k01_by_hand(reduction, truth):
     assert k01.energy_equivalent_J_per_K == pytest.approx((eps_i + eps_f) / 2, rel=1e-12)
     assert k01.energy_equivalent_J_per_K == pytest.approx(
         truth["energy_equivalent_J_per_K"], rel=1e-3)
-    # 2. referral: the mean ε refers the result to T_i + ΔT_c/2 (METHODS.md (2.2))
+    # 2. referral: the mean ε refers the result to T_i + ΔT_c/2 (docs/methods.md (2.2))
     reaction = d["events"][d["reaction_event_index"]]
     T_i, dT = reaction["T_initial_K"], k01.corrected_rise_K
     assert dT < 0  # KCl dissolves endothermically

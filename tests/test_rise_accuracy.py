@@ -61,7 +61,7 @@ def test_stated_uncertainty_covers_the_error(single_body_runs):
 def test_two_body_calorimeter_calibrated_on_reference_runs():
     # Bomb + water with internal τ ≈ 90 s and a 2 s thermometer lag: every method reads the
     # Newtonian limit, ≈ 680 ppm below Q/ε (the inner body lags in the drift periods), the
-    # same in every run — a calibration absorbs it (METHODS.md §1.9, §2.3: ε = Q/ΔT_c with
+    # same in every run — a calibration absorbs it (docs/methods.md §1.9, §2.3: ε = Q/ΔT_c with
     # the same algorithm). Records of 1 h (after period ≥ 30 min, as usual for precise work).
     params = CalorimeterParams.bomb_preset()
     eps = []

@@ -1,6 +1,6 @@
 """Pure functions of the temperature-rise engine: Newton's law, RP, Dickinson, the joint fit.
 
-References: METHODS.md §1.1–§1.6 (equations (1.1)–(1.9); the numerical check [D] of §1.5:
+References: docs/methods.md §1.1–§1.6 (equations (1.1)–(1.9); the numerical check [D] of §1.5:
 k = 0.003 min⁻¹, ΔT_c = 2 K, heat through lags of 40 s and 15 s, 2 s sampling → RP and
 Dickinson-with-(1.7) 2.000 00 K, the 60 % shortcut about −6.5e-4 relative). The analytic
 records are exact solutions of (1.1) (tests/test_rise_records.py, checked there against
@@ -36,7 +36,7 @@ from calwork.rise.drift import (
 from calwork.rise.newton import fit_newton, newton_rise
 from calwork.rise.uncertainty import combine, propagate
 
-K_METHODS = 0.003 / 60.0  # 0.003 min⁻¹ (METHODS.md §1.5 numerical check)
+K_METHODS = 0.003 / 60.0  # 0.003 min⁻¹ (docs/methods.md §1.5 numerical check)
 
 
 def _periods(fore_end, fire, main_end, end, start=0.0):
@@ -88,7 +88,7 @@ def test_exchange_correction_of_a_pure_drift_equals_the_temperature_change():
 
 
 def test_rp_and_exact_dickinson_are_one_correction():
-    # METHODS.md §1.5: Dickinson with t_x of (1.7) is algebraically RP (1.4) — any inputs.
+    # docs/methods.md §1.5: Dickinson with t_x of (1.7) is algebraically RP (1.4) — any inputs.
     rng = np.random.default_rng(7)
     for _ in range(20):
         t_i, t_f = 600.0, 600.0 + rng.uniform(200, 900)
@@ -103,7 +103,7 @@ def test_rp_and_exact_dickinson_are_one_correction():
 
 @pytest.fixture(scope="module")
 def methods_record():
-    # METHODS.md §1.5 numerical check [D]: k = 0.003 /min, 2 K, lags 40 s and 15 s, 2 s.
+    # docs/methods.md §1.5 numerical check [D]: k = 0.003 /min, 2 K, lags 40 s and 15 s, 2 s.
     return newtonian_record(rise_K=2.0, k_per_s=K_METHODS, T_inf_K=298.5, T0_K=297.5,
                             tau_s=40.0, tau2_s=15.0, dt_s=2.0, duration_s=3000.0,
                             noise_K=1e-9, seed=1)
@@ -111,13 +111,13 @@ def methods_record():
 
 def test_methods_numerical_check_rp_and_dickinson(methods_record):
     # Boundaries well outside the transient (§1.1 invariance), classical period lengths
-    # (fore ≈ 10 min, after 10 min; METHODS.md §1.2): truth 2 K exactly.
+    # (fore ≈ 10 min, after 10 min; docs/methods.md §1.2): truth 2 K exactly.
     p = _periods(590.0, 600.0, 1500.0, 2100.0)
     rp = corrected_rise(methods_record, "regnault-pfaundler", p)
     dk = corrected_rise(methods_record, "dickinson", p)
     nf = corrected_rise(methods_record, "newton-fit", p)
     assert rp.corrected_rise_K == pytest.approx(dk.corrected_rise_K, abs=1e-6)  # §1.5 [D]
-    # "2.000 00 K" in METHODS.md: within 5 µK (half the last quoted digit)
+    # "2.000 00 K" in docs/methods.md: within 5 µK (half the last quoted digit)
     assert rp.corrected_rise_K == pytest.approx(2.0, abs=5e-6)
     assert nf.corrected_rise_K == pytest.approx(2.0, abs=2e-6)
     # the equal-area t_x (1.7) lies inside the rise
@@ -130,7 +130,7 @@ def test_sixty_percent_shortcut_error_has_the_expected_sign_and_size(methods_rec
     # shortcut's own error; calwork's 60 % rule (straight lines over those 5 min) must
     # reproduce it to 10 % (the lines' ends differ from the curve by ~20 µK), and it must be
     # negative (b comes before the equal-area time and the
-    # calorimeter ends above T_inf, so g_f < g_i) and of the order of METHODS.md's −6.5e-4
+    # calorimeter ends above T_inf, so g_f < g_i) and of the order of docs/methods.md's −6.5e-4
     # (setup details not given there [D]).
     p = _periods(590.0, 600.0, 1500.0, 2100.0)
     exact = corrected_rise(methods_record, "dickinson", p)
@@ -164,7 +164,7 @@ def test_time_at_fraction_interpolates_and_handles_falling_records():
                                                 ("regnault-pfaundler", 1e-5),
                                                 ("dickinson", 1e-5)])
 def test_rise_is_invariant_to_t_i_before_onset_and_t_f_after_the_transient(method, tol_K):
-    # METHODS.md §1.1 [D]: ΔT_c does not depend on where t_i (before the release) and t_f
+    # docs/methods.md §1.1 [D]: ΔT_c does not depend on where t_i (before the release) and t_f
     # (after the transient) are put. Periods of 10 min next to the main period; the straight
     # drift lines of RP/Dickinson are exact only to (kL)²/24 of the drift (a few µK here).
     rec = newtonian_record(rise_K=2.5, k_per_s=K_METHODS, tau_s=20.0, tau2_s=5.0,
@@ -237,7 +237,7 @@ def test_fit_errors_and_uncertainty_guards():
 
 def test_joint_fit_agrees_with_lmfit():
     # Independent check with a general-purpose fitting library (lmfit, Levenberg–Marquardt on
-    # the textbook form T = T_inf + (T_0 − T_inf) e^{−k (t − t_0)} of METHODS.md (1.9), one
+    # the textbook form T = T_inf + (T_0 − T_inf) e^{−k (t − t_0)} of docs/methods.md (1.9), one
     # T_0 per period, shared k and T_inf).
     import lmfit
 

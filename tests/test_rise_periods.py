@@ -1,4 +1,4 @@
-"""Period detection (METHODS.md §1.2, §1.7) on exact analytic records with seeded noise.
+"""Period detection (docs/methods.md §1.2, §1.7) on exact analytic records with seeded noise.
 
 Truths: the release starts at 600 s, the rise is set in the record (tests/test_rise_records.py,
 exact solutions of (1.1)). Tolerances are stated in the measurement's terms (readings, σ).

@@ -1,6 +1,6 @@
 """Analytic Newtonian test records for the temperature-rise tests (and a check of them).
 
-``newtonian_record`` is the exact solution of METHODS.md (1.1),
+``newtonian_record`` is the exact solution of docs/methods.md (1.1),
 ``dT/dt = k (T_∞ − T) + w(t)``, for a first-order heat release
 ``w = (ΔT/τ) e^{−(t−t₀)/τ}`` (t ≥ t₀): with ``s = t − t₀``,
 
@@ -32,7 +32,7 @@ def newtonian_record(*, rise_K=2.5, k_per_s=1e-4, T_inf_K=298.5, T0_K=297.0, fir
 
     The release is first order (time constant ``tau_s``) or, with ``tau2_s > 0``, an impulse
     seen through two first-order lags, ``w ∝ (e^{−s/τ₁} − e^{−s/τ₂})/(τ₁ − τ₂)`` (the kernel
-    of METHODS.md (1.10); smooth at the start).
+    of docs/methods.md (1.10); smooth at the start).
     """
     t = t_start_s + dt_s * np.arange(round(duration_s / dt_s) + 1)
     T = T_inf_K + (T0_K - T_inf_K) * np.exp(-k_per_s * (t - t_start_s))

@@ -1,7 +1,7 @@
 """Physics checks of the calorimeter simulator (calwork.simulate).
 
 The simulator is the ground truth of the test suite, so its numbers are checked against closed
-forms of the model (METHODS.md §1.1 heat balance, §1.9 thermometer lag and two bodies), against
+forms of the model (docs/methods.md §1.1 heat balance, §1.9 thermometer lag and two bodies), against
 conservation of energy, and against an independent general-purpose integrator (scipy's
 ``solve_ivp``).
 """
@@ -90,7 +90,7 @@ def test_energy_content_during_the_burn():
 
 # --- Newtonian drift ---------------------------------------------------------------------------
 def test_newtonian_drift_one_body():
-    # METHODS.md §1.1: with w = 0, dT/dt = k (T_inf − T) ⇒ T = T_inf + (T0 − T_inf) e^{−k t},
+    # docs/methods.md §1.1: with w = 0, dT/dt = k (T_inf − T) ⇒ T = T_inf + (T0 − T_inf) e^{−k t},
     # k = G/(C_b + C_w), T_inf = T_j + P_stir/G
     p = replace(SOLUTION.noise_free(), thermometer_lag_s=0.0, initial_temperature_K=297.4)
     run = simulate_run(p, (), duration_s=3000.0)
@@ -152,7 +152,7 @@ def test_two_body_steady_start_is_a_single_exponential():
 
 # --- thermometer lag -----------------------------------------------------------------------------
 def test_thermometer_lag_step_response():
-    # METHODS.md §1.9: τ dT_m/dt = T − T_m. A step of the water temperature (a 1 ms heat pulse
+    # docs/methods.md §1.9: τ dT_m/dt = T − T_m. A step of the water temperature (a 1 ms heat pulse
     # into one adiabatic body) is read as ΔT (1 − e^{−(t − t_c)/τ}), t_c the pulse's centroid;
     # the finite pulse width changes this by O((Δ/τ)²) = 1e-8
     tau = 10.0
@@ -215,7 +215,7 @@ def test_against_solve_ivp_two_body_burn_exchange():
 
 # --- corrected rise of the noise-free record -------------------------------------------------------
 def test_exact_corrected_rise_of_noise_free_record():
-    # METHODS.md §1.1 (1.2): ΔT_c = (T_f − T_i) − ∫ k (T_inf − T) dt for one body; with the
+    # docs/methods.md §1.1 (1.2): ΔT_c = (T_f − T_i) − ∫ k (T_inf − T) dt for one body; with the
     # exact k and T_inf the integral of the noise-free record recovers Q/ε (the definition of
     # the corrected rise that every rise method approximates)
     p = replace(SOLUTION.noise_free(), thermometer_lag_s=0.0, sampling_interval_s=0.25)
@@ -239,7 +239,7 @@ def test_newtonian_rise_two_body_and_effective_energy_equivalent():
     # (modal derivation in SimulationTruth's docstring; ∫h dt = 1/G because in steady state
     # each watt leaves through G). Checked here by direct quadrature of the noise-free record,
     # from two different starting temperatures and heats: ε_eff = Q/rise is the same
-    # (an ideal calibration absorbs the effect; METHODS.md §1.9)
+    # (an ideal calibration absorbs the effect; docs/methods.md §1.9)
     base = replace(BOMB.noise_free(), sampling_interval_s=0.5)
     from scipy.integrate import simpson
 
@@ -258,7 +258,7 @@ def test_newtonian_rise_two_body_and_effective_energy_equivalent():
     assert eff[0] == pytest.approx(eff[1], rel=1e-8)
     # for the bomb preset the effect is ≈ +6.8e-4 of ε (k τ₁ ≈ 3.6e-3 times C_b/ε-type factors)
     assert eff[0] / base.energy_equivalent_J_per_K - 1 == pytest.approx(6.85e-4, rel=0.01)
-    # one body: the Newtonian rise is the adiabatic rise (METHODS.md §1.9, lag included)
+    # one body: the Newtonian rise is the adiabatic rise (docs/methods.md §1.9, lag included)
     one = simulate_run(SOLUTION, HeaterInterval(power_W=0.05, on_s=100.0, off_s=400.0),
                        duration_s=1500.0, seed=1)
     assert one.truth.newtonian_rise_K == one.truth.adiabatic_rise_K
@@ -298,7 +298,7 @@ def test_quantisation_steps():
 
 # --- heater channels ------------------------------------------------------------------------------
 def test_heater_channels_energy_noise_free():
-    # METHODS.md §2.3: Q_el = ∫ V I dt; with V = √(P R), I = √(P/R) the sampled channels give
+    # docs/methods.md §2.3: Q_el = ∫ V I dt; with V = √(P R), I = √(P/R) the sampled channels give
     # back P (t_off − t_on) (left Riemann sum over readings aligned with the switching times)
     p = SOLUTION.noise_free()
     heater = HeaterInterval(power_W=0.05, on_s=300.0, off_s=600.0, resistance_ohm=47.0)

@@ -13,7 +13,7 @@ from calwork.errors import SimulationError
 from calwork.runinfo import EXTENSION_COLUMNS, RUN_SHEET_COLUMNS
 from calwork.simulate import CalorimeterParams, build_scenario, simulate_scenario
 
-BA_J_PER_G = 26434.0  # NIST SRM 39j certificate, standard bomb conditions (REFERENCES.md)
+BA_J_PER_G = 26434.0  # NIST SRM 39j certificate, standard bomb conditions (docs/references.md)
 
 
 def _sheet(path):

@@ -21,21 +21,21 @@ from calwork.simulate import (
 
 # --- presets ------------------------------------------------------------------------------------
 def test_bomb_preset_is_a_macro_bomb_calorimeter():
-    # METHODS.md §1.1 typical magnitudes: ε ≈ 10 kJ/K, 2–3 kg water, k ≈ 2–8e-5 1/s
+    # docs/methods.md §1.1 typical magnitudes: ε ≈ 10 kJ/K, 2–3 kg water, k ≈ 2–8e-5 1/s
     p = CalorimeterParams.bomb_preset()
     assert p.energy_equivalent_J_per_K == pytest.approx(10_000.0)
     assert 2e-5 <= p.exchange_rate_per_s <= 8e-5
     assert p.two_body
     # 2.0 kg of water at 4.18 J/(g K) (common practice value of c_p of water near 25 °C)
     assert 2000 * 4.18 <= p.water_heat_capacity_J_per_K <= 3000 * 4.18
-    # internal time constant C_b C_w /(G_bw ε) (METHODS.md §1.9) of order a minute or two
+    # internal time constant C_b C_w /(G_bw ε) (docs/methods.md §1.9) of order a minute or two
     assert p.internal_time_constant_s == pytest.approx(1600 * 8400 / (15 * 10_000))
-    # T_inf − T_j = P_stir/G (METHODS.md §1.1)
+    # T_inf − T_j = P_stir/G (docs/methods.md §1.1)
     assert p.convergence_temperature_K == pytest.approx(298.15 + 0.04 / 0.4)
 
 
 def test_solution_preset_is_a_small_solution_calorimeter():
-    # METHODS.md §1.1: solution cells ε ≈ 200–450 J/K, k from 6e-5 to 6.5e-3 1/s (≈ 1e-3)
+    # docs/methods.md §1.1: solution cells ε ≈ 200–450 J/K, k from 6e-5 to 6.5e-3 1/s (≈ 1e-3)
     p = CalorimeterParams.solution_preset()
     assert 200 <= p.energy_equivalent_J_per_K <= 450
     assert p.exchange_rate_per_s == pytest.approx(1e-3)

@@ -18,7 +18,7 @@ from calwork.solution.chain import reduce_solution_runs
 from calwork.solution.demo import simulate_solution_day
 from calwork.thermogram import Thermogram
 
-# A small semi-adiabatic vessel: ε = 300 J/K, k = G/ε = 1e-3 1/s (METHODS.md §1.1 ranges)
+# A small semi-adiabatic vessel: ε = 300 J/K, k = G/ε = 1e-3 1/s (docs/methods.md §1.1 ranges)
 VESSEL = CalorimeterParams.solution_preset(bomb_heat_capacity_J_per_K=40.0,
                                            water_heat_capacity_J_per_K=260.0,
                                            exchange_conductance_W_per_K=0.3)
@@ -78,7 +78,7 @@ def test_dissolution_end_to_end_within_0_1_percent():
 
 
 @pytest.mark.parametrize(("name", "J_per_g", "u_J_per_g"), [
-    # Prosen & Kilday, J. Res. NBS 77A (1973) 581 (REFERENCES.md §3, confirmed):
+    # Prosen & Kilday, J. Res. NBS 77A (1973) 581 (docs/references.md §3, confirmed):
     ("TRIS in 0.1 mol/dm3 HCl", -245.76, 0.26),   # exothermic
     ("TRIS in 0.05 mol/dm3 NaOH", 141.80, 0.19),  # endothermic
 ])
@@ -94,7 +94,7 @@ def test_tris_reference_reactions_are_recovered(name, J_per_g, u_J_per_g):
     massic = r.molar_enthalpy_kJ_per_mol * 1000.0 / M
     assert abs(massic - J_per_g) < u_J_per_g  # within the certified uncertainty
     assert math.copysign(1, r.molar_enthalpy_kJ_per_mol) == math.copysign(1, J_per_g)
-    # −245.76 J/g × 121.136 g/mol = −29.770 kJ/mol (REFERENCES.md §3, derived)
+    # −245.76 J/g × 121.136 g/mol = −29.770 kJ/mol (docs/references.md §3, derived)
     if J_per_g < 0:
         assert r.molar_enthalpy_kJ_per_mol == pytest.approx(-29.770, abs=0.031)
     # referral rule (2.2): the mean of both calibrations refers to T_i + ΔT_c/2

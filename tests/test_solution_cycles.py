@@ -100,7 +100,7 @@ def test_hydrate_cycle_gives_the_tabulated_formation_enthalpy(tmp_path):
 def test_kcl_formation_enthalpy_from_srm1655_and_the_ion_key_values():
     # SRM 1655 (Kilday 1980; recalled from memory): 17.584 ± 0.017 kJ/mol at 0.111 mol/kg;
     # Pitzer ΦL -> Δ_solH∞; with CODATA K+(aq), Cl−(aq) the cycle gives Δ_fH°(KCl, cr), to be
-    # compared with CODATA −436.50 ± 0.20 (u = 0.10; REFERENCES.md §1a, memory)
+    # compared with CODATA −436.50 ± 0.20 (u = 0.10; docs/references.md §1a, memory)
     ext = extrapolate_to_infinite_dilution([0.111], [17.584], [0.017], model="pitzer",
                                            electrolyte="KCl")
     spec = {

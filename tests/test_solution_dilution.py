@@ -38,15 +38,15 @@ def _A_phi(T_K: float) -> float:
 
 
 def test_A_H_arithmetic_of_the_recalled_value():
-    # METHODS.md §2.5: A_H/RT ≈ 0.80 kg^½ mol^−½ at 298.15 K (recalled, Archer & Wang 1990)
+    # docs/methods.md §2.5: A_H/RT ≈ 0.80 kg^½ mol^−½ at 298.15 K (recalled, Archer & Wang 1990)
     # ⇒ A_H ≈ 0.80 × 2478.96 J/mol ≈ 1.98 kJ kg^½ mol^−3/2 (derived arithmetic)
-    assert RT == pytest.approx(2478.957, abs=1e-3)  # REFERENCES.md §7 (RT = 2.478 957 kJ/mol)
+    assert RT == pytest.approx(2478.957, abs=1e-3)  # docs/references.md §7 (RT = 2.478 957 kJ/mol)
     assert debye_huckel_A_H() / RT == pytest.approx(0.80, abs=0.005)
     assert debye_huckel_A_H() == pytest.approx(1.98e3, abs=10.0)
 
 
 def test_A_phi_and_A_H_derived_independently_from_iapws_water_properties():
-    # A_φ = (1/3)(2πN_Aρ)^½ (e²/4πε0DkT)^{3/2}; A_H = 4RT² dA_φ/dT (METHODS.md (2.5), derived).
+    # A_φ = (1/3)(2πN_Aρ)^½ (e²/4πε0DkT)^{3/2}; A_H = 4RT² dA_φ/dT (docs/methods.md (2.5), derived).
     # Pitzer's A_φ(25 °C) = 0.3915 (recalled from memory); IAPWS data give 0.3913.
     assert _A_phi(298.15) == pytest.approx(0.3915, rel=2e-3)
     h = 0.05
@@ -68,7 +68,7 @@ def test_ionic_strength():
 
 
 def test_limiting_law_for_1_1_is_A_H_sqrt_m():
-    # METHODS.md (2.5): for 1:1 electrolytes ΦL -> A_H √m
+    # docs/methods.md (2.5): for 1:1 electrolytes ΦL -> A_H √m
     m = np.array([1e-4, 1e-3, 0.01, 0.1])
     phi = apparent_molar_enthalpy_DH(m, model="limiting")
     np.testing.assert_allclose(phi, debye_huckel_A_H() * np.sqrt(m), rtol=1e-12)
@@ -121,8 +121,8 @@ def test_kcl_srm1655_to_infinite_dilution_against_codata():
     assert r.phi_L_kJ_per_mol[0] == pytest.approx(0.35, abs=0.01)
     # recalled infinite-dilution value 17.22–17.24 kJ/mol (Kilday 1980 / Parker 1965, memory)
     assert 17.21 <= r.infinite_dilution_enthalpy_kJ_per_mol <= 17.25
-    # CODATA key values (REFERENCES.md §1a/1c; bundled): ΔfH(K+) + ΔfH(Cl−) − ΔfH(KCl, cr)
-    # = −252.14 − 167.080 + 436.50 = +17.28 kJ/mol (derived, REFERENCES.md §1d)
+    # CODATA key values (docs/references.md §1a/1c; bundled): ΔfH(K+) + ΔfH(Cl−) − ΔfH(KCl, cr)
+    # = −252.14 − 167.080 + 436.50 = +17.28 kJ/mol (derived, docs/references.md §1d)
     kv = load_key_values()
     parts = [kv["K+(aq)"], kv["Cl-(aq)"], kv["KCl(cr)"]]
     codata = parts[0].value_kJ_per_mol + parts[1].value_kJ_per_mol - parts[2].value_kJ_per_mol

@@ -25,7 +25,7 @@ def _channels(on_s=300.0, off_s=600.0, power_W=0.05, seed=3, dt=2.0):
 
 
 def test_integral_of_V_I_matches_P_times_duration_from_simulated_channels():
-    # Q = ∫ V I dt over the interval = P Δt for a stable supply (METHODS.md (2.1))
+    # Q = ∫ V I dt over the interval = P Δt for a stable supply (docs/methods.md (2.1))
     tg = _channels()
     P = heater_power_W(tg.channels["heater_V"], tg.channels["heater_A"])
     (edges,) = find_heater_intervals(tg.time_s, P)
@@ -62,7 +62,7 @@ def test_detected_edges_and_their_uncertainty():
 
 
 def test_standard_resistor_form_gives_the_same_power():
-    # I = V_s / R_s (METHODS.md (2.1)): 10 Ω standard resistor in series with the heater
+    # I = V_s / R_s (docs/methods.md (2.1)): 10 Ω standard resistor in series with the heater
     tg = _channels()
     V, A = tg.channels["heater_V"], tg.channels["heater_A"]
     R_s = 10.0
@@ -76,7 +76,7 @@ def test_standard_resistor_form_gives_the_same_power():
 
 def test_lead_conventions():
     # P = V_h I + f I² R_L with potential leads at the heater; V I − (1 − f) I² R_L when the
-    # voltage includes the leads (METHODS.md §2.3; convention is a configuration item)
+    # voltage includes the leads (docs/methods.md §2.3; convention is a configuration item)
     V, current, R_L = np.array([2.0]), np.array([0.02]), 0.5
     lead = current**2 * R_L
     heater = heater_power_W(V, current, lead_resistance_ohm=R_L, lead_fraction=0.5)

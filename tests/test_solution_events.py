@@ -41,7 +41,7 @@ def test_events_found_in_a_calibration_reaction_calibration_log(energy_J):
     assert kinds == ["heater", "reaction", "heater"]
     r = ev.reaction
     # the onset is put a little before the true start (any t_i before the onset is exact
-    # for Newtonian methods, METHODS.md §1.4) and not more than a minute early
+    # for Newtonian methods, docs/methods.md §1.4) and not more than a minute early
     assert 1140.0 <= r.start_s <= 1200.0
     assert r.source == "detected"
     # windows: each ends before the next event starts; fore and after periods exist

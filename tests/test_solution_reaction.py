@@ -21,7 +21,7 @@ from calwork.solution.reaction import (
 
 
 def test_sign_convention_exothermic_negative_endothermic_positive():
-    # thermochemical convention (METHODS.md §0): heat released by the system -> ΔH < 0
+    # thermochemical convention (docs/methods.md §0): heat released by the system -> ΔH < 0
     assert molar_enthalpy_J_per_mol(360.0, +0.2, 0.004) < 0  # temperature rises: exothermic
     assert molar_enthalpy_J_per_mol(360.0, -0.2, 0.004) > 0  # temperature falls: endothermic
     assert molar_enthalpy_J_per_mol(360.0, -0.2, 0.004) == pytest.approx(18000.0)
@@ -43,10 +43,10 @@ def test_corrections_enter_with_the_right_sign():
 def _tris_adiabatic_run(mass_g: float, eps_initial: float, T_initial_K: float):
     """An ideal adiabatic TRIS-in-HCl run with a Kirchhoff-consistent final heat capacity.
 
-    Prosen & Kilday 1973 (J. Res. NBS 77A 581; REFERENCES.md §3, confirmed): Δ_rH =
+    Prosen & Kilday 1973 (J. Res. NBS 77A 581; docs/references.md §3, confirmed): Δ_rH =
     −245.76 J/g at 298.15 K and ΔCp = 1.435 J/(g K). The final contents' heat capacity is
     ε_f = ε_i + m ΔCp. Path "react at T_i, then heat the products" gives
-    0 = ΔH(T_i) + ε_f ΔT (METHODS.md (2.2), derived).
+    0 = ΔH(T_i) + ε_f ΔT (docs/methods.md (2.2), derived).
     """
     dCp = 1.435 * mass_g
     H_Ti = (-245.76 + 1.435 * (T_initial_K - 298.15)) * mass_g
@@ -105,7 +105,7 @@ def test_mean_of_two_calibrations_keeps_shared_components_whole():
     b = {"heater_rise": 0.08, "power_calibration": 0.036}
     r = refer_energy_equivalent(T_initial_K=298.15, corrected_rise_K=-0.1, before=(360.0, a),
                                 after=(360.2, b), basis="mean")
-    # independent: ½√(u1² + u2²); shared (same instruments): not reduced (METHODS.md §4.5)
+    # independent: ½√(u1² + u2²); shared (same instruments): not reduced (docs/methods.md §4.5)
     assert r.budget["heater_rise"] == pytest.approx(0.5 * math.hypot(0.06, 0.08))
     assert r.budget["power_calibration"] == pytest.approx(0.036)
 
@@ -130,7 +130,7 @@ def test_amount_of_substance():
 
 
 def test_molality_and_dilution_ratio_for_srm1655_conditions():
-    # n(H2O)/n(KCl) = 500 ⇔ m = 1000/(500 × 18.015) = 0.1110 mol/kg (REFERENCES.md §3:
+    # n(H2O)/n(KCl) = 500 ⇔ m = 1000/(500 × 18.015) = 0.1110 mol/kg (docs/references.md §3:
     # SRM 1655 certified at 0.111 mol/kg, i.e. 1:500; water M = 18.015 g/mol)
     n_kcl = 0.5 / molar_mass_g_per_mol("KCl")
     water_g = 500 * 18.015 * n_kcl

@@ -48,13 +48,13 @@ def test_enthalpy_of_vaporisation_against_iapws95(T_K):
 
 
 def test_enthalpy_of_vaporisation_near_the_standard_value():
-    # Δ_vapH°(H2O, 298.15 K) = 44.004 kJ/mol from CODATA ΔfH (REFERENCES.md §1d, derived); the
+    # Δ_vapH°(H2O, 298.15 K) = 44.004 kJ/mol from CODATA ΔfH (docs/references.md §1d, derived); the
     # saturation value differs from the standard one only by the vapour non-ideality (~16 J/mol)
     assert water_enthalpy_of_vaporisation_J_per_mol(298.15) == pytest.approx(44004.0, abs=30.0)
 
 
 def test_worked_example_one_cubic_centimetre_at_25C():
-    # METHODS.md §2.4 (derived): water, V_a = 1 cm³, 298.15 K -> n_v ≈ 1.28 µmol -> ≈ 0.056 J
+    # docs/methods.md §2.4 (derived): water, V_a = 1 cm³, 298.15 K -> n_v ≈ 1.28 µmol -> ≈ 0.056 J
     c = vaporisation_correction_J(1.0, 298.15)
     assert c.vapour_amount_mol == pytest.approx(1.28e-6, abs=0.005e-6)
     assert c.heat_absorbed_J == pytest.approx(0.056, abs=0.0005)

@@ -1,6 +1,6 @@
 """The bomb-calorimetry energy chain for one run: RunInfo + RiseResult → RunResult.
 
-Calibration run (reference material, METHODS.md (3.2)):
+Calibration run (reference material, docs/methods.md (3.2)):
 
     ε(calor) ΔT_c = m Δu_cert f_Jessup + Σ corrections
                     + ε^i (T_i − T_ref) + ε^f (T_ref − T_i − ΔT_c)

@@ -1,6 +1,6 @@
 """Energy equivalent of the bomb contents and the referral of the bomb process to T_ref.
 
-The isothermal bomb process at T_ref (Hubbard, Scott & Waddington 1956; METHODS.md (3.1)):
+The isothermal bomb process at T_ref (Hubbard, Scott & Waddington 1956; docs/methods.md (3.1)):
 
     ΔU_IBP = −ε(calor) ΔT_c + ε^i(cont) (T_i − T_ref) + ε^f(cont) (T_ref − T_i − ΔT_c) + ΔU_ign
 

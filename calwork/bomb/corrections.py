@@ -158,7 +158,7 @@ def nitric_acid_energy_J(n_hno3_mol: float) -> tuple[float, str]:
 
     Examples
     --------
-    1 mL of 0.0866 mol/L titrant with ΔfU = −59.7 kJ/mol: ≈ 5.17 J (METHODS.md §3.4).
+    1 mL of 0.0866 mol/L titrant with ΔfU = −59.7 kJ/mol: ≈ 5.17 J (docs/methods.md §3.4).
 
     >>> round(nitric_acid_energy_J(1e-3 * 0.0866)[0], 2)
     5.17

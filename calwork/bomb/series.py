@@ -1,7 +1,7 @@
 """Series of bomb runs: the calibration of a calorimeter and the result of a sample.
 
 Uncertainty (GUM law of propagation, JCGM 100:2008; the trade's scheme of Rossini 1956 and
-Olofsson 1979, METHODS.md §4): the budget of a sample's mean massic energy combines
+Olofsson 1979, docs/methods.md §4): the budget of a sample's mean massic energy combines
 
 * the scatter of the sample series, ``s/√n`` (Type A);
 * the calibration series, ``s(ε)/√n_c`` — systematic for every run on that calorimeter, so it

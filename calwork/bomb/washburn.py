@@ -3,7 +3,7 @@
 The bomb process at T_ref goes from the initial state (sample and auxiliaries, water, O2 at
 p_i ≈ 3 MPa, partly dissolved, water vapour in the gas) to the final state (CO2, excess O2
 and N2, partly dissolved, liquid water, HNO3 and H2SO4 in solution, water vapour). The
-standard-state correction (METHODS.md (3.5); Washburn, J. Res. NBS 10 (1933) 525; Hubbard,
+standard-state correction (docs/methods.md (3.5); Washburn, J. Res. NBS 10 (1933) 525; Hubbard,
 Scott & Waddington 1956) is
 
     ΔU_Σ = [U(initial) − U°(initial)] − [U(final) − U°(final)]

@@ -1,4 +1,4 @@
-"""From a standard massic energy of combustion to Δ_cU°, Δ_cH° and Δ_fH° (METHODS §3.7–3.8).
+"""From a standard massic energy of combustion to Δ_cU°, Δ_cH° and Δ_fH° (docs/methods.md §3.7–3.8).
 
 For a compound C_aH_bO_cN_dS_e (phase ``cr``, ``l``, ...):
 
@@ -15,7 +15,7 @@ For a compound C_aH_bO_cN_dS_e (phase ``cr``, ``l``, ...):
 * Δ_fH° from the network solver: the combustion reaction is one determination, the key
   values (CO₂(g), H₂O(l), H₂SO₄ in 115 H₂O) enter as rows, so u(Δ_fH°) carries u(Δ_cu°) and
   the key values with their correlations — for CHON this is
-  u² = u²(Δ_cH) + a² u²(CO₂) + (b/2)² u²(H₂O) (METHODS §3.8).
+  u² = u²(Δ_cH) + a² u²(CO₂) + (b/2)² u²(H₂O) (docs/methods.md §3.8).
 
 Safety: combustion energies come from oxygen-bomb experiments; bombs are pressure vessels —
 follow the maker's instructions, pressure-test schedules and local codes.

@@ -1,4 +1,4 @@
-"""Consistency diagnostics of a network fit (METHODS §5.3–5.4).
+"""Consistency diagnostics of a network fit (docs/methods.md §5.3–5.4).
 
 * residual ``r_j = y_j − (A x̂)_j``; normalised residual ``r_j / u_j``;
 * leverage ``h_j = (A cov(x̂) Aᵀ)_jj / u_j²`` and standardised residual

@@ -1,6 +1,6 @@
 """Kirchhoff's law: bring a reaction enthalpy to 298.15 K with heat capacities.
 
-    Δ_rH°(T₂) = Δ_rH°(T₁) + ∫_{T₁}^{T₂} Σ_s ν_s C°_p,s(T) dT                    (METHODS §5.5)
+    Δ_rH°(T₂) = Δ_rH°(T₁) + ∫_{T₁}^{T₂} Σ_s ν_s C°_p,s(T) dT       (docs/methods.md §5.5)
 
 Heat-capacity models per species (each valid over a stated interval; several intervals make
 a piecewise model):

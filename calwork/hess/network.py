@@ -1,4 +1,4 @@
-"""Thermochemical networks: Δ_fH° of many species from many reactions at once (METHODS §5).
+"""Thermochemical networks: Δ_fH° of many species from many reactions at once (docs/methods.md §5).
 
 Unknowns are the Δ_fH°(298.15 K) of every species in the network except the elements in
 their reference states and ``H+(aq)`` (zero). Each determination is a reaction with a

@@ -1,4 +1,4 @@
-"""Weighted least squares for a thermochemical network, dense or sparse (METHODS §5.2).
+"""Weighted least squares for a thermochemical network, dense or sparse (docs/methods.md §5.2).
 
 The model is ``A x = y + e`` with ``cov(e) = V``. Rows are whitened (``V = L Lᵀ`` per block
 of correlated rows, ``Aw = L⁻¹A``), the unknowns are split into connected components (a

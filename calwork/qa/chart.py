@@ -1,6 +1,6 @@
 """Individuals and moving-range control chart of a calorimeter's energy equivalent.
 
-Method (METHODS.md §6.2, common SPC practice): the mean ε̄ and the single-run standard
+Method (docs/methods.md §6.2, common SPC practice): the mean ε̄ and the single-run standard
 deviation s(ε) come from the standardisation series (the baseline); each later value is
 plotted against warning limits ε̄ ± 2 s and action limits ε̄ ± 3 s. The moving range
 MR_i = |ε_i − ε_(i−1)| is charted against MR̄ (over the baseline) and the upper limit
@@ -40,7 +40,7 @@ D4_N2 = 3.267
 D2_N2 = 2.0 / math.sqrt(math.pi)
 
 #: ASTM D240 §8.1: the energy equivalent is the mean of not less than six standardisation
-#: tests (METHODS.md §6.1, seen).
+#: tests (docs/methods.md §6.1, seen).
 MIN_BASELINE_RUNS = 6
 
 

@@ -321,7 +321,7 @@ def plan_budget(plan: Plan) -> None:
     grid.put(row + 1, 1, "Components are standard uncertainties (k = 1) in the unit shown, "
              "propagated by calwork (GUM law of propagation, JCGM 100:2008); the calibration "
              "and certificate parts are systematic for every run on that calorimeter and are "
-             "not averaged down (METHODS.md §4).", kind="note")
+             "not averaged down (docs/methods.md §4).", kind="note")
 
 
 def _key_values(samples: list[Any]) -> dict[str, dict[str, Any]]:

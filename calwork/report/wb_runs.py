@@ -1,6 +1,6 @@
 """Per-run sheets of the workbook: Corrections, Calibration runs, Sample runs, Solution runs.
 
-The formulas are those of the bomb chain (:mod:`calwork.bomb.chain`, METHODS.md (3.1)–(3.4)):
+The formulas are those of the bomb chain (:mod:`calwork.bomb.chain`, docs/methods.md (3.1)–(3.4)):
 
 * mass in vacuum ``m = m_weighed · b`` (b = buoyancy factor, 1 for masses in vacuum);
 * Jessup's factor ``f = 1 + 10⁻⁶ [a (p/atm − p₀) + b (m/V − s₀) + c (w/V − w₀) + d (t − t₀)]``

@@ -1,7 +1,7 @@
 """Corrected temperature rise of isoperibol and semi-adiabatic thermograms.
 
 * :func:`detect_periods` — fore, main and after periods (firing / heater-on / ampoule-break
-  time by the onset rule, end of the main period by the plateau test; METHODS.md §1.7).
+  time by the onset rule, end of the main period by the plateau test; docs/methods.md §1.7).
 * :func:`corrected_rise` — ``ΔT_c`` with its standard uncertainty by one of :data:`METHODS`:
   ``'newton-fit'`` (joint Newtonian fit, default), ``'regnault-pfaundler'``, ``'dickinson'``
   (``dickinson_rule='equal-area'`` or ``'60-percent'``).

@@ -1,4 +1,4 @@
-"""Statistical boundary tests of the period detection (METHODS.md §1.7), vectorised.
+"""Statistical boundary tests of the period detection (docs/methods.md §1.7), vectorised.
 
 * :func:`locate_event` — the steepest departure of the smoothed slope (rough main period);
 * :func:`detect_onset` — the onset rule: departure from a trailing drift line by more than
@@ -23,7 +23,7 @@ from calwork.thermogram import Thermogram
 __all__ = ["Event", "detect_onset", "heater_interval", "locate_event", "newtonian_start",
            "provisional_fit"]
 
-#: Onset threshold (× σ) and persistence (readings that must stay above it), METHODS.md §1.7.
+#: Onset threshold (× σ) and persistence (readings that must stay above it), docs/methods.md §1.7.
 ONSET_SIGMA = 5.0
 ONSET_PERSISTENCE = 4
 

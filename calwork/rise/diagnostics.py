@@ -43,7 +43,7 @@ WARNING_CODES = {
 }
 
 #: Minimum fore/after lengths (ASTM D240 rates over 5 min before firing and after c; ISO 1928
-#: similar — recalled from memory, METHODS.md §1.2/§1.7) and a minimum reading count [D].
+#: similar — recalled from memory, docs/methods.md §1.2/§1.7) and a minimum reading count [D].
 MIN_PERIOD_S = 300.0
 MIN_PERIOD_READINGS = 10
 

@@ -1,4 +1,4 @@
-"""The Dickinson extrapolation (METHODS.md §1.5), as pure functions.
+"""The Dickinson extrapolation (docs/methods.md §1.5), as pure functions.
 
 The exchange over the main period is the fore drift acting from ``t_i`` to ``t_x`` plus the
 after drift from ``t_x`` to ``t_f``:
@@ -13,7 +13,7 @@ Two rules for ``t_x``:
 * ``'60-percent'`` — the fuel-calorimetry shortcut (ASTM D240/D5865 form (1.8), recalled from
   memory): ``b`` = the time the temperature reaches ``t_a + 0.60 (t_c − t_a)``, interpolated
   between readings; ``t = t_c − t_a − r₁ (b − a) − r₂ (c − b)``. Not for thermochemistry: its
-  error is about ``(g_f − g_i)(t_x − b)`` (METHODS.md §1.5).
+  error is about ``(g_f − g_i)(t_x − b)`` (docs/methods.md §1.5).
 """
 
 from __future__ import annotations

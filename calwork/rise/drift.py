@@ -1,6 +1,6 @@
 """Newton's law of cooling and the heat-exchange correction, as small pure functions.
 
-Notation of METHODS.md §1.1: the calorimeter obeys ``dT/dt = k (T_∞ − T) + w(t)`` (1.1);
+Notation of docs/methods.md §1.1: the calorimeter obeys ``dT/dt = k (T_∞ − T) + w(t)`` (1.1);
 outside the main period ``w = 0`` and the drift rate is ``g(T) = k (T_∞ − T)``. The corrected
 (adiabatic) temperature rise is ``ΔT_c = (T_f − T_i) − ∫ k (T_∞ − T) dt`` (1.2).
 
@@ -36,7 +36,7 @@ _SERIES_LIMIT = 1e-3
 
 
 def newton_drift_K_per_s(temperature_K, rate_constant_per_s, convergence_temperature_K):
-    """Newtonian drift rate ``g = k (T_∞ − T)`` (METHODS.md (1.1) with ``w = 0``).
+    """Newtonian drift rate ``g = k (T_∞ − T)`` (docs/methods.md (1.1) with ``w = 0``).
 
     Parameters
     ----------
@@ -119,7 +119,7 @@ def drift_curve_K(t_s, t0_s: float, T0_K: float, drift0_K_per_s: float, rate_con
 
 def newton_temperature_K(t_s, t0_s: float, T0_K: float, rate_constant_per_s: float,
                          convergence_temperature_K: float):
-    """``T(t) = T_∞ + (T_0 − T_∞) e^{−k (t − t_0)}`` (METHODS.md (1.9)), K.
+    """``T(t) = T_∞ + (T_0 − T_∞) e^{−k (t − t_0)}`` (docs/methods.md (1.9)), K.
 
     Examples
     --------
@@ -188,7 +188,7 @@ def exchange_correction_K(time_s, temperature_K, rate_constant_per_s: float,
 
 
 def corrected_rise_K(T_initial_K: float, T_final_K: float, exchange_correction_K: float) -> float:
-    """``ΔT_c = (T_f − T_i) − δT_ex`` (METHODS.md (1.2)), K.
+    """``ΔT_c = (T_f − T_i) − δT_ex`` (docs/methods.md (1.2)), K.
 
     Examples
     --------

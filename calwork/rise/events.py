@@ -6,7 +6,7 @@ events and gives each a *window* of the log — the drift period before it, the 
 drift period after it, up to the next event — on which the temperature-rise engine
 (:func:`calwork.rise.corrected_rise`) is run exactly as on a single-event log.
 
-How (METHODS.md §1.7 in spirit; the thresholds are calwork's own):
+How (docs/methods.md §1.7 in spirit; the thresholds are calwork's own):
 
 1. Heater intervals come from the heater channels (:func:`~calwork.solution.electrical.
    find_heater_intervals`) or from the sheet's ``heater_on_s``/``heater_off_s``.

@@ -1,4 +1,4 @@
-"""Joint Newtonian fit of the fore and after periods (METHODS.md §1.6b) and its rise.
+"""Joint Newtonian fit of the fore and after periods (docs/methods.md §1.6b) and its rise.
 
 Both drift periods are fitted together to solutions of (1.1) with ``w = 0`` that share the
 rate constant ``k`` and the convergence temperature, with a separate integration constant for

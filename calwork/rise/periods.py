@@ -1,5 +1,5 @@
 """Fore, main and after periods of a thermogram: the :class:`Periods` record and
-:func:`detect_periods` (METHODS.md §1.2, §1.7).
+:func:`detect_periods` (docs/methods.md §1.2, §1.7).
 
 Detection, in order (every step is vectorised; no loop over readings):
 

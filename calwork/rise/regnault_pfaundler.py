@@ -1,4 +1,4 @@
-"""The Regnault–Pfaundler correction (METHODS.md §1.4), as pure functions.
+"""The Regnault–Pfaundler correction (docs/methods.md §1.4), as pure functions.
 
 The drift law is taken linear in temperature between the fore and after periods,
 ``g(T) = g_i + s (T − T̄_i)`` with ``s = (g_f − g_i)/(T̄_f − T̄_i) = −k``, and integrated over

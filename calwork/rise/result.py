@@ -23,7 +23,7 @@ JSON_KEYS = ("corrected_rise_K", "u_corrected_rise_K", "method", "fire_time_s", 
 
 @dataclass(frozen=True, kw_only=True)
 class DriftCurve:
-    """A fitted drift curve ``T(t) = T_0 + g_0 φ(t − t_0, k)`` (METHODS.md (1.9)).
+    """A fitted drift curve ``T(t) = T_0 + g_0 φ(t − t_0, k)`` (docs/methods.md (1.9)).
 
     ``k = 0`` is the straight drift line of Regnault–Pfaundler and Dickinson.
 
@@ -64,7 +64,7 @@ class RiseResult:
     Attributes
     ----------
     corrected_rise_K
-        ``ΔT_c`` (METHODS.md (1.2)), K; negative for an endothermic event.
+        ``ΔT_c`` (docs/methods.md (1.2)), K; negative for an endothermic event.
     u_corrected_rise_K
         Its standard uncertainty (k = 1), K; never zero.
     method

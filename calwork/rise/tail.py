@@ -8,7 +8,7 @@ the boundary component (a nested refit) does not see a bias of that kind.
 
 The tail is measured where it is far above the noise, in the late main period, on the
 invariant ``H(t) = T(t) + k ∫ (T − T_∞) dt`` (constant wherever the record is Newtonian,
-METHODS.md §1.1): a model ``H = c₀ + c₁ (t − t̄) + A e^{−(t − t_a)/τ}`` is fitted from
+docs/methods.md §1.1): a model ``H = c₀ + c₁ (t − t̄) + A e^{−(t − t_a)/τ}`` is fitted from
 ``t_a`` (where the departure has fallen below :data:`TAIL_START_FRACTION` of the rise, past
 the fast modes: thermometer lag, burning) to the end of the record — linear in
 ``c₀, c₁, A``, ``τ`` by a grid search. The tail extrapolated into the after period,

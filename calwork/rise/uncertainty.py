@@ -3,7 +3,7 @@
 The standard uncertainty of ``ΔT_c`` combines, in quadrature,
 
 * ``fit`` — the drift-fit parameters (end-point temperatures, ``k``, ``T_∞`` or the drift
-  rates) through the sensitivities of METHODS.md §1.4 (``∂ΔT_c/∂k = ∫(T − T_∞)dt``,
+  rates) through the sensitivities of docs/methods.md §1.4 (``∂ΔT_c/∂k = ∫(T − T_∞)dt``,
   ``∂ΔT_c/∂T_∞ = −k(t_f − t_i)``, end points), with the covariance scaled by the AR(1)
   variance-inflation factor of the residuals;
 * ``main-period-readings`` — reading noise entering through the exchange integral

@@ -2,7 +2,7 @@
 
 State (temperatures as deviations from ``initial_temperature_K``, K):
 ``y = [T_b, T_w, T_m]`` (two bodies) or ``[T, T_m]`` (one body); ``T_m`` (thermometer) is
-present only with a lag ``τ > 0``. The equations (METHODS.md §1.1, §1.9, §1.10)::
+present only with a lag ``τ > 0``. The equations (docs/methods.md §1.1, §1.9, §1.10)::
 
     C_b dT_b/dt = G_bw (T_w − T_b) + P_b(t)
     C_w dT_w/dt = G_bw (T_b − T_w) + G (T_j(t) − T_w) + P_stir + P_w(t)

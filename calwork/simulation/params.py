@@ -1,6 +1,6 @@
 """Parameters of the simulated isoperibol calorimeter (:class:`CalorimeterParams`).
 
-The model (METHODS.md §1.1, §1.9, §1.10): an inner body (bomb, or reaction vessel and ampoule
+The model (docs/methods.md §1.1, §1.9, §1.10): an inner body (bomb, or reaction vessel and ampoule
 holder) of heat capacity ``C_b`` and the calorimeter water ``C_w`` coupled by a conductance
 ``G_bw``; the water exchanges heat with a jacket at ``T_j(t) = T_j0 + drift·(t − t_start)``
 through a conductance ``G`` and receives a constant stirring power; the thermometer reads the
@@ -159,12 +159,12 @@ class CalorimeterParams:
 
     @property
     def exchange_rate_per_s(self) -> float:
-        """Newtonian rate constant k = G/ε, 1/s (METHODS.md §1.1)."""
+        """Newtonian rate constant k = G/ε, 1/s (docs/methods.md §1.1)."""
         return self.exchange_conductance_W_per_K / self.energy_equivalent_J_per_K
 
     @property
     def convergence_temperature_K(self) -> float | None:
-        """T_∞ = T_j0 + P_stir/G, K (METHODS.md §1.1); ``None`` when G = 0 (no convergence)."""
+        """T_∞ = T_j0 + P_stir/G, K (docs/methods.md §1.1); ``None`` when G = 0 (no convergence)."""
         if self.exchange_conductance_W_per_K == 0:
             return None
         return self.jacket_temperature_K + self.stirring_power_W / self.exchange_conductance_W_per_K
@@ -176,7 +176,7 @@ class CalorimeterParams:
 
     @property
     def internal_time_constant_s(self) -> float | None:
-        """τ₁ = C_b C_w /(G_bw (C_b + C_w)), s, of the inner-body ↔ water exchange (METHODS.md
+        """τ₁ = C_b C_w /(G_bw (C_b + C_w)), s, of the inner-body ↔ water exchange (docs/methods.md
         §1.9); ``None`` for one body, ``inf`` when ``G_bw = 0``."""
         if self.bomb_water_conductance_W_per_K is None:
             return None

@@ -74,7 +74,7 @@ class SimulationTruth:
     events
         One :class:`EventTruth` per heat input, in time order.
     exchange_rate_per_s
-        k = G/ε, 1/s (METHODS.md §1.1).
+        k = G/ε, 1/s (docs/methods.md §1.1).
     convergence_temperature_K
         T_∞ = T_j0 + P_stir/G, K (exact with zero jacket drift; with drift, its value at the
         start); ``None`` when G = 0.

@@ -2,7 +2,7 @@
 Debye–Hückel / Pitzer ΦL and extrapolation to infinite dilution, thermochemical cycles.
 
 * :mod:`.electrical` — heater power (``heater_V`` × ``heater_A`` or ``V_s/R_s``), heater
-  intervals, ``Q = ∫ V I dt``, ``ε = Q/ΔT_c`` (METHODS.md §2.3).
+  intervals, ``Q = ∫ V I dt``, ``ε = Q/ΔT_c`` (docs/methods.md §2.3).
 * :mod:`.events` — heater intervals and the reaction in one log, and their windows.
 * :mod:`.analysis` — one log: events → corrected rises → in-log calibrations.
 * :mod:`.reaction` — Δ_rH = −(ε ΔT_c − Σq)/n, the (2.2) referral rule, amounts, molality.

@@ -4,7 +4,7 @@
 temperature-rise engine (:func:`calwork.rise.corrected_rise`) on each event's window with
 ``fire_time_s`` = heater on / reaction onset, and turns every heater event into an energy
 equivalent ``ε = Q_el / ΔT_c,el`` (:mod:`.electrical`). Heater events before the reaction are
-calibrations of the initial contents, those after it of the final contents (METHODS.md (2.2)).
+calibrations of the initial contents, those after it of the final contents (docs/methods.md (2.2)).
 """
 
 from __future__ import annotations
@@ -45,7 +45,7 @@ class SolutionOptions:
     calibration
         Which ε a reaction run uses: ``'auto'`` (mean of the in-log calibrations before and
         after; else the one there is; else the calorimeter's electrical series), ``'mean'``,
-        ``'before'``, ``'after'`` or ``'series'`` (METHODS.md (2.2)).
+        ``'before'``, ``'after'`` or ``'series'`` (docs/methods.md (2.2)).
     phi_L_model
         ΦL model for the extrapolation to infinite dilution: ``'auto'`` (Pitzer where its
         parameters are bundled, the extended Debye–Hückel term for other known electrolytes,
@@ -69,7 +69,7 @@ class SolutionOptions:
         fore period from the window start to the reading before heater-on / onset, main
         period to the end of the event's active stretch plus a margin (the larger of 30 s,
         the stretch's own tail, five readings), after period to the window end (ΔT_c does not
-        depend on t_f once the event is over, METHODS.md §1.1). ``'rise'``: the
+        depend on t_f once the event is over, docs/methods.md §1.1). ``'rise'``: the
         temperature-rise engine's own detection (:func:`calwork.rise.detect_periods`) on the
         window, with the heater-on / onset time given.
     undetected_main_period_s

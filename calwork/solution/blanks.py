@@ -1,4 +1,4 @@
-"""Ampoule-breaking blanks (METHODS.md §2.4).
+"""Ampoule-breaking blanks (docs/methods.md §2.4).
 
 Breaking an empty sealed ampoule in the solvent releases a small heat ``q_break`` (mechanical
 work, glass fracture, stirring disturbance), of order millijoules. Blank runs (sheet kind
@@ -10,7 +10,7 @@ run on the same calorimeter is the mean ``q̄`` with two uncertainty components:
 * ``ampoule_breaking``: the ampoule-to-ampoule standard deviation ``s`` (the breaking energy of
   the run's own ampoule differs from the mean by about that much; independent between runs);
 * ``blank_mean``: the standard deviation of the mean, ``s/√n``, shared by every run that uses
-  the same blank series (it does not average down over a series; METHODS.md §4.5).
+  the same blank series (it does not average down over a series; docs/methods.md §4.5).
 
 With a single blank the spread is unknown; its own measurement uncertainty is used for both
 components and a warning says so.

@@ -1,4 +1,4 @@
-"""Thermochemical cycles from enthalpies of solution (METHODS.md §2.5, §5).
+"""Thermochemical cycles from enthalpies of solution (docs/methods.md §2.5, §5).
 
 A molar enthalpy of solution is a reaction enthalpy: the solute in its own state goes into a
 solution state. Written in the Hess back-solver's notation (solvent water not written; the

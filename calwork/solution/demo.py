@@ -12,7 +12,7 @@ The true heats are set so that a correct reduction recovers them:
   memory) at its certified molality 0.111 mol/kg. The heat capacity of reaction is ignored (the
   truth does not vary with temperature); each break happens near 298.15 K.
 * Ampoule breaking: each ampoule releases a heat drawn from N(8 mJ, 2 mJ) (invented);
-  solvent vaporisation into the ampoule's gas volume absorbs n_v Δ_vapH (METHODS.md §2.4).
+  solvent vaporisation into the ampoule's gas volume absorbs n_v Δ_vapH (docs/methods.md §2.4).
 * The electrical heater: 50 mW for 300 s in a 50 Ω heater; the current is logged as the
   voltage across a 10 Ω standard resistor in the stand-alone calibrations.
 

@@ -1,12 +1,12 @@
 """Towards infinite dilution: relative apparent molar enthalpy ΦL and extrapolation.
 
 A molar enthalpy of solution measured at final molality m relates to the value at infinite
-dilution through the relative apparent molar enthalpy of the solute (METHODS.md (2.4)):
+dilution through the relative apparent molar enthalpy of the solute (docs/methods.md (2.4)):
 
     Δ_solH(m) = Δ_solH^∞ + ΦL(m)
 
 For an electrolyte M_νM X_νX (charges z_M, z_X; ν = ν_M + ν_X) three models of ΦL are offered
-(METHODS.md (2.5); parameters in ``solution_properties.toml``):
+(docs/methods.md (2.5); parameters in ``solution_properties.toml``):
 
 ``limiting``
     Debye–Hückel limiting law, ΦL = ν|z_M z_X| (A_H/2) √I (for 1:1: A_H √m).
@@ -217,7 +217,7 @@ def apparent_molar_enthalpy_pitzer(
     temperature_K: float = T_REF_K,
     A_H_J_kg05_per_mol15: float | None = None,
 ):
-    """Pitzer relative apparent molar enthalpy ΦL, J/mol (METHODS.md (2.5)).
+    """Pitzer relative apparent molar enthalpy ΦL, J/mol (docs/methods.md (2.5)).
 
     Parameters
     ----------

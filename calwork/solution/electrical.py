@@ -1,4 +1,4 @@
-"""Electrical calibration of a solution calorimeter (METHODS.md §2.3).
+"""Electrical calibration of a solution calorimeter (docs/methods.md §2.3).
 
 The heater energy is ``Q_el = ∫ V_h I dt`` over the heater interval (2.1), with the current
 either logged directly (channel ``heater_A``) or from the voltage across a series standard
@@ -6,7 +6,7 @@ resistor, ``I = V_s / R_s`` (channel ``standard_resistor_V`` and sheet column
 ``standard_resistor_ohm``). With a stable supply ``Q_el = P̄ (t_off − t_on)``; without channels
 the sheet's ``heater_power_W``, ``heater_on_s`` and ``heater_off_s`` give it directly.
 
-Lead convention (METHODS.md §2.3; a configuration item): by default the potential leads are
+Lead convention (docs/methods.md §2.3; a configuration item): by default the potential leads are
 attached at the heater, so ``V_h I`` is the heater's own power and no lead correction is made.
 With ``lead_resistance_ohm`` R_L (the current-lead segment between the heater and the point
 where the potential is measured) the power ``I² R_L`` in that segment is assigned to the

@@ -1,6 +1,6 @@
 """Reaction runs: molar enthalpy of solution or reaction from ε, ΔT_c and corrections.
 
-Energy balance of the calorimeter (METHODS.md §2.4–2.5), all heats counted as *released into
+Energy balance of the calorimeter (docs/methods.md §2.4–2.5), all heats counted as *released into
 the calorimeter* (calwork's sign for corrections, as in ``RunResult.corrections_J``):
 
     ε ΔT_c = q_reaction + Σ q_corr,      q_reaction = −n Δ_rH
@@ -12,10 +12,10 @@ so that
 with ``q_break > 0`` (breaking an ampoule releases a little heat) and ``q_vap = −n_v Δ_vapH < 0``
 (solvent evaporating into the ampoule's gas space absorbs heat). An endothermic dissolution
 (ΔT_c < 0) gives Δ_solH > 0; an exothermic one gives Δ_solH < 0 (thermochemical convention).
-METHODS.md (2.5) writes the same balance with q_vap as the heat *absorbed*, i.e. with the
+docs/methods.md (2.5) writes the same balance with q_vap as the heat *absorbed*, i.e. with the
 opposite sign of the vaporisation term; the physics is the same.
 
-Which ε (METHODS.md (2.2)): with calibrations before (ε_i, initial contents) and after (ε_f,
+Which ε (docs/methods.md (2.2)): with calibrations before (ε_i, initial contents) and after (ε_f,
 final contents) the reaction,
 
 * after  → −ε_f ΔT_c = Δ_rH at the initial temperature T_i;
@@ -51,16 +51,16 @@ __all__ = [
     "solution_enthalpy",
 ]
 
-#: How the energy equivalent of a reaction run is chosen (METHODS.md (2.2)).
+#: How the energy equivalent of a reaction run is chosen (docs/methods.md (2.2)).
 CALIBRATION_BASES = ("after", "auto", "before", "mean", "series")
 
 #: Budget components that are common to every run sharing a calibration or instrument; they do
-#: not average down over a series (METHODS.md §4.5).
+#: not average down over a series (docs/methods.md §4.5).
 SHARED_COMPONENTS = frozenset({"power_calibration", "blank_mean", "calibration_series"})
 
 
 def reference_temperature_K(T_initial_K: float, corrected_rise_K: float, basis: str) -> float:
-    """Temperature a reaction enthalpy refers to (METHODS.md (2.2)), K.
+    """Temperature a reaction enthalpy refers to (docs/methods.md (2.2)), K.
 
     Parameters
     ----------
@@ -119,7 +119,7 @@ def refer_energy_equivalent(
     series: tuple[float, Mapping[str, float]] | None = None,
     basis: str = "auto",
 ) -> ReferredEnergyEquivalent:
-    """Choose ε for a reaction and the temperature the result refers to (METHODS.md (2.2)).
+    """Choose ε for a reaction and the temperature the result refers to (docs/methods.md (2.2)).
 
     Parameters
     ----------

@@ -1,6 +1,6 @@
 """Solution series: the mean of a sample's runs and its extrapolation to infinite dilution.
 
-Uncertainty of the series mean (METHODS.md §4.5): the components that differ from run to run
+Uncertainty of the series mean (docs/methods.md §4.5): the components that differ from run to run
 (corrected rises, in-log calibrations, weighings, the ampoule-to-ampoule spread) average
 down; those shared by every run (a calibration series' ε, the mean blank, the calibration of
 the electrical instruments) do not. The random part is the larger of the standard deviation

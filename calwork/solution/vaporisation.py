@@ -1,4 +1,4 @@
-"""Solvent vaporisation into an ampoule's gas space (METHODS.md §2.4).
+"""Solvent vaporisation into an ampoule's gas space (docs/methods.md §2.4).
 
 When a sealed ampoule holding a dry solid (and air) breaks in the solvent, solvent evaporates
 until the ampoule's free gas volume ``V_a`` is saturated. That absorbs
@@ -8,7 +8,7 @@ until the ampoule's free gas volume ``V_a`` is saturated. That absorbs
 from the calorimeter (an endothermic side effect: it makes the measured heat more negative).
 In calwork's bookkeeping, where corrections are heats *released into* the calorimeter, the
 vaporisation correction is ``−q_vap``. For water, V_a = 1 cm³ at 298.15 K:
-n_v = 1.28 µmol and q_vap ≈ 0.056 J (METHODS.md §2.4).
+n_v = 1.28 µmol and q_vap ≈ 0.056 J (docs/methods.md §2.4).
 
 Raoult lowering of the vapour pressure over a dilute solution (< 0.5 % at 0.1 mol/kg) and air
 dissolving are neglected. An ampoule filled with a volatile *liquid* sample is already
