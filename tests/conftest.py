@@ -12,3 +12,14 @@ os.environ.setdefault("MPLBACKEND", "Agg")
 import matplotlib  # noqa: E402  (after the thread settings above)
 
 matplotlib.use("Agg")
+
+
+def copy_sample_runs(dest):
+    """A writable copy of the bundled, simulated sample runs in ``dest``; returns the folder."""
+    import shutil
+    from importlib import resources
+    from pathlib import Path
+
+    with resources.as_file(resources.files("calwork.sample_runs")) as folder:
+        shutil.copytree(folder, Path(dest), dirs_exist_ok=True)
+    return Path(dest)

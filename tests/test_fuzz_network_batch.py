@@ -5,11 +5,10 @@ from __future__ import annotations
 
 import csv
 import io
-import shutil
 import warnings
-from importlib import resources
 
 import pytest
+from conftest import copy_sample_runs
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
@@ -94,9 +93,7 @@ def test_mangled_network_files_raise_only_calwork_errors(tmp_path, name, base, d
 @pytest.fixture(scope="module")
 def sheet_rows(tmp_path_factory):
     folder = tmp_path_factory.mktemp("batch")
-    src = resources.files("calwork.sample_runs")
-    with resources.as_file(src) as runs:
-        shutil.copytree(runs, folder / "runs")
+    copy_sample_runs(folder / "runs")
     with (folder / "runs" / "runs.csv").open(encoding="utf-8") as fh:
         rows = [r for r in csv.DictReader(fh) if r["kind"] == "calibration"][:5]
     return folder / "runs", rows

@@ -9,13 +9,12 @@ from __future__ import annotations
 
 import csv
 import os
-import shutil
 import subprocess
 import sys
 import textwrap
-from importlib import resources
 
 import pytest
+from conftest import copy_sample_runs
 
 from calwork.cli.main import main
 
@@ -24,9 +23,7 @@ pytestmark = pytest.mark.skipif(sys.platform == "win32", reason="POSIX resource 
 
 @pytest.fixture
 def sheets(tmp_path):
-    src = resources.files("calwork.sample_runs")
-    with resources.as_file(src) as folder:
-        shutil.copytree(folder, tmp_path / "runs")
+    copy_sample_runs(tmp_path / "runs")
     with (tmp_path / "runs" / "runs.csv").open(encoding="utf-8") as fh:
         rows = list(csv.DictReader(fh))
     bomb = [r for r in rows if r["kind"] in ("calibration", "combustion")]

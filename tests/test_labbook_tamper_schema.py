@@ -3,11 +3,10 @@ fully re-chained audit log."""
 
 from __future__ import annotations
 
-import shutil
 import sqlite3
-from importlib import resources
 
 import pytest
+from conftest import copy_sample_runs
 
 from calwork.cli.main import main
 from calwork.labbook import audit, open_labbook
@@ -15,9 +14,7 @@ from calwork.labbook import audit, open_labbook
 
 @pytest.fixture
 def book(tmp_path):
-    src = resources.files("calwork.sample_runs")
-    with resources.as_file(src) as folder:
-        shutil.copytree(folder, tmp_path / "runs")
+    copy_sample_runs(tmp_path / "runs")
     path = tmp_path / "lab.sqlite"
     with open_labbook(path, create=True, user="analyst") as lb:
         lb.add_sheet(tmp_path / "runs" / "runs.csv")

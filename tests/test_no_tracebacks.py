@@ -3,11 +3,10 @@ failed check, exit 1, for `labbook verify`), and in a batch an error of its run 
 
 from __future__ import annotations
 
-import shutil
 import sqlite3
-from importlib import resources
 
 import pytest
+from conftest import copy_sample_runs
 
 from calwork.cli.main import main
 from calwork.errors import InputFileError
@@ -71,9 +70,7 @@ def test_a_400_digit_coefficient(tmp_path, capsys):
 
 
 def test_oxygen_pressure_in_pascal_fails_its_run_only(tmp_path, capsys):
-    src = resources.files("calwork.sample_runs")
-    with resources.as_file(src) as folder:
-        shutil.copytree(folder, tmp_path / "runs")
+    copy_sample_runs(tmp_path / "runs")
     sheet = tmp_path / "runs" / "runs.csv"
     text = sheet.read_text(encoding="utf-8").splitlines()
     header = text[0].split(",")
@@ -90,9 +87,7 @@ def test_oxygen_pressure_in_pascal_fails_its_run_only(tmp_path, capsys):
 
 
 def test_verify_names_a_damaged_row(tmp_path, capsys):
-    src = resources.files("calwork.sample_runs")
-    with resources.as_file(src) as folder:
-        shutil.copytree(folder, tmp_path / "runs")
+    copy_sample_runs(tmp_path / "runs")
     book = tmp_path / "lab.sqlite"
     assert main(["labbook", "add", str(tmp_path / "runs" / "runs.csv"),
                  "--labbook", str(book)]) == 0

@@ -4,8 +4,8 @@
 from __future__ import annotations
 
 import csv
-import shutil
-from importlib import resources
+
+from conftest import copy_sample_runs
 
 from calwork.cli.main import main
 
@@ -14,9 +14,7 @@ SCRIPT = "<script>alert(1)</script>"
 
 
 def test_reduce_outputs_neutralise_sheet_text(tmp_path, capsys):
-    src = resources.files("calwork.sample_runs")
-    with resources.as_file(src) as folder:
-        shutil.copytree(folder, tmp_path / "runs")
+    copy_sample_runs(tmp_path / "runs")
     sheet = tmp_path / "runs" / "runs.csv"
     with sheet.open(encoding="utf-8") as fh:
         rows = [r for r in csv.DictReader(fh) if r["kind"] in ("calibration", "combustion")]

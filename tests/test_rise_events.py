@@ -12,6 +12,7 @@ import json
 
 import numpy as np
 import pytest
+from conftest import copy_sample_runs
 
 from calwork.cli.main import main
 from calwork.errors import ChoiceError, MultipleEventsError
@@ -138,15 +139,11 @@ def test_a_double_firing_fails_alone_in_a_batch_unless_the_sheet_says_which(two_
 
 def test_reduce_plots_the_reaction_of_a_solution_log(tmp_path, monkeypatch):
     import csv
-    import shutil
-    from importlib import resources
 
     import calwork.rise
     from calwork.cli import reduce as cli_reduce
 
-    src = resources.files("calwork.sample_runs")
-    with resources.as_file(src) as folder:
-        shutil.copytree(folder, tmp_path / "runs")
+    copy_sample_runs(tmp_path / "runs")
     sheet = tmp_path / "runs" / "runs.csv"
     with sheet.open(encoding="utf-8") as fh:
         rows = [r for r in csv.DictReader(fh) if r["kind"] in ("electrical", "solution")]

@@ -9,10 +9,9 @@ from __future__ import annotations
 
 import csv
 import re
-import shutil
-from importlib import resources
 
 import pytest
+from conftest import copy_sample_runs
 
 from calwork.errors import SensorRangeError, SheetError, UnitError
 from calwork.io import read_log, read_run_sheet
@@ -73,9 +72,7 @@ def test_values_in_range_pass():
 
 @pytest.fixture
 def sheet(tmp_path):
-    src = resources.files("calwork.sample_runs")
-    with resources.as_file(src) as folder:
-        shutil.copytree(folder, tmp_path / "runs")
+    copy_sample_runs(tmp_path / "runs")
     path = tmp_path / "runs" / "runs.csv"
     with path.open(encoding="utf-8") as fh:
         rows = list(csv.DictReader(fh))
