@@ -187,3 +187,12 @@ def test_event_count_over_many_seeds(name, params, inputs, duration_s, n_events)
                                                 seed=seed).thermogram).events)
               for seed in range(12)]
     assert counts == [n_events] * 12, name
+
+
+def test_an_event_number_with_explicit_periods_is_an_error(three_events):
+    from calwork.rise import detect_periods
+
+    window = three_events.thermogram.window(1500.0, 2600.0)
+    periods = detect_periods(window)
+    with pytest.raises(ChoiceError, match="not both"):
+        corrected_rise(window, periods=periods, event=1)

@@ -205,8 +205,8 @@ def corrected_rise(thermogram: Thermogram, method: str = "newton-fit",
     event
         For a log with several heat events (:func:`calwork.rise.events.list_heat_events`):
         which one to reduce, 1-based. Without it such a log is refused (a given
-        ``fire_time_s`` also says which: the event it falls in). Ignored with explicit
-        ``periods``.
+        ``fire_time_s`` also says which: the event it falls in). Explicit ``periods`` say
+        which readings to use already; giving both is an error.
 
     Returns
     -------
@@ -240,6 +240,9 @@ def corrected_rise(thermogram: Thermogram, method: str = "newton-fit",
     whole = thermogram
     events: tuple = ()
     chosen = None
+    if periods is not None and event is not None:
+        raise ChoiceError("give either explicit periods or an event number, not both",
+                          column="event", found=event, expected="no event with periods")
     if periods is None:
         found = list_heat_events(thermogram)
         if len(found.events) > 1 or (event is not None and event != 1):
