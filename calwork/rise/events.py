@@ -411,13 +411,7 @@ def list_heat_events(
     h = max(2, min(round(half_width_s / dt), t.size // 4))
     slope = local_slopes_K_per_s(t, T, h)
     segments, resid, sigma = _departures(t, T, np.ones(t.size, dtype=bool), h, n_sigma,
-                                         slope=slope, passes=1)
-    # the first pass's events, masked out, sharpen the drift baseline of the second
-    quiet = np.ones(t.size, dtype=bool)
-    for a, b in segments:
-        quiet[max(a - 2 * h, 0):b + 4 * h + 1] = False
-    segments, resid, sigma = _departures(t, T, quiet, h, n_sigma, slope=slope,
-                                         robust_start=False, passes=1)
+                                         slope=slope, passes=2)
     gap = max(round(min_gap_s / dt), 10)
     merged: list[list[int]] = []
     for a, b in segments:
