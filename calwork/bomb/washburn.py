@@ -454,10 +454,11 @@ def washburn_correction(
     >>> 18 < r.correction_J / 3.0 < 26
     True
     """
-    kwargs = {"bomb_volume_L": bomb_volume_L, "o2_pressure_MPa": o2_pressure_MPa,
-              "bomb_water_g": bomb_water_g, "nitric_acid_mol": nitric_acid_mol,
-              "soot_g": soot_g, "temperature_K": temperature_K}
-    initial, final = states or bomb_states(combustibles, **kwargs)
+    initial, final = states or bomb_states(
+        combustibles, bomb_volume_L=bomb_volume_L, o2_pressure_MPa=o2_pressure_MPa,
+        bomb_water_g=bomb_water_g, nitric_acid_mol=nitric_acid_mol, soot_g=soot_g,
+        temperature_K=temperature_K,
+    )
     terms = _terms(initial, final, RECOMMENDED_CROSS_MODEL)
     correction = sum(terms.values())
     # the cross-virial model: the other GERG-2008 fit evaluated on the same states (for

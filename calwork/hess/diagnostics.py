@@ -35,6 +35,7 @@ __all__ = [
     "Offender",
     "Residual",
     "anchor_conflicts",
+    "anchor_label",
     "consistency",
     "inflate_until_consistent",
     "residuals",
@@ -104,7 +105,7 @@ class Offender:
         text = (f"{self.id} (|r/u| {self.score:.2f}, "
                 f"χ² {self.chi2_before:.3g} → {self.chi2_after:.3g})")
         if self.conflicts_with:
-            text += " — conflicts with " + ", ".join(_anchor_name(a)
+            text += " — conflicts with " + ", ".join(anchor_label(a)
                                                      for a in self.conflicts_with)
         if self.indistinguishable_from:
             text += " — the data cannot tell it apart from " + ", ".join(
@@ -132,7 +133,8 @@ class Inflation:
         return d
 
 
-def _anchor_name(row_id: str) -> str:
+def anchor_label(row_id: str) -> str:
+    """How an anchor row is named in messages: a bundled key value or a user's anchor."""
     if row_id.startswith("key:"):
         return f"the key value of {row_id[4:]}"
     return f"the anchor {row_id}"

@@ -27,6 +27,7 @@ from calwork.constants import T_REF_K
 from calwork.errors import NetworkError, check_choice
 from calwork.hess.diagnostics import (
     anchor_conflicts,
+    anchor_label,
     consistency,
     inflate_until_consistent,
     residuals,
@@ -251,10 +252,6 @@ def _user_formations(rows: Sequence[Reaction], zero: frozenset[Species]
     return out
 
 
-def _anchor_label(row_id: str) -> str:
-    return f"the key value of {row_id[4:]}" if row_id.startswith("key:") else f"anchor {row_id}"
-
-
 def _subset_solver(asm: _Assembled, method: str, seed: int):
     def solve(keep: np.ndarray, u: np.ndarray):
         rows = np.flatnonzero(keep)
@@ -357,7 +354,7 @@ def solve_network(
     for step in (*order, *inflations):
         if step.conflicts_with:
             text = (f"determination {step.id} conflicts with "
-                    + ", ".join(_anchor_label(a) for a in step.conflicts_with)
+                    + ", ".join(anchor_label(a) for a in step.conflicts_with)
                     + ": the data cannot say which is wrong, and anchors are never adjusted")
             if text not in warnings:
                 warnings.append(text)

@@ -195,22 +195,18 @@ def _theil_sen(x: np.ndarray, y: np.ndarray, max_points: int = 60) -> np.ndarray
 
 
 def _departures(t: np.ndarray, T: np.ndarray, quiet: np.ndarray, h: int, n_sigma: float,
-                *, slope: np.ndarray | None = None, robust_start: bool = True,
-                passes: int = 3) -> tuple[list[tuple[int, int]], np.ndarray, float]:
+                *, passes: int = 3) -> tuple[list[tuple[int, int]], np.ndarray, float]:
     """Stretches where the local slope departs from Newtonian drift, the slope residuals and
     their robust noise.
 
     Newtonian drift is ``g = a + c T``: a Theil–Sen line through (T, g) of the ``quiet``
     readings (an event's readings are a small minority), then least squares with trimming
-    (``passes`` times). With ``robust_start=False`` (the events already masked out of
-    ``quiet``) the Theil–Sen start is skipped.
+    (``passes`` times).
     """
-    if slope is None:
-        slope = local_slopes_K_per_s(t, T, h)
+    slope = local_slopes_K_per_s(t, T, h)
     if np.count_nonzero(quiet) < 10:
         quiet = np.ones(t.size, dtype=bool)
-    coef = (_theil_sen(T[quiet] - T[0], slope[quiet]) if robust_start
-            else _line(T[quiet] - T[0], slope[quiet]))
+    coef = _theil_sen(T[quiet] - T[0], slope[quiet])
     r = slope - (coef[0] * (T - T[0]) + coef[1])
     sigma = _robust_sigma(r[quiet])
     use = quiet & (np.abs(r) < 5.0 * sigma) if sigma > 0 else quiet.copy()
@@ -409,9 +405,8 @@ def list_heat_events(
             heater = heater[:n].reshape(-1, block).max(axis=1)
     dt = float(np.median(np.diff(t)))
     h = max(2, min(round(half_width_s / dt), t.size // 4))
-    slope = local_slopes_K_per_s(t, T, h)
     segments, resid, sigma = _departures(t, T, np.ones(t.size, dtype=bool), h, n_sigma,
-                                         slope=slope, passes=2)
+                                         passes=2)
     gap = max(round(min_gap_s / dt), 10)
     merged: list[list[int]] = []
     for a, b in segments:
