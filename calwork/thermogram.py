@@ -11,6 +11,7 @@ import numpy as np
 
 from calwork.constants import CELSIUS_ZERO_K
 from calwork.errors import LogFormatError, TimeAxisError, ValueCellError
+from calwork.numeric import median
 from calwork.provenance import Provenance
 
 #: Shortest median interval between readings accepted, s: calorimeter logs are sampled at
@@ -96,7 +97,7 @@ class Thermogram:
                 line=None if rows is None else int(rows[i]),
                 found=float(t[i]), expected=f"a time after {float(t[i - 1])!r} s", **where,
             )
-        spacing = float(np.median(steps)) if steps.size else 1.0
+        spacing = median(steps) if steps.size else 1.0
         if spacing < MIN_SAMPLING_INTERVAL_S:
             raise TimeAxisError(
                 f"readings only {spacing:.3g} s apart: no calorimeter log is sampled that fast;"
@@ -126,7 +127,7 @@ class Thermogram:
     @property
     def sampling_interval_s(self) -> float:
         """Median interval between readings, s."""
-        return float(np.median(np.diff(self.time_s)))
+        return median(np.diff(self.time_s))
 
     @property
     def time_span_s(self) -> float:

@@ -180,9 +180,7 @@ def write_outputs(red: Reduction, out_dir: str | Path, *, plots: bool = True) ->
     try:
         out.mkdir(parents=True, exist_ok=True)
         written = [out / "summary.csv", out / "samples.csv", out / "report.md"]
-        runs = [r.to_dict() for r in red.runs]
-        for rec in runs:
-            rec["corrections_J"] = None
+        runs = [{c: getattr(r, c) for c in _RUN_COLUMNS} for r in red.runs]
         _write_csv(written[0], _RUN_COLUMNS, runs)
         _write_csv(written[1], _SAMPLE_COLUMNS, [s.to_dict() for s in red.samples])
         written[2].write_text(reduction_markdown(red), encoding="utf-8")

@@ -16,6 +16,7 @@ from __future__ import annotations
 
 import io
 import json
+import operator
 from collections.abc import Mapping
 from datetime import date, datetime, time, timedelta
 from functools import cache
@@ -51,6 +52,7 @@ from calwork.io._text import (
 )
 from calwork.io._xlsx import is_xlsx, read_xlsx_rows
 from calwork.io.sensors import SensorModel, resolve_sensor
+from calwork.numeric import median
 from calwork.plausibility import temperature_slip
 from calwork.provenance import Provenance, calwork_version
 from calwork.thermogram import Thermogram
@@ -166,6 +168,35 @@ def _time_kind(plan: ColumnPlan, first_cell: str) -> str:
     return "num"
 
 
+def _all_numbers(block: str, nrows: int, sep: str | None, decimal: str,
+                 n_fields: int) -> np.ndarray | None:
+    """The block as an ``(nrows, n_fields)`` array when every cell is a plain number (the
+    usual logger file), else ``None``. Every line must hold exactly ``n_fields`` cells, so a
+    short line and a long one cannot make up for each other; anything unusual (non-ASCII,
+    digit-group underscores, a point in a decimal-comma block, a text cell) returns ``None``
+    for the general parser."""
+    if not block.isascii() or "_" in block or (decimal == "," and "." in block):
+        return None
+    # the caller checked the block's total cell count: the fewest cells on a line being
+    # n_fields then means every line has n_fields
+    lines = block.split("\n")
+    if sep is None:
+        if min(map(len, map(str.split, lines))) != n_fields:
+            return None
+        cells = block.split()
+    else:
+        if min(map(operator.methodcaller("count", sep), lines)) != n_fields - 1:
+            return None
+        cells = block.replace("\n", sep).split(sep)
+    if decimal == ",":
+        cells = [c.replace(",", ".") for c in cells]
+    try:
+        values = np.array(cells, dtype=float)
+    except ValueError:  # a text or empty cell
+        return None
+    return values.reshape(nrows, n_fields)
+
+
 def _fast_parse(block: str, nrows: int, sep: str | None, decimal: str, n_fields: int,
                 kinds: dict[int, str]) -> dict[int, Any] | None:
     """Columns by index via pandas, or ``None`` when anything needs the careful path."""
@@ -176,6 +207,10 @@ def _fast_parse(block: str, nrows: int, sep: str | None, decimal: str, n_fields:
             return None
     elif len(block.split()) != n_fields * nrows:
         return None
+    numbers = _all_numbers(block, nrows, sep, decimal, n_fields)
+    if numbers is not None:  # then no cell is a clock time or a timestamp either
+        columns = {i: numbers[:, i].copy() for i in kinds}
+        return columns if all(np.isfinite(c).all() for c in columns.values()) else None
     import pandas as pd
 
     try:
@@ -271,11 +306,11 @@ def _check_unit_slip(raw: np.ndarray, rows: np.ndarray, path, column: str, unit:
                      inferred: bool) -> None:
     """A calorimeter log sits near room temperature: readings whose median is far from it in
     the unit they were read in are a unit slip (°F or kelvin read as °C...), named."""
-    median = float(np.median(raw))
-    slip, (lo, hi) = temperature_slip(median, unit)
+    middle = median(raw)
+    slip, (lo, hi) = temperature_slip(middle, unit)
     if slip is None:
         return
-    i = int(np.argmin(np.abs(raw - median)))
+    i = int(np.argmin(np.abs(raw - middle)))
     how = "no unit given, so read" if inferred else "read"
     hint = (f"they look like {_UNIT_WORDS[slip]}: give the unit ({slip}) in the header, "
             "temperature_unit or --temperature-unit" if slip != "?" else
@@ -291,7 +326,7 @@ def _to_kelvin(raw: np.ndarray, unit: str | None, rows: np.ndarray, path, column
     """(kelvin, unit used, unit inferred?) for a temperature-like column."""
     inferred = unit is None
     if unit is None:
-        unit = "K" if float(np.median(raw)) > PLAUSIBLE_RANGE_K[0] else "C"
+        unit = "K" if median(raw) > PLAUSIBLE_RANGE_K[0] else "C"
     if unit == "ohm":
         if model is None:
             raise UnitError(

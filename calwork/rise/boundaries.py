@@ -16,6 +16,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from calwork.errors import FitError, PeriodDetectionError
+from calwork.numeric import median
 from calwork.rise.diagnostics import ar1_inflation
 from calwork.rise.newton import NewtonFit, fit_newton
 from calwork.thermogram import Thermogram
@@ -43,10 +44,10 @@ def locate_event(t: np.ndarray, Tm: np.ndarray, sigma: float, where: dict) -> Ev
     from the record's median slope; :class:`PeriodDetectionError` if it is within the noise
     (12 × the slope noise ``σ√2/(w Δt)``)."""
     n = t.size
-    dt = float(np.median(np.diff(t)))
+    dt = median(np.diff(t))
     w = int(min(max(2, round(30.0 / dt)), max(2, n // 10)))
     slope = (Tm[w:] - Tm[:-w]) / (t[w:] - t[:-w])
-    dev = slope - np.median(slope)
+    dev = slope - median(slope)
     j = int(np.argmax(np.abs(dev)))
     dev_max = abs(float(dev[j]))
     slope_noise = sigma * np.sqrt(2.0) / (w * dt)
@@ -75,7 +76,7 @@ def detect_onset(t: np.ndarray, T: np.ndarray, sigma: float, peak: int, lo: int,
     there, the whole fore record is searched.
     """
     m = ONSET_PERSISTENCE
-    dt = float(np.median(np.diff(t)))
+    dt = median(np.diff(t))
     W = int(min(max(8, round(120.0 / dt)), 60, peak - m - 1))
     if W < 3:
         raise PeriodDetectionError(

@@ -9,6 +9,8 @@ from __future__ import annotations
 import numpy as np
 from scipy.ndimage import median_filter
 
+from calwork.numeric import median
+
 __all__ = [
     "MIN_PERIOD_READINGS",
     "MIN_PERIOD_S",
@@ -75,8 +77,8 @@ def robust_noise_K(temperature_K: np.ndarray) -> float:
     if T.size < 5:
         return float(np.std(T)) or 1e-12
     d2 = T[2:] - 2.0 * T[1:-1] + T[:-2]
-    a = np.abs(d2 - np.median(d2))
-    sigma = 1.4826 * float(np.median(a)) / np.sqrt(6.0)
+    a = np.abs(d2 - median(d2))
+    sigma = 1.4826 * median(a) / np.sqrt(6.0)
     if sigma <= 0.0:
         central = np.sort(a)[: max(1, int(0.9 * a.size))]
         sigma = float(np.sqrt(np.mean(central**2) / 6.0))
@@ -108,7 +110,7 @@ def sampling_gaps(time_s: np.ndarray, factor: float = 3.0) -> list[tuple[float, 
     d = np.diff(t)
     if d.size == 0:
         return []
-    med = float(np.median(d))
+    med = median(d)
     idx = np.flatnonzero(d > factor * med)
     return [(float(t[i]), float(t[i + 1])) for i in idx]
 

@@ -34,6 +34,7 @@ from functools import cache
 import numpy as np
 
 from calwork.errors import PeriodDetectionError
+from calwork.numeric import median
 from calwork.thermogram import Thermogram
 
 __all__ = ["LogEvent", "LogEvents", "find_events", "list_heat_events", "local_slopes_K_per_s"]
@@ -303,7 +304,7 @@ def find_events(
     """
     t = np.asarray(time_s, dtype=float)
     T = np.asarray(temperature_K, dtype=float)
-    dt = float(np.median(np.diff(t)))
+    dt = median(np.diff(t))
     h = max(2, round(half_width_s / dt))
     heaters = sorted((float(h_[0]), float(h_[1]), float(h_[2]), float(h_[3]),
                       str(h_[4]) if len(h_) > 4 else heater_source)
@@ -403,7 +404,7 @@ def list_heat_events(
         t, T = (x[:n].reshape(-1, block).mean(axis=1) for x in (t, T))
         if heater is not None:
             heater = heater[:n].reshape(-1, block).max(axis=1)
-    dt = float(np.median(np.diff(t)))
+    dt = median(np.diff(t))
     h = max(2, min(round(half_width_s / dt), t.size // 4))
     segments, resid, sigma = _departures(t, T, np.ones(t.size, dtype=bool), h, n_sigma,
                                          passes=2)

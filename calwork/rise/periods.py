@@ -39,6 +39,7 @@ import numpy as np
 from scipy.ndimage import median_filter
 
 from calwork.errors import CalworkError, PeriodDetectionError
+from calwork.numeric import median
 from calwork.rise.boundaries import (
     detect_onset,
     heater_interval,
@@ -274,7 +275,7 @@ def detect_periods(thermogram: Thermogram, *, fire_time_s: float | None = None,
         j_on, conf = None, None
     if fire_time_s is not None:
         t_i, fire_source = float(fire_time_s), "given"
-        if onset_s is not None and t_i > onset_s + 0.5 * float(np.median(np.diff(t))):
+        if onset_s is not None and t_i > onset_s + 0.5 * median(np.diff(t)):
             warnings.append(warning("fire-time-late", f"the given firing time {t_i:.6g} s is "
                                     f"after the detected onset of the rise at {onset_s:.6g} s"))
     elif heater is not None:

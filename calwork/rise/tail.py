@@ -25,6 +25,7 @@ from dataclasses import replace
 
 import numpy as np
 
+from calwork.numeric import median
 from calwork.rise.selection import Selection
 
 __all__ = ["TAIL_CHI2_Z", "TAIL_START_FRACTION", "TAIL_Z", "tail_correction", "tail_model"]
@@ -87,7 +88,7 @@ def tail_model(sel: Selection, k_per_s: float, T_inf_K: float, sign: int,
     np.cumsum(np.diff(tt) * (theta[1:] + theta[:-1]) * 0.5, out=C[1:])
     H = T[i0:] + k_per_s * C
     after = sel.after[i0:]
-    plateau = float(np.median(H[after]))
+    plateau = median(H[after])
     rise = plateau - float(H[0])
     if rise == 0 or not math.isfinite(rise):
         return None
@@ -106,7 +107,7 @@ def tail_model(sel: Selection, k_per_s: float, T_inf_K: float, sign: int,
     y = H[a:a + m * b].reshape(m, b).mean(axis=1)
     n = x.size
     span = float(x[-1])
-    dt = float(np.median(np.diff(x)))
+    dt = median(np.diff(x))
     if span <= 8.0 * dt:
         return None
     taus = np.geomspace(2.0 * dt, 0.5 * span, _TAU_POINTS)

@@ -17,6 +17,7 @@ from typing import Any
 import numpy as np
 
 from calwork.errors import PeriodDetectionError, RunError, check_choice
+from calwork.numeric import median
 from calwork.rise import Periods, corrected_rise
 from calwork.rise.events import LogEvent, LogEvents, find_events
 from calwork.solution.electrical import (
@@ -317,7 +318,7 @@ def event_periods(event: LogEvent, time_s, *, main_end_s: float | None = None,
         When the window leaves fewer than four readings for a drift period.
     """
     t = np.asarray(time_s, dtype=float)
-    dt = float(np.median(np.diff(t)))
+    dt = median(np.diff(t))
     w0, w1 = float(t[0]), float(t[-1])
     fire = float(event.start_s)
     if main_end_s is not None:
