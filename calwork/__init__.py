@@ -28,12 +28,12 @@ def _export(module: str, *names: str) -> None:
         _EXPORTS[name] = module
 
 
-_export("calwork.errors", "CalworkError")
+_export("calwork.core.errors", "CalworkError")
 _export("calwork.formula", "element_counts", "molar_mass_g_per_mol")
-_export("calwork.provenance", "Provenance")
-_export("calwork.results", "CalibrationResult", "Reduction", "RunResult", "SampleResult")
-_export("calwork.runinfo", "RunInfo")
-_export("calwork.thermogram", "Thermogram")
+_export("calwork.core.provenance", "Provenance")
+_export("calwork.core.results", "CalibrationResult", "Reduction", "RunResult", "SampleResult")
+_export("calwork.core.runinfo", "RunInfo")
+_export("calwork.core.thermogram", "Thermogram")
 _export("calwork.io", "read_log", "read_run_sheet", "load_run_log", "write_log",
         "write_run_sheet", "unknown_columns", "cvd_resistance_ohm", "cvd_temperature_C",
         "steinhart_hart_temperature_K", "steinhart_hart_resistance_ohm")
@@ -60,14 +60,14 @@ _export("calwork.uncertainty", "propagate", "monte_carlo", "MonteCarloResult")
 _export("calwork.labbook", "Labbook", "open_labbook")
 _export("calwork.qa", "control_chart", "ControlChart", "plot_control_chart")
 _export("calwork.report", "write_workbook", "write_report", "safe_filename")
-_export("calwork.provenance", "calwork_version")
+_export("calwork.core.provenance", "calwork_version")
 
 __all__ = sorted(_EXPORTS)
 
 
 def __getattr__(name: str) -> Any:
     if name == "__version__":
-        return import_module("calwork.provenance").calwork_version()
+        return import_module("calwork.core.provenance").calwork_version()
     try:
         module = _EXPORTS[name]
     except KeyError:

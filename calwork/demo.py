@@ -31,7 +31,7 @@ from typing import Any
 
 import numpy as np
 
-from calwork.constants import T_REF_K, R_J_per_mol_K
+from calwork.core.constants import T_REF_K, R_J_per_mol_K
 from calwork.formula import element_counts, molar_mass_g_per_mol
 
 __all__ = ["DEMO_SAMPLES", "build_sample_runs"]

@@ -14,7 +14,7 @@ from types import MappingProxyType
 
 import periodictable
 
-from calwork.errors import FormulaError
+from calwork.core.errors import FormulaError
 
 __all__ = ["ATOMIC_WEIGHT_SOURCE", "element_counts", "molar_mass_g_per_mol"]
 

@@ -11,9 +11,9 @@ from __future__ import annotations
 from functools import cache
 from typing import Any
 
-from calwork.constants import CELSIUS_ZERO_K
+from calwork.core.constants import CELSIUS_ZERO_K
+from calwork.core.errors import UnitError
 from calwork.data import load_data
-from calwork.errors import UnitError
 
 __all__ = ["PLAUSIBLE_COLUMNS", "check_plausible", "temperature_slip"]
 
@@ -36,7 +36,7 @@ def check_plausible(column: str, value: float) -> None:
     >>> check_plausible("o2_pressure_MPa", 30.4)
     Traceback (most recent call last):
     ...
-    calwork.errors.UnitError: column 'o2_pressure_MPa': 30.4 looks like bar; o2_pressure_MPa \
+    calwork.core.errors.UnitError: column 'o2_pressure_MPa': 30.4 looks like bar; o2_pressure_MPa \
 expects MPa (expected 1 to 4.5 MPa: oxygen bombs are charged to about 3 MPa; got 30.4)
     """
     entry = _table().get(column)

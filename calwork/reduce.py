@@ -9,7 +9,7 @@ formation enthalpies through :func:`calwork.hess.combustion_link_many` with the 
 the samples. Rows of kind ``electrical``, ``solution`` and ``blank`` go to
 :func:`calwork.solution.chain.reduce_solution_runs`.
 
-A failing run never disappears: it comes back as a :class:`~calwork.results.RunResult` with
+A failing run never disappears: it comes back as a :class:`~calwork.core.results.RunResult` with
 ``error`` set (naming the run and the column), and the rest of the sheet is reduced.
 
 Safety: the numbers are only as good as the experiment. Oxygen bombs are pressure vessels,
@@ -28,10 +28,10 @@ from typing import Any
 from calwork.bomb.calibration import DEFAULT_RSD_LIMIT_PERCENT
 from calwork.bomb.chain import reduce_calibration_run, reduce_combustion_run, run_error
 from calwork.bomb.series import calibration_series, formation_enthalpies, sample_series
-from calwork.errors import CalworkError, DuplicateRunError, RunError
-from calwork.provenance import Provenance
-from calwork.results import CalibrationResult, Reduction, RunResult, SampleResult
-from calwork.runinfo import RunInfo
+from calwork.core.errors import CalworkError, DuplicateRunError, RunError
+from calwork.core.provenance import Provenance
+from calwork.core.results import CalibrationResult, Reduction, RunResult, SampleResult
+from calwork.core.runinfo import RunInfo
 
 __all__ = ["BOMB_KINDS", "SOLUTION_KINDS", "reduce_runs", "reduce_sheet"]
 
@@ -131,7 +131,7 @@ def reduce_runs(
         Calibrations, every run (failures with ``error``), samples, the covariance of the
         samples, and the rows and thermograms read.
     """
-    from calwork.errors import check_choice
+    from calwork.core.errors import check_choice
 
     check_choice("method", method, _methods())
     seen: set[str] = set()

@@ -10,7 +10,7 @@
   (Welch–Satterthwaite, GUM G.4).
 
 A propagation that cannot give a finite positive-semidefinite answer raises
-:class:`~calwork.errors.UncertaintyError`; a zero is never reported instead.
+:class:`~calwork.core.errors.UncertaintyError`; a zero is never reported instead.
 """
 
 from __future__ import annotations
@@ -22,7 +22,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import stats
 
-from calwork.errors import UncertaintyError
+from calwork.core.errors import UncertaintyError
 
 __all__ = [
     "MonteCarloResult",

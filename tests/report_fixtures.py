@@ -28,11 +28,11 @@ import pytest
 
 from calwork.bomb.chain import reduce_calibration_run, reduce_combustion_run, run_error
 from calwork.bomb.series import calibration_series, formation_enthalpies, sample_series
-from calwork.errors import CalworkError
-from calwork.provenance import Provenance, sha256_bytes
-from calwork.results import Reduction
+from calwork.core.errors import CalworkError
+from calwork.core.provenance import Provenance, sha256_bytes
+from calwork.core.results import Reduction
+from calwork.core.runinfo import RunInfo
 from calwork.rise import corrected_rise
-from calwork.runinfo import RunInfo
 from calwork.simulate import CalorimeterParams, CombustionPulse, simulate_run
 
 CERTIFIED_J_PER_G = 26434.0  # NIST SRM 39j, mass in vacuum (docs/references.md §2, confirmed)

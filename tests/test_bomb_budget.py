@@ -10,9 +10,9 @@ from __future__ import annotations
 import pytest
 
 from calwork.bomb.series import calibration_series, sample_series
+from calwork.core.results import RunResult
+from calwork.core.runinfo import RunInfo
 from calwork.data import load_data
-from calwork.results import RunResult
-from calwork.runinfo import RunInfo
 
 FUSE_J, DT_CAL, EPS = 80.0, 2.6, 10_000.0
 

@@ -9,9 +9,9 @@ import pytest
 from calwork.bomb.certificate import jessup_factor
 from calwork.bomb.chain import reduce_calibration_run, reduce_combustion_run
 from calwork.bomb.series import calibration_series
-from calwork.errors import CalworkError, RunError
+from calwork.core.errors import CalworkError, RunError
+from calwork.core.runinfo import RunInfo
 from calwork.formula import molar_mass_g_per_mol
-from calwork.runinfo import RunInfo
 
 
 def rise(dT=2.6, T_i=298.15):

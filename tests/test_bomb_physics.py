@@ -30,11 +30,11 @@ from calwork.bomb.fuels import (
     net_calorific_value_J_per_g,
     net_from_gross_astm_d240_J_per_g,
 )
-from calwork.constants import R_J_per_mol_K, STANDARD_ATMOSPHERE_Pa
+from calwork.core.constants import R_J_per_mol_K, STANDARD_ATMOSPHERE_Pa
+from calwork.core.errors import CalibrationError, ChoiceError, RunError
+from calwork.core.units import CAL_IT_J, CAL_TH_J
 from calwork.data import load_data
-from calwork.errors import CalibrationError, ChoiceError, RunError
 from calwork.formula import molar_mass_g_per_mol
-from calwork.units import CAL_IT_J, CAL_TH_J
 
 ATM_MPa = STANDARD_ATMOSPHERE_Pa / 1e6
 
@@ -203,7 +203,7 @@ def test_series_statistics_and_rsd_limit():
 
 # --- fuels ------------------------------------------------------------------------------------
 def test_exact_unit_factors():
-    # exact by definition (calwork.units; pint/scipy agree): Btu_IT/lb = 2.326 J/g,
+    # exact by definition (calwork.core.units; pint/scipy agree): Btu_IT/lb = 2.326 J/g,
     # cal_IT = 4.1868 J, cal_th = 4.184 J
     assert convert_calorific_value(2.326, "Btu_IT/lb") == pytest.approx(1.0, rel=1e-14)
     assert convert_calorific_value(4.1868, "cal_IT/g") == pytest.approx(1.0, rel=1e-15)

@@ -22,7 +22,7 @@ from calwork.bomb.washburn import (
     state_departure_J,
     washburn_correction,
 )
-from calwork.constants import R_J_per_mol_K, STANDARD_ATMOSPHERE_Pa
+from calwork.core.constants import R_J_per_mol_K, STANDARD_ATMOSPHERE_Pa
 from calwork.formula import molar_mass_g_per_mol
 
 CP = pytest.importorskip("CoolProp.CoolProp")

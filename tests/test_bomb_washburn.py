@@ -20,8 +20,8 @@ from calwork.bomb.washburn import (
     state_departure_J,
     washburn_correction,
 )
-from calwork.constants import R_J_per_mol_K, STANDARD_ATMOSPHERE_Pa
-from calwork.errors import RunError
+from calwork.core.constants import R_J_per_mol_K, STANDARD_ATMOSPHERE_Pa
+from calwork.core.errors import RunError
 from calwork.formula import molar_mass_g_per_mol
 
 P30 = 30 * STANDARD_ATMOSPHERE_Pa / 1e6  # 30 atm in MPa

@@ -7,10 +7,10 @@ import pickle
 import numpy as np
 import pytest
 
-from calwork.errors import ChoiceError, SheetError, TimeAxisError, check_choice
+from calwork.core.errors import ChoiceError, SheetError, TimeAxisError, check_choice
+from calwork.core.thermogram import Thermogram
+from calwork.core.units import BTU_IT_J, CAL_IT_J, CAL_TH_J, energy_per_mass_from_J_per_g
 from calwork.formula import element_counts, molar_mass_g_per_mol
-from calwork.thermogram import Thermogram
-from calwork.units import BTU_IT_J, CAL_IT_J, CAL_TH_J, energy_per_mass_from_J_per_g
 
 
 def test_error_template_and_pickle():

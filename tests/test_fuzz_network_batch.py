@@ -12,7 +12,7 @@ from conftest import copy_sample_runs
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from calwork.errors import CalworkError
+from calwork.core.errors import CalworkError
 from calwork.hess import solve_network
 from calwork.hess.files import read_network_file
 from calwork.reduce import reduce_sheet

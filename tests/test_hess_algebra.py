@@ -8,7 +8,7 @@ from fractions import Fraction
 import numpy as np
 import pytest
 
-from calwork.errors import CombinationError, EquationError
+from calwork.core.errors import CombinationError, EquationError
 from calwork.hess.algebra import combine, nullspace, solve_exact
 from calwork.hess.reactions import Reaction
 from calwork.hess.species import parse_species

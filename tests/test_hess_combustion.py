@@ -7,8 +7,8 @@ import math
 import numpy as np
 import pytest
 
-from calwork.constants import T_REF_K, R_J_per_mol_K
-from calwork.errors import FormulaError, NetworkError
+from calwork.core.constants import T_REF_K, R_J_per_mol_K
+from calwork.core.errors import FormulaError, NetworkError
 from calwork.formula import molar_mass_g_per_mol
 from calwork.hess.combustion import combustion_link, combustion_link_many, combustion_reaction
 from calwork.hess.key_values import load_key_values

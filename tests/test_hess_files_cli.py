@@ -7,7 +7,7 @@ import json
 import pytest
 
 from calwork.cli.main import main
-from calwork.errors import (
+from calwork.core.errors import (
     BalanceError,
     FormulaError,
     InputFileError,

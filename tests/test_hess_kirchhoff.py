@@ -5,7 +5,7 @@ from __future__ import annotations
 import pytest
 from scipy.integrate import quad
 
-from calwork.errors import NetworkError
+from calwork.core.errors import NetworkError
 from calwork.hess.kirchhoff import (
     ConstantCp,
     Nasa7,

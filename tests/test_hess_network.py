@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from calwork.errors import NetworkError
+from calwork.core.errors import NetworkError
 from calwork.hess.key_values import load_key_values
 from calwork.hess.kirchhoff import ConstantCp
 from calwork.hess.network import Network, solve_network

@@ -6,7 +6,7 @@ from fractions import Fraction
 
 import pytest
 
-from calwork.errors import BalanceError, EquationError, FormulaError
+from calwork.core.errors import BalanceError, EquationError, FormulaError
 from calwork.hess.equations import parse_coefficient, parse_equation
 from calwork.hess.species import parse_species
 

@@ -15,7 +15,7 @@ import json
 import pytest
 
 from calwork.cli.main import main
-from calwork.errors import ValueCellError
+from calwork.core.errors import ValueCellError
 from calwork.hess import Network, solve_network
 from calwork.hess.files import read_network_file
 from calwork.hess.reactions import Reaction

@@ -8,7 +8,7 @@ import zipfile
 import numpy as np
 import pytest
 
-from calwork.errors import (
+from calwork.core.errors import (
     AmbiguousColumnError,
     CalworkError,
     ChoiceError,
@@ -21,8 +21,8 @@ from calwork.errors import (
     UnitError,
     ValueCellError,
 )
+from calwork.core.thermogram import Thermogram
 from calwork.io import read_log, write_log
-from calwork.thermogram import Thermogram
 
 
 def _log(tmp_path, lines: list[str], name: str = "bad.csv", encoding: str = "utf-8"):

@@ -2,7 +2,7 @@
 
 Random byte edits, truncations, deleted / duplicated / swapped lines, random text in cells
 and re-encodings of valid files must give either a Thermogram (list of RunInfo) or a
-:class:`~calwork.errors.CalworkError`, never a bare ValueError / KeyError / IndexError /
+:class:`~calwork.core.errors.CalworkError`, never a bare ValueError / KeyError / IndexError /
 UnicodeError escaping from pandas, numpy, csv, openpyxl or tomllib.
 """
 
@@ -15,9 +15,9 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from calwork.errors import CalworkError
+from calwork.core.errors import CalworkError
+from calwork.core.thermogram import Thermogram
 from calwork.io import read_log, read_run_sheet, write_log, write_run_sheet
-from calwork.thermogram import Thermogram
 
 SETTINGS = settings(max_examples=150, deadline=None, derandomize=True, database=None,
                     suppress_health_check=[HealthCheck.too_slow])

@@ -8,9 +8,9 @@ import numpy as np
 import pytest
 
 from calwork.cli.main import main
+from calwork.core.provenance import sha256_file
+from calwork.core.thermogram import Thermogram
 from calwork.io import write_log
-from calwork.provenance import sha256_file
-from calwork.thermogram import Thermogram
 
 SH = (1.129148e-3, 2.34125e-4, 8.76741e-8)  # docs/references.md §6 datasheet set
 

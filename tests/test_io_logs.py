@@ -8,10 +8,10 @@ from datetime import datetime
 import numpy as np
 import pytest
 
+from calwork.core.provenance import sha256_file
+from calwork.core.thermogram import Thermogram
 from calwork.io import read_log, write_log
 from calwork.io.sensors import cvd_resistance_ohm
-from calwork.provenance import sha256_file
-from calwork.thermogram import Thermogram
 
 SH = {"a": 1.129148e-3, "b": 2.34125e-4, "c": 8.76741e-8}  # docs/references.md §6 datasheet set
 

@@ -5,8 +5,8 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
+from calwork.core.errors import ChoiceError, SensorRangeError, UnitError
 from calwork.data import load_data
-from calwork.errors import ChoiceError, SensorRangeError, UnitError
 from calwork.io.sensors import (
     CVD_A_PER_C,
     CVD_B_PER_C2,

@@ -9,16 +9,16 @@ from datetime import datetime
 import numpy as np
 import pytest
 
-from calwork.errors import (
+from calwork.core.errors import (
     DuplicateRunError,
     InputFileError,
     LogFormatError,
     LogPathError,
     SheetError,
 )
+from calwork.core.runinfo import RUN_SHEET_COLUMNS
+from calwork.core.thermogram import Thermogram
 from calwork.io import load_run_log, read_run_sheet, unknown_columns, write_log, write_run_sheet
-from calwork.runinfo import RUN_SHEET_COLUMNS
-from calwork.thermogram import Thermogram
 
 
 def _thermogram(n: int = 40) -> Thermogram:

@@ -14,7 +14,7 @@ import zipfile
 import openpyxl
 import pytest
 
-from calwork.errors import LogFormatError
+from calwork.core.errors import LogFormatError
 from calwork.io import read_log, read_run_sheet
 
 

@@ -472,7 +472,7 @@ def test_export_without_the_report_module_is_a_clear_error(shared_book, tmp_path
 
 
 def test_a_file_changed_during_the_add_is_not_recorded(bomb_dir, tmp_path, monkeypatch):
-    from calwork.errors import LabbookError
+    from calwork.core.errors import LabbookError
     from calwork.labbook import ingest
 
     data = _copy(bomb_dir, tmp_path / "data")

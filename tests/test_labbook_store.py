@@ -8,16 +8,16 @@ import zlib
 
 import pytest
 
-from calwork.errors import (
+from calwork.core.errors import (
     LabbookError,
     LabbookFormatError,
     LabbookIntegrityError,
 )
+from calwork.core.provenance import sha256_bytes
 from calwork.labbook import audit, open_labbook, schema
 from calwork.labbook.blobs import get_blob, put_blob, safe_relative_path, write_inside
 from calwork.labbook.ingest import bundle_digest, results_digest
 from calwork.labbook.store import resolve_labbook_path
-from calwork.provenance import sha256_bytes
 
 
 def test_new_labbook_is_marked_and_versioned(tmp_path):

@@ -16,11 +16,11 @@ import scipy.sparse as sp
 from calwork.bomb import washburn
 from calwork.bomb.chain import reduce_calibration_run
 from calwork.bomb.washburn import Combustible, bomb_states
-from calwork.errors import ConvergenceError, RunError, UncertaintyError
+from calwork.core.errors import ConvergenceError, RunError, UncertaintyError
+from calwork.core.runinfo import RunInfo
 from calwork.hess import wls
 from calwork.rise import engine
 from calwork.rise.uncertainty import propagate
-from calwork.runinfo import RunInfo
 from calwork.simulate import CalorimeterParams, CombustionPulse, simulate_run
 from calwork.uncertainty import variance_component
 

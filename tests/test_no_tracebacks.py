@@ -9,7 +9,7 @@ import pytest
 from conftest import copy_sample_runs
 
 from calwork.cli.main import main
-from calwork.errors import InputFileError
+from calwork.core.errors import InputFileError
 from calwork.io import read_log
 
 

@@ -22,7 +22,7 @@ def test_unknown_name_is_an_attribute_error():
 
 @pytest.mark.parametrize(
     "module",
-    ["calwork", "calwork.errors", "calwork.formula", "calwork.units"],
+    ["calwork", "calwork.core.errors", "calwork.formula", "calwork.core.units"],
 )
 def test_doctests(module):
     failures, _ = doctest.testmod(importlib.import_module(module), verbose=False)

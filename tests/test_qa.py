@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from calwork.errors import CalibrationError, CalworkError, ChoiceError
+from calwork.core.errors import CalibrationError, CalworkError, ChoiceError
 from calwork.qa import (
     D4_N2,
     DEFAULT_RULES,

@@ -20,7 +20,7 @@ from calwork.bomb.certificate import jessup_factor
 from calwork.bomb.contents import contents_energy_equivalents_J_per_K
 from calwork.bomb.corrections import nitric_acid_energy_J, nitric_acid_mol
 from calwork.bomb.washburn import Combustible, bomb_states
-from calwork.constants import T_REF_K
+from calwork.core.constants import T_REF_K
 from calwork.io import write_log, write_run_sheet
 from calwork.reduce import reduce_runs, reduce_sheet
 from calwork.simulate import CalorimeterParams, CombustionPulse, simulate_run
@@ -118,7 +118,7 @@ def test_every_sample_within_150_ppm(reduction):
 
 
 def test_molar_quantities_by_hand(reduction):
-    from calwork.constants import R_J_per_mol_K
+    from calwork.core.constants import R_J_per_mol_K
     from calwork.formula import molar_mass_g_per_mol
 
     (s,) = reduction.samples
@@ -384,7 +384,7 @@ def test_bad_cells_in_the_sheet_file_fail_alone(dataset, tmp_path):
     (s,) = red.samples
     assert s.n_runs == 5
     # strict reading (the default of read_run_sheet) still raises on the first bad cell
-    from calwork.errors import SheetError
+    from calwork.core.errors import SheetError
     from calwork.io import read_run_sheet
 
     with pytest.raises(SheetError, match="mass_g"):

@@ -12,7 +12,7 @@ import pytest
 sys.path.insert(0, str(Path(__file__).parent))
 from report_fixtures import cached_reduction, demo_reduction
 
-from calwork.errors import ExportError
+from calwork.core.errors import ExportError
 from calwork.report import write_report
 from calwork.report.texts import SAFETY_NOTE
 

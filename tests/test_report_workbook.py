@@ -23,7 +23,7 @@ import pytest
 sys.path.insert(0, str(Path(__file__).parent))
 from report_fixtures import REL, cached_reduction, check_with_engine, demo_reduction, table
 
-from calwork.errors import ExportError
+from calwork.core.errors import ExportError
 from calwork.report import write_workbook
 
 

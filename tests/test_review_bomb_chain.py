@@ -15,9 +15,9 @@ import pytest
 from calwork.bomb.chain import reduce_calibration_run, reduce_combustion_run
 from calwork.bomb.corrections import nitric_acid_mol
 from calwork.bomb.series import calibration_series, formation_enthalpies, sample_series
-from calwork.errors import RunError
+from calwork.core.errors import RunError
+from calwork.core.runinfo import RunInfo
 from calwork.hess import combustion_link
-from calwork.runinfo import RunInfo
 
 BOMB = {"calorimeter": "A", "bomb_volume_L": 0.342, "o2_pressure_MPa": 3.04,
         "bomb_water_g": 1.0}

@@ -14,7 +14,7 @@ import numpy as np
 import pytest
 
 from calwork.cli.main import main
-from calwork.errors import SheetError, UnitError
+from calwork.core.errors import SheetError, UnitError
 from calwork.io import cvd_resistance_ohm, read_log, read_run_sheet
 
 # a plain log: 5 s sampling over 2400 s, a smooth rise of 2.7 K from 23.5 °C (invented)

@@ -21,7 +21,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from calwork.constants import R_J_per_mol_K
+from calwork.core.constants import R_J_per_mol_K
 from calwork.data import load_data
 from calwork.reduce import reduce_sheet
 

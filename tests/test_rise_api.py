@@ -10,8 +10,8 @@ import pytest
 from test_rise_records import newtonian_record
 
 import calwork.rise as rise
-from calwork.errors import ChoiceError, PeriodDetectionError
-from calwork.results import jsonable
+from calwork.core.errors import ChoiceError, PeriodDetectionError
+from calwork.core.results import jsonable
 from calwork.rise import METHODS, Periods, RiseResult, corrected_rise, detect_periods
 from calwork.rise.result import JSON_KEYS
 
@@ -160,8 +160,8 @@ def test_mangled_records_raise_only_calwork_errors():
     # heavy quantisation, few readings, uneven sampling): corrected_rise either returns a
     # result with a positive finite uncertainty or raises a CalworkError — never another
     # exception, and no numpy warning (pytest turns warnings into errors).
-    from calwork.errors import CalworkError
-    from calwork.thermogram import Thermogram
+    from calwork.core.errors import CalworkError
+    from calwork.core.thermogram import Thermogram
 
     rng = np.random.default_rng(99)
     ok = 0

@@ -15,7 +15,7 @@ import pytest
 from conftest import copy_sample_runs
 
 from calwork.cli.main import main
-from calwork.errors import ChoiceError, MultipleEventsError
+from calwork.core.errors import ChoiceError, MultipleEventsError
 from calwork.io import write_log, write_run_sheet
 from calwork.reduce import reduce_sheet
 from calwork.rise import corrected_rise, list_heat_events

@@ -13,7 +13,7 @@ import numpy as np
 import pytest
 from test_rise_records import newtonian_record
 
-from calwork.errors import FitError, UncertaintyError
+from calwork.core.errors import FitError, UncertaintyError
 from calwork.rise import (
     Periods,
     corrected_rise,

@@ -10,9 +10,9 @@ import numpy as np
 import pytest
 from test_rise_records import heater_record, newtonian_record
 
-from calwork.errors import PeriodDetectionError
+from calwork.core.errors import PeriodDetectionError
+from calwork.core.thermogram import Thermogram
 from calwork.rise import Periods, corrected_rise, detect_periods
-from calwork.thermogram import Thermogram
 
 SIGMA = 1e-4
 

@@ -15,7 +15,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from calwork.thermogram import Thermogram
+from calwork.core.thermogram import Thermogram
 
 __all__ = ["heater_record", "newtonian_record"]
 

@@ -9,8 +9,8 @@ import numpy as np
 import pytest
 
 from calwork.cli.main import main
-from calwork.errors import SimulationError
-from calwork.runinfo import EXTENSION_COLUMNS, RUN_SHEET_COLUMNS
+from calwork.core.errors import SimulationError
+from calwork.core.runinfo import EXTENSION_COLUMNS, RUN_SHEET_COLUMNS
 from calwork.simulate import CalorimeterParams, build_scenario, simulate_scenario
 
 BA_J_PER_G = 26434.0  # NIST SRM 39j certificate, standard bomb conditions (docs/references.md)

@@ -8,8 +8,8 @@ from dataclasses import fields, replace
 
 import pytest
 
+from calwork.core.errors import InputFileError, SimulationError
 from calwork.data import load_data
-from calwork.errors import InputFileError, SimulationError
 from calwork.simulate import (
     CalorimeterParams,
     CombustionPulse,

@@ -8,15 +8,15 @@ from dataclasses import replace
 
 import pytest
 
-from calwork.errors import LogFormatError
+from calwork.core.errors import LogFormatError
+from calwork.core.runinfo import RunInfo
+from calwork.core.thermogram import Thermogram
 from calwork.formula import molar_mass_g_per_mol
 from calwork.io.sheets import read_run_sheet
-from calwork.runinfo import RunInfo
 from calwork.simulate import CalorimeterParams, FirstOrderRelease, HeaterInterval, simulate_run
 from calwork.solution.analysis import SolutionOptions
 from calwork.solution.chain import reduce_solution_runs
 from calwork.solution.demo import simulate_solution_day
-from calwork.thermogram import Thermogram
 
 # A small semi-adiabatic vessel: ε = 300 J/K, k = G/ε = 1e-3 1/s (docs/methods.md §1.1 ranges)
 VESSEL = CalorimeterParams.solution_preset(bomb_heat_capacity_J_per_K=40.0,
@@ -258,7 +258,7 @@ def test_sheet_heater_times_refine_the_channel_interval_and_options_are_checked(
     assert (cal["heater_on_s"], cal["heater_off_s"]) == (300.0, 600.0)
     assert cal["heater_energy_J"] == pytest.approx(15.0, rel=1e-5)
     assert r.details["calibrations"][1]["energy_source"] == "channels"
-    from calwork.errors import ChoiceError
+    from calwork.core.errors import ChoiceError
 
     with pytest.raises(ChoiceError, match="calibration"):
         SolutionOptions(calibration="middle")

@@ -8,9 +8,9 @@ import math
 import pytest
 
 from calwork.cli.main import main
-from calwork.errors import BalanceError, InputFileError, NetworkError
+from calwork.core.errors import BalanceError, InputFileError, NetworkError
+from calwork.core.results import SampleResult
 from calwork.hess import load_key_values, read_network_file, solve_network
-from calwork.results import SampleResult
 from calwork.solution.cycles import (
     cycle_network,
     determination_from_sample,

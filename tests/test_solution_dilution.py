@@ -9,8 +9,8 @@ import pytest
 from chemicals.iapws import iapws95_properties
 from chemicals.permittivity import permittivity_IAPWS
 
-from calwork.constants import AVOGADRO_per_mol, BOLTZMANN_J_per_K, R_J_per_mol_K
-from calwork.errors import ChoiceError, RunError, UncertaintyError
+from calwork.core.constants import AVOGADRO_per_mol, BOLTZMANN_J_per_K, R_J_per_mol_K
+from calwork.core.errors import ChoiceError, RunError, UncertaintyError
 from calwork.hess.key_values import load_key_values
 from calwork.solution.dilution import (
     Electrolyte,

@@ -7,7 +7,7 @@ import math
 import numpy as np
 import pytest
 
-from calwork.errors import ChoiceError, RunError
+from calwork.core.errors import ChoiceError, RunError
 from calwork.simulate import CalorimeterParams, HeaterInterval, simulate_run
 from calwork.solution.electrical import (
     electrical_energy_J,

@@ -7,7 +7,7 @@ from dataclasses import replace
 import numpy as np
 import pytest
 
-from calwork.errors import PeriodDetectionError
+from calwork.core.errors import PeriodDetectionError
 from calwork.rise.events import find_events, local_slopes_K_per_s
 from calwork.simulate import CalorimeterParams, FirstOrderRelease, HeaterInterval, simulate_run
 from calwork.solution.analysis import analyse_log, event_periods

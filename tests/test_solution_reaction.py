@@ -6,7 +6,7 @@ import math
 
 import pytest
 
-from calwork.errors import CalibrationError, ChoiceError, RunError, UncertaintyError
+from calwork.core.errors import CalibrationError, ChoiceError, RunError, UncertaintyError
 from calwork.formula import molar_mass_g_per_mol
 from calwork.solution.blanks import blank_correction
 from calwork.solution.reaction import (

@@ -5,8 +5,8 @@ from __future__ import annotations
 import pytest
 from chemicals.iapws import Psat_IAPWS, iapws95_properties, iapws95_saturation
 
-from calwork.constants import R_J_per_mol_K
-from calwork.errors import ChoiceError, RunError
+from calwork.core.constants import R_J_per_mol_K
+from calwork.core.errors import ChoiceError, RunError
 from calwork.solution.vaporisation import (
     vaporisation_correction_J,
     vapour_amount_mol,

@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from calwork.errors import UncertaintyError
+from calwork.core.errors import UncertaintyError
 from calwork.uncertainty import (
     correlation_from_covariance,
     covariance_from_correlation,

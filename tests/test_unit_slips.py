@@ -13,7 +13,7 @@ import re
 import pytest
 from conftest import copy_sample_runs
 
-from calwork.errors import SensorRangeError, SheetError, UnitError
+from calwork.core.errors import SensorRangeError, SheetError, UnitError
 from calwork.io import read_log, read_run_sheet
 from calwork.plausibility import check_plausible
 from calwork.reduce import reduce_sheet

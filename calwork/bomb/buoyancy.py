@@ -8,8 +8,8 @@ are data (``bomb_corrections.toml``): air 0.0012, brass weights 8.4, stainless s
 
 from __future__ import annotations
 
+from calwork.core.errors import RunError, check_choice
 from calwork.data import load_data
-from calwork.errors import RunError, check_choice
 
 __all__ = ["buoyancy_factor", "mass_in_vacuum_g", "weights_density_g_per_cm3"]
 

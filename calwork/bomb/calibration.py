@@ -24,7 +24,7 @@ from typing import Any
 import numpy as np
 from scipy import stats
 
-from calwork.errors import CalibrationError, UncertaintyError
+from calwork.core.errors import CalibrationError, UncertaintyError
 
 __all__ = [
     "DEFAULT_RSD_LIMIT_PERCENT",

@@ -19,9 +19,9 @@ from dataclasses import dataclass, field
 from types import MappingProxyType
 from typing import Any
 
-from calwork.constants import CELSIUS_ZERO_K, STANDARD_ATMOSPHERE_Pa
+from calwork.core.constants import CELSIUS_ZERO_K, STANDARD_ATMOSPHERE_Pa
+from calwork.core.errors import CalibrationError, DataFileError
 from calwork.data import load_data
-from calwork.errors import CalibrationError, DataFileError
 
 __all__ = [
     "ReferenceMaterial",

@@ -42,11 +42,11 @@ from calwork.bomb.corrections import (
     sulfuric_acid_energy_J,
 )
 from calwork.bomb.washburn import Combustible, bomb_states, washburn_correction
-from calwork.constants import CELSIUS_ZERO_K, T_REF_K, STANDARD_ATMOSPHERE_Pa
+from calwork.core.constants import CELSIUS_ZERO_K, T_REF_K, STANDARD_ATMOSPHERE_Pa
+from calwork.core.errors import CalibrationError, CalworkError, RunError, check_choice
+from calwork.core.results import CalibrationResult, RunResult
 from calwork.data import load_data
-from calwork.errors import CalibrationError, CalworkError, RunError, check_choice
 from calwork.formula import element_counts, molar_mass_g_per_mol
-from calwork.results import CalibrationResult, RunResult
 
 __all__ = ["BombConditions", "bomb_conditions", "reduce_calibration_run",
            "reduce_combustion_run", "run_error"]
@@ -197,7 +197,7 @@ def _rise_numbers(rise: Any) -> tuple[float, float, float]:
                        found=dT, expected="a rise in K > 0")
     u = getattr(rise, "u_corrected_rise_K", None)
     if u is None or not math.isfinite(u) or u <= 0:
-        from calwork.errors import UncertaintyError
+        from calwork.core.errors import UncertaintyError
 
         raise UncertaintyError("the corrected rise has no usable uncertainty", found=u)
     Ti = getattr(rise, "T_initial_K", None)

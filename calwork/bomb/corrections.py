@@ -12,8 +12,8 @@ from __future__ import annotations
 
 import numpy as np
 
+from calwork.core.errors import RunError, check_choice
 from calwork.data import load_data
-from calwork.errors import RunError, check_choice
 
 __all__ = [
     "FUSE_MATERIALS",

@@ -16,9 +16,9 @@ dry ash-free (daf), as received (ar).
 
 from __future__ import annotations
 
+from calwork.core.errors import RunError, check_choice
+from calwork.core.units import energy_per_mass_from_J_per_g
 from calwork.data import load_data
-from calwork.errors import RunError, check_choice
-from calwork.units import energy_per_mass_from_J_per_g
 
 __all__ = [
     "BASES",
@@ -33,7 +33,7 @@ __all__ = [
 
 #: Reporting bases.
 BASES = ("as-analysed", "dry", "dry-ash-free", "as-received")
-#: Units of the fuel outputs (exact factors from :mod:`calwork.units`).
+#: Units of the fuel outputs (exact factors from :mod:`calwork.core.units`).
 UNITS = ("J/g", "MJ/kg", "cal_IT/g", "cal_th/g", "Btu_IT/lb")
 
 

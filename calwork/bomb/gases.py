@@ -20,9 +20,9 @@ import math
 from collections.abc import Mapping, Sequence
 from functools import cache
 
-from calwork.constants import R_J_per_mol_K
+from calwork.core.constants import R_J_per_mol_K
+from calwork.core.errors import DataFileError, RunError, check_choice
 from calwork.data import load_data
-from calwork.errors import DataFileError, RunError, check_choice
 
 __all__ = [
     "CROSS_MODELS",

@@ -29,9 +29,9 @@ import numpy as np
 
 from calwork.bomb.calibration import DEFAULT_RSD_LIMIT_PERCENT, series_statistics
 from calwork.bomb.fuels import fuel_outputs
+from calwork.core.errors import CalworkError, UncertaintyError
+from calwork.core.results import CalibrationResult, RunResult, SampleResult
 from calwork.data import load_data
-from calwork.errors import CalworkError, UncertaintyError
-from calwork.results import CalibrationResult, RunResult, SampleResult
 from calwork.uncertainty import variance_component
 
 __all__ = [
@@ -347,7 +347,7 @@ def formation_enthalpies(
 
 def _check_linkable(sample: SampleResult, convention: str) -> None:
     """Raise the combustion link's error for a sample it cannot take (checked alone)."""
-    from calwork.errors import NetworkError
+    from calwork.core.errors import NetworkError
     from calwork.hess import combustion_reaction
 
     combustion_reaction(sample.formula, phase=_phase(sample), sulfur_convention=convention)

@@ -41,11 +41,11 @@ from calwork.bomb.gases import (
     fugacity_coefficients,
     mixture_virial_m3_per_mol,
 )
-from calwork.constants import T_REF_K, R_J_per_mol_K, STANDARD_PRESSURE_Pa
+from calwork.core.constants import T_REF_K, R_J_per_mol_K, STANDARD_PRESSURE_Pa
+from calwork.core.errors import ConvergenceError, RunError, UncertaintyError
+from calwork.core.results import jsonable
 from calwork.data import load_data
-from calwork.errors import ConvergenceError, RunError, UncertaintyError
 from calwork.formula import element_counts, molar_mass_g_per_mol
-from calwork.results import jsonable
 
 __all__ = [
     "BombState",

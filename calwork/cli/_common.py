@@ -7,7 +7,7 @@ import sys
 from collections.abc import Iterable, Sequence
 from typing import Any
 
-from calwork.results import jsonable
+from calwork.core.results import jsonable
 
 __all__ = ["format_table", "print_json"]
 

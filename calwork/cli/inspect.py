@@ -11,11 +11,11 @@ from typing import Any
 import numpy as np
 
 from calwork.cli._common import format_table, print_json
-from calwork.constants import CELSIUS_ZERO_K
-from calwork.errors import ChoiceError, ExportError
+from calwork.core.constants import CELSIUS_ZERO_K
+from calwork.core.errors import ChoiceError, ExportError
+from calwork.core.thermogram import Thermogram
 from calwork.io.logs import read_log
 from calwork.io.sensors import SENSORS
-from calwork.thermogram import Thermogram
 
 __all__ = ["inspect_summary", "register", "run"]
 

@@ -8,7 +8,7 @@ from pathlib import Path
 from typing import Any
 
 from calwork.cli._common import format_table, print_json
-from calwork.errors import ExportError
+from calwork.core.errors import ExportError
 
 __all__ = ["register"]
 

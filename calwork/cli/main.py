@@ -2,7 +2,7 @@
 
 Each subcommand lives in its own module ``calwork.cli.<name>`` exposing
 ``register(subparsers) -> None`` (adds its parser and sets ``func``) where ``func(args)``
-returns the exit status. A :class:`~calwork.errors.CalworkError` becomes one line on stderr
+returns the exit status. A :class:`~calwork.core.errors.CalworkError` becomes one line on stderr
 and exit status 2.
 """
 
@@ -13,8 +13,8 @@ import importlib
 import sys
 import warnings
 
-from calwork.errors import CalworkError
-from calwork.provenance import calwork_version
+from calwork.core.errors import CalworkError
+from calwork.core.provenance import calwork_version
 
 __all__ = ["SUBCOMMANDS", "build_parser", "main"]
 

@@ -6,7 +6,7 @@ import argparse
 
 from calwork.cli._choices import WORST_OFFENDER_MODES
 from calwork.cli._common import print_json
-from calwork.errors import NetworkError
+from calwork.core.errors import NetworkError
 
 __all__ = ["register"]
 

@@ -53,7 +53,7 @@ def register(subparsers: argparse._SubParsersAction) -> None:
 
 
 def _qa(args: argparse.Namespace) -> int:
-    from calwork.errors import CalibrationError
+    from calwork.core.errors import CalibrationError
     from calwork.labbook import Filters, open_labbook
     from calwork.qa import control_chart, parse_rules
 

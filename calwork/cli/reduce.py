@@ -16,8 +16,8 @@ from typing import Any
 
 from calwork.cli._choices import RISE_METHODS
 from calwork.cli._common import format_table, print_json
-from calwork.errors import CalworkError, ExportError
-from calwork.results import Reduction
+from calwork.core.errors import CalworkError, ExportError
+from calwork.core.results import Reduction
 
 __all__ = ["reduction_markdown", "register", "write_outputs"]
 

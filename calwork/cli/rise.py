@@ -6,7 +6,7 @@ import argparse
 
 from calwork.cli._choices import DICKINSON_RULES, RISE_METHODS
 from calwork.cli._common import format_table, print_json
-from calwork.errors import ChoiceError
+from calwork.core.errors import ChoiceError
 
 __all__ = ["register", "run"]
 

@@ -62,7 +62,7 @@ def _check_out(out: str, overwrite: bool) -> None:
     data with invented data without a word would be silent data loss."""
     from pathlib import Path
 
-    from calwork.errors import ExportError
+    from calwork.core.errors import ExportError
 
     folder = Path(out)
     if overwrite or not folder.is_dir():

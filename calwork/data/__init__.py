@@ -13,7 +13,7 @@ from importlib import resources
 from pathlib import Path
 from typing import Any
 
-from calwork.errors import CalworkError, DataFileError
+from calwork.core.errors import CalworkError, DataFileError
 
 __all__ = ["data_path", "load_data", "load_toml"]
 

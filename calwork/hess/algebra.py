@@ -3,7 +3,7 @@
 :func:`combine` solves ``Σ λ_i r_i = target`` over the species exactly, with rational
 Gaussian elimination (no floating point), so a multiplier of 1/3 stays 1/3. It refuses to
 guess: if the target is not a combination, or the multipliers are not unique, it raises
-:class:`~calwork.errors.CombinationError` naming what is missing or the free directions.
+:class:`~calwork.core.errors.CombinationError` naming what is missing or the free directions.
 """
 
 from __future__ import annotations
@@ -16,7 +16,7 @@ from types import MappingProxyType
 
 import numpy as np
 
-from calwork.errors import CombinationError, UncertaintyError
+from calwork.core.errors import CombinationError, UncertaintyError
 from calwork.hess.equations import format_coefficient
 from calwork.hess.reactions import Reaction, stoichiometry_text
 from calwork.hess.species import Species

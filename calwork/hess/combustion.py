@@ -32,8 +32,8 @@ from typing import Any
 
 import numpy as np
 
-from calwork.constants import T_REF_K, R_J_per_mol_K
-from calwork.errors import FormulaError, NetworkError, check_choice
+from calwork.core.constants import T_REF_K, R_J_per_mol_K
+from calwork.core.errors import FormulaError, NetworkError, check_choice
 from calwork.formula import molar_mass_g_per_mol
 from calwork.hess.key_values import KeyValues, load_key_values
 from calwork.hess.kirchhoff import CpModel

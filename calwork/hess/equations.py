@@ -6,7 +6,7 @@ joined to the species (``2H2O(l)``) since formulas never start with a digit. Eve
 must carry its state (``H2O(l)``), which is also what ends a term, so a ``+`` inside a charge
 (``Na+(aq)``) is never read as a separator.
 
-Element and charge balance are checked exactly; :class:`~calwork.errors.BalanceError` names
+Element and charge balance are checked exactly; :class:`~calwork.core.errors.BalanceError` names
 each element (and the charge) that is off and by how much, in ``imbalance``.
 """
 
@@ -18,7 +18,7 @@ from dataclasses import dataclass, field
 from fractions import Fraction
 from types import MappingProxyType
 
-from calwork.errors import BalanceError, EquationError, FormulaError
+from calwork.core.errors import BalanceError, EquationError, FormulaError
 from calwork.hess.species import Species, parse_species
 
 __all__ = [

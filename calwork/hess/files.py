@@ -46,9 +46,9 @@ from collections.abc import Mapping
 from pathlib import Path
 from typing import Any
 
-from calwork.constants import T_REF_K
+from calwork.core.constants import T_REF_K
+from calwork.core.errors import CalworkError, InputFileError, NetworkError, ValueCellError
 from calwork.data import parse_toml_text
-from calwork.errors import CalworkError, InputFileError, NetworkError, ValueCellError
 from calwork.hess.kirchhoff import Piecewise, cp_model_from_dict
 from calwork.hess.network import Network
 from calwork.hess.reactions import Reaction

@@ -21,8 +21,8 @@ from pathlib import Path
 from types import MappingProxyType
 from typing import Any
 
+from calwork.core.errors import CalworkError, DataFileError, check_choice
 from calwork.data import load_data, load_toml
-from calwork.errors import CalworkError, DataFileError, check_choice
 from calwork.hess.reactions import Reaction
 from calwork.hess.species import Species, parse_species, species_or_parse
 

@@ -11,7 +11,7 @@ a piecewise model):
   ∫C°_p dT = 1000 (A t + B t²/2 + C t³/3 + D t⁴/4 − E/t) J/mol;
 * :class:`Nasa7` — C°_p/R = a1 + a2 T + a3 T² + a4 T³ + a5 T⁴.
 
-Outside a model's interval the integral raises :class:`~calwork.errors.NetworkError`
+Outside a model's interval the integral raises :class:`~calwork.core.errors.NetworkError`
 (extrapolating a fitted C_p is a choice the user must make by widening the interval).
 """
 
@@ -22,8 +22,8 @@ import math
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 
-from calwork.constants import T_REF_K, R_J_per_mol_K
-from calwork.errors import NetworkError, check_choice
+from calwork.core.constants import T_REF_K, R_J_per_mol_K
+from calwork.core.errors import NetworkError, check_choice
 from calwork.hess.species import Species, species_or_parse
 
 __all__ = [
@@ -228,7 +228,7 @@ def adjust_reaction_enthalpy(
     """Δ_rH at ``T_ref_K`` from its value at ``T_K`` (Kirchhoff, eq. 5.2).
 
     Every species of the reaction, elements included, needs a heat-capacity model; the
-    missing ones are named in the :class:`~calwork.errors.NetworkError`.
+    missing ones are named in the :class:`~calwork.core.errors.NetworkError`.
 
     Returns
     -------

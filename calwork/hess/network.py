@@ -23,8 +23,8 @@ from typing import Any
 import numpy as np
 import scipy.sparse as sp
 
-from calwork.constants import T_REF_K
-from calwork.errors import NetworkError, check_choice
+from calwork.core.constants import T_REF_K
+from calwork.core.errors import NetworkError, check_choice
 from calwork.hess.diagnostics import (
     anchor_conflicts,
     anchor_label,

@@ -11,7 +11,8 @@ from typing import Any
 
 import numpy as np
 
-from calwork.errors import NetworkError, UncertaintyError
+from calwork.core.errors import NetworkError, UncertaintyError
+from calwork.core.results import jsonable
 from calwork.hess.algebra import nullspace
 from calwork.hess.diagnostics import Inflation, Offender, Residual
 from calwork.hess.equations import format_coefficient
@@ -19,7 +20,6 @@ from calwork.hess.key_values import reference_states
 from calwork.hess.reactions import Reaction
 from calwork.hess.species import Species
 from calwork.hess.wls import LinearSolution, solve_many_rhs
-from calwork.results import jsonable
 
 __all__ = ["DerivedEnthalpy", "NetworkResult", "free_directions", "monte_carlo_check"]
 

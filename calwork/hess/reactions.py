@@ -16,8 +16,8 @@ from fractions import Fraction
 from functools import cached_property
 from types import MappingProxyType
 
-from calwork.constants import T_REF_K
-from calwork.errors import EquationError
+from calwork.core.constants import T_REF_K
+from calwork.core.errors import EquationError
 from calwork.hess.equations import (
     check_balance,
     format_coefficient,
@@ -200,7 +200,7 @@ class Reaction:
 
     # --- checks and output ------------------------------------------------------------------
     def check_balance(self) -> None:
-        """Raise :class:`~calwork.errors.BalanceError` if elements or charge do not balance."""
+        """Raise :class:`~calwork.core.errors.BalanceError` if elements or charge do not balance."""
         check_balance(self.stoichiometry, self.equation)
 
     @cached_property

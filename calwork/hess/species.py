@@ -39,7 +39,7 @@ from fractions import Fraction
 from functools import cache
 from types import MappingProxyType
 
-from calwork.errors import FormulaError
+from calwork.core.errors import FormulaError
 from calwork.formula import element_counts
 
 __all__ = ["PRIMARY_STATES", "Species", "parse_species", "species_or_parse"]

@@ -24,7 +24,7 @@ import scipy.linalg as sla
 import scipy.sparse as sp
 from scipy.sparse.csgraph import connected_components
 
-from calwork.errors import ConvergenceError, NetworkError, UncertaintyError
+from calwork.core.errors import ConvergenceError, NetworkError, UncertaintyError
 
 __all__ = ["DENSE_MAX_UNKNOWNS", "ComponentSolution", "LinearSolution", "solve_wls"]
 

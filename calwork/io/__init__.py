@@ -1,8 +1,8 @@
 """Importers and writers: temperature logs, run sheets, resistance thermometers.
 
 ``read_log`` turns a log file (delimited text or ``.xlsx``) into a
-:class:`~calwork.thermogram.Thermogram`; ``read_run_sheet`` turns a run sheet into
-:class:`~calwork.runinfo.RunInfo` records and ``load_run_log`` reads a run's log with the row's
+:class:`~calwork.core.thermogram.Thermogram`; ``read_run_sheet`` turns a run sheet into
+:class:`~calwork.core.runinfo.RunInfo` records and ``load_run_log`` reads a run's log with the row's
 overrides. ``write_log`` / ``write_run_sheet`` write the same formats back.
 """
 

@@ -1,6 +1,6 @@
 """Cell-by-cell parsing (the careful path): numbers, clock times, ISO 8601 date-times.
 
-Each parser returns the value or raises :class:`~calwork.errors.ValueCellError` naming the
+Each parser returns the value or raises :class:`~calwork.core.errors.ValueCellError` naming the
 file, line, column, the text found and what was expected.
 """
 
@@ -11,7 +11,7 @@ import re
 from datetime import date, datetime, time, timedelta
 from typing import Any
 
-from calwork.errors import ValueCellError
+from calwork.core.errors import ValueCellError
 
 __all__ = ["parse_clock_s", "parse_iso", "parse_number"]
 

@@ -12,8 +12,8 @@ import re
 from dataclasses import dataclass
 from pathlib import Path
 
-from calwork.errors import AmbiguousColumnError, ColumnError, UnitError
-from calwork.units import parse_temperature_unit, parse_time_unit
+from calwork.core.errors import AmbiguousColumnError, ColumnError, UnitError
+from calwork.core.units import parse_temperature_unit, parse_time_unit
 
 __all__ = ["ColumnPlan", "plan_columns", "split_name"]
 

@@ -13,8 +13,8 @@ import re
 from dataclasses import dataclass
 from pathlib import Path
 
-from calwork.errors import InputFileError, LogFormatError
-from calwork.provenance import sha256_bytes
+from calwork.core.errors import InputFileError, LogFormatError
+from calwork.core.provenance import sha256_bytes
 
 __all__ = [
     "Layout",

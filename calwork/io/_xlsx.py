@@ -17,7 +17,7 @@ import io
 from pathlib import Path
 from typing import Any
 
-from calwork.errors import CalworkError, InputFileError, LogFormatError
+from calwork.core.errors import CalworkError, InputFileError, LogFormatError
 
 __all__ = ["is_xlsx", "read_xlsx_rows", "xml_is_defused"]
 

@@ -25,8 +25,8 @@ from typing import Any
 
 import numpy as np
 
-from calwork.constants import CELSIUS_ZERO_K
-from calwork.errors import (
+from calwork.core.constants import CELSIUS_ZERO_K
+from calwork.core.errors import (
     CalworkError,
     LogFormatError,
     SensorRangeError,
@@ -34,6 +34,10 @@ from calwork.errors import (
     UnitError,
     ValueCellError,
 )
+from calwork.core.numeric import median
+from calwork.core.provenance import Provenance, calwork_version
+from calwork.core.thermogram import Thermogram
+from calwork.core.units import temperature_to_K
 from calwork.io._cells import parse_clock_s, parse_iso, parse_number
 from calwork.io._columns import ColumnPlan, plan_columns
 from calwork.io._text import (
@@ -52,11 +56,7 @@ from calwork.io._text import (
 )
 from calwork.io._xlsx import is_xlsx, read_xlsx_rows
 from calwork.io.sensors import SensorModel, resolve_sensor
-from calwork.numeric import median
 from calwork.plausibility import temperature_slip
-from calwork.provenance import Provenance, calwork_version
-from calwork.thermogram import Thermogram
-from calwork.units import temperature_to_K
 
 __all__ = ["MIN_READINGS", "PLAUSIBLE_RANGE_K", "read_log"]
 
@@ -381,7 +381,7 @@ def read_log(
     sensor_coefficients: Mapping[str, float] | None = None,
     sheet: str | None = None,
 ) -> Thermogram:
-    """Read a temperature log into a :class:`~calwork.thermogram.Thermogram`.
+    """Read a temperature log into a :class:`~calwork.core.thermogram.Thermogram`.
 
     Parameters
     ----------

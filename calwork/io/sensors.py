@@ -21,9 +21,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from calwork.constants import CELSIUS_ZERO_K
+from calwork.core.constants import CELSIUS_ZERO_K
+from calwork.core.errors import ChoiceError, SensorRangeError, UnitError, check_choice
 from calwork.data import load_data
-from calwork.errors import ChoiceError, SensorRangeError, UnitError, check_choice
 
 __all__ = [
     "CVD_A_PER_C",

@@ -1,8 +1,8 @@
 """Run sheets: one row per run, as CSV, XLSX (first sheet) or TOML (``[[run]]`` tables).
 
 Column names are matched exactly after stripping whitespace (case-insensitive) against the
-contract columns (:data:`calwork.runinfo.RUN_SHEET_COLUMNS`) and calwork's extensions
-(:data:`calwork.runinfo.EXTENSION_COLUMNS`); any other column is kept in ``RunInfo.extra`` and
+contract columns (:data:`calwork.core.runinfo.RUN_SHEET_COLUMNS`) and calwork's extensions
+(:data:`calwork.core.runinfo.EXTENSION_COLUMNS`); any other column is kept in ``RunInfo.extra`` and
 listed by :func:`unknown_columns`. Blank cells mean "not given". Numbers take ``.`` or ``,``
 as the decimal mark. ``log`` paths are relative to the sheet's folder and must stay inside it.
 """
@@ -18,22 +18,22 @@ from datetime import date, datetime
 from pathlib import Path, PurePosixPath, PureWindowsPath
 from typing import Any
 
-from calwork.data import parse_toml_text
-from calwork.errors import (
+from calwork.core.errors import (
     CalworkError,
     DuplicateRunError,
     LogPathError,
     SheetError,
     UnitError,
 )
+from calwork.core.runinfo import EXTENSION_COLUMNS, RUN_KINDS, RUN_SHEET_COLUMNS, RunInfo
+from calwork.core.thermogram import Thermogram
+from calwork.core.units import parse_temperature_unit, parse_time_unit
+from calwork.data import parse_toml_text
 from calwork.io._text import decode_bytes, read_file_bytes
 from calwork.io._xlsx import is_xlsx, read_xlsx_rows
 from calwork.io.logs import read_log
 from calwork.io.sensors import SENSORS
 from calwork.plausibility import PLAUSIBLE_COLUMNS, check_plausible
-from calwork.runinfo import EXTENSION_COLUMNS, RUN_KINDS, RUN_SHEET_COLUMNS, RunInfo
-from calwork.thermogram import Thermogram
-from calwork.units import parse_temperature_unit, parse_time_unit
 
 __all__ = [
     "NON_NEGATIVE_COLUMNS",
@@ -392,7 +392,7 @@ def _toml_records(text: str, path: Path):
 
 
 def read_run_sheet(path: str | Path, *, strict: bool = True) -> list[RunInfo]:
-    """Read a run sheet (CSV, XLSX or TOML) into :class:`~calwork.runinfo.RunInfo` records.
+    """Read a run sheet (CSV, XLSX or TOML) into :class:`~calwork.core.runinfo.RunInfo` records.
 
     Parameters
     ----------

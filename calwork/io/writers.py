@@ -34,11 +34,11 @@ from typing import Any
 
 import numpy as np
 
-from calwork.constants import CELSIUS_ZERO_K
-from calwork.errors import ChoiceError, ExportError, LogFormatError, check_choice
+from calwork.core.constants import CELSIUS_ZERO_K
+from calwork.core.errors import ChoiceError, ExportError, LogFormatError, check_choice
+from calwork.core.runinfo import RUN_SHEET_COLUMNS
+from calwork.core.thermogram import Thermogram
 from calwork.io.sensors import resolve_sensor
-from calwork.runinfo import RUN_SHEET_COLUMNS
-from calwork.thermogram import Thermogram
 
 __all__ = ["LOG_FORMATS", "TIME_FORMATS", "write_log", "write_run_sheet"]
 
@@ -306,9 +306,9 @@ def _toml_key(key: str) -> str:
 def write_run_sheet(rows: Sequence[Mapping[str, object]], path: str | Path) -> Path:
     """Write a run sheet as CSV, XLSX or TOML (``[[run]]`` tables), chosen by the suffix.
 
-    Columns: the contract columns (:data:`calwork.runinfo.RUN_SHEET_COLUMNS`) that any row
+    Columns: the contract columns (:data:`calwork.core.runinfo.RUN_SHEET_COLUMNS`) that any row
     uses, in contract order, then the others in first-seen order. ``None`` is a blank cell
-    (omitted in TOML). Rows may be mappings or :class:`~calwork.runinfo.RunInfo` records.
+    (omitted in TOML). Rows may be mappings or :class:`~calwork.core.runinfo.RunInfo` records.
 
     Parameters
     ----------

@@ -25,8 +25,8 @@ from dataclasses import dataclass
 from datetime import UTC, datetime
 from typing import Any
 
-from calwork.errors import LabbookIntegrityError
-from calwork.results import jsonable
+from calwork.core.errors import LabbookIntegrityError
+from calwork.core.results import jsonable
 
 __all__ = ["GENESIS_HASH", "AuditEntry", "append", "canonical_json", "check_chain",
            "current_user", "entry_hash", "utc_now"]

@@ -19,7 +19,7 @@ import secrets
 import sqlite3
 from pathlib import Path
 
-from calwork.errors import LabbookError, LabbookIntegrityError
+from calwork.core.errors import LabbookError, LabbookIntegrityError
 
 __all__ = ["backup"]
 

@@ -13,8 +13,8 @@ import sqlite3
 import zlib
 from pathlib import Path, PurePosixPath
 
-from calwork.errors import LabbookError, LabbookIntegrityError
-from calwork.provenance import sha256_bytes
+from calwork.core.errors import LabbookError, LabbookIntegrityError
+from calwork.core.provenance import sha256_bytes
 
 __all__ = ["get_blob", "put_blob", "safe_relative_path", "write_inside"]
 

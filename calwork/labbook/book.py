@@ -10,18 +10,18 @@ from collections.abc import Callable
 from pathlib import Path
 from typing import Any, TypeVar
 
-from calwork.errors import (
+from calwork.core.errors import (
     LabbookBusyError,
     LabbookError,
     LabbookFormatError,
     LabbookIntegrityError,
 )
+from calwork.core.results import Reduction
 from calwork.labbook import audit, ingest, queries, store
 from calwork.labbook import backup as _backup
 from calwork.labbook import export as _export
 from calwork.labbook import recompute as _recompute
 from calwork.labbook import verify as _verify
-from calwork.results import Reduction
 
 __all__ = ["Labbook", "open_labbook"]
 
@@ -94,7 +94,7 @@ class Labbook:
 
         A sheet whose bytes (sheet and every log) are already recorded is reported as
         ``already_recorded`` and nothing changes; a different sheet re-using a recorded run id
-        raises :class:`~calwork.errors.LabbookError` (run ids are unique in a lab book).
+        raises :class:`~calwork.core.errors.LabbookError` (run ids are unique in a lab book).
         """
         return ingest.add_sheet(self._conn, self.path, sheet, method=method, user=self.user)
 

@@ -10,12 +10,12 @@ from dataclasses import fields
 from pathlib import Path
 from typing import Any
 
-from calwork.errors import CalworkError, LabbookError
+from calwork.core.errors import CalworkError, LabbookError
+from calwork.core.provenance import Provenance
+from calwork.core.results import CalibrationResult, Reduction, RunResult, SampleResult
+from calwork.core.runinfo import RunInfo
 from calwork.labbook.blobs import get_blob, write_inside
 from calwork.labbook.queries import Filters, list_calibrations, list_runs, list_samples
-from calwork.provenance import Provenance
-from calwork.results import CalibrationResult, Reduction, RunResult, SampleResult
-from calwork.runinfo import RunInfo
 
 __all__ = ["export_raw", "rebuild_reduction"]
 
@@ -66,7 +66,7 @@ def _info(row: Mapping[str, Any], sheet_path: str | None) -> RunInfo:
 
 def rebuild_reduction(conn: sqlite3.Connection, filters: Filters | None = None, *,
                       thermograms: bool = True) -> Reduction:
-    """A :class:`~calwork.results.Reduction` of the selected active runs from the store.
+    """A :class:`~calwork.core.results.Reduction` of the selected active runs from the store.
 
     Run, calibration and sample records are the stored (current) results; ``run_infos`` are
     the stored sheet rows; with ``thermograms`` the logs are read back from the stored bytes.

@@ -19,19 +19,19 @@ from datetime import date, datetime
 from pathlib import Path
 from typing import Any
 
-from calwork.errors import (
+from calwork.core.errors import (
     InputFileError,
     LabbookBusyError,
     LabbookError,
     LogPathError,
     check_choice,
 )
+from calwork.core.provenance import sha256_bytes
+from calwork.core.results import jsonable
 from calwork.labbook import audit
 from calwork.labbook.blobs import put_blob
 from calwork.labbook.reducing import ReducedSheet, reduce_from_path, reduce_stored
 from calwork.labbook.store import crash_point, write_transaction
-from calwork.provenance import sha256_bytes
-from calwork.results import jsonable
 
 __all__ = ["AddResult", "add_sheet", "bundle_digest", "date_key", "info_row", "results_digest",
            "runs_digest", "stored_bundle_digest", "void_run"]

@@ -12,9 +12,9 @@ from dataclasses import dataclass, fields
 from datetime import date, datetime
 from typing import Any
 
-from calwork.errors import LabbookError, ValueCellError, check_choice
+from calwork.core.errors import LabbookError, ValueCellError, check_choice
+from calwork.core.runinfo import RUN_KINDS
 from calwork.labbook import audit
-from calwork.runinfo import RUN_KINDS
 
 __all__ = ["Filters", "calibration_series", "history", "list_calibrations", "list_runs",
            "list_samples", "natural_key", "show_run"]

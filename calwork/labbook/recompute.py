@@ -21,7 +21,7 @@ from concurrent.futures import ProcessPoolExecutor
 from dataclasses import dataclass, field
 from typing import Any
 
-from calwork.errors import CalworkError
+from calwork.core.errors import CalworkError
 from calwork.labbook.queries import Filters
 from calwork.labbook.reducing import reduce_stored
 

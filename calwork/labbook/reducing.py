@@ -17,9 +17,9 @@ from dataclasses import dataclass, field
 from pathlib import Path, PurePath
 from typing import Any
 
+from calwork.core.provenance import calwork_version
+from calwork.core.results import jsonable
 from calwork.labbook.blobs import get_blob, safe_relative_path, write_inside
-from calwork.provenance import calwork_version
-from calwork.results import jsonable
 
 __all__ = ["ReducedSheet", "materialised", "reduce_from_path", "reduce_stored", "relocate",
            "to_records"]
@@ -54,7 +54,7 @@ def relocate(obj: Any, old: str, new: str) -> Any:
 
 def to_records(reduction: Any, *, method: str, expected: Sequence[tuple[str, str]],
                full_sheet: bool, moved: tuple[str, str] | None = None) -> ReducedSheet:
-    """Turn a :class:`~calwork.results.Reduction` into lab-book rows.
+    """Turn a :class:`~calwork.core.results.Reduction` into lab-book rows.
 
     ``expected`` lists ``(run id, kind)`` of the runs handed to the reduction; a run missing
     from its output is kept as a failed record (a run never disappears).

@@ -8,7 +8,7 @@ Reliability, in the order things happen:
 * An existing file is recognised before anything is written to it: SQLite header, a size
   consistent with the header (a truncated copy is refused), ``PRAGMA application_id``, the
   ``meta`` magic and a schema version this calwork can read. Anything else raises
-  :class:`~calwork.errors.LabbookFormatError`; such a file is never modified.
+  :class:`~calwork.core.errors.LabbookFormatError`; such a file is never modified.
 * A new lab book is built completely in a temporary file next to the target and then
   hard-linked into place (never replacing a file that appeared meanwhile), so a crash while
   creating leaves either no lab book or a complete one.
@@ -18,7 +18,7 @@ Reliability, in the order things happen:
 * Every change is one ``BEGIN IMMEDIATE`` transaction. A process killed inside it leaves the
   file exactly as before (SQLite's WAL recovery discards the uncommitted frames). A second
   writer waits up to the busy timeout (``$CALWORK_LABBOOK_TIMEOUT`` seconds, default 30) and
-  then gets :class:`~calwork.errors.LabbookBusyError` ("busy, retry").
+  then gets :class:`~calwork.core.errors.LabbookBusyError` ("busy, retry").
 
 WAL needs a local file system (shared memory between processes); do not keep a lab book on a
 network share. Copy a lab book in use with ``calwork labbook backup DEST`` (SQLite's online
@@ -34,10 +34,10 @@ import sqlite3
 from collections.abc import Iterator
 from pathlib import Path
 
-from calwork.errors import LabbookBusyError, LabbookError, LabbookFormatError
+from calwork.core.errors import LabbookBusyError, LabbookError, LabbookFormatError
+from calwork.core.provenance import calwork_version
 from calwork.labbook import audit
 from calwork.labbook.schema import APPLICATION_ID, MAGIC, SCHEMA_VERSION, migrate
-from calwork.provenance import calwork_version
 
 __all__ = [
     "DEFAULT_LABBOOK_NAME",

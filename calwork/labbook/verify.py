@@ -26,7 +26,8 @@ import sqlite3
 from dataclasses import dataclass, field
 from typing import Any
 
-from calwork.errors import LabbookIntegrityError
+from calwork.core.errors import LabbookIntegrityError
+from calwork.core.provenance import sha256_bytes
 from calwork.labbook import audit
 from calwork.labbook.audit import json_of
 from calwork.labbook.blobs import unpack
@@ -39,7 +40,6 @@ from calwork.labbook.ingest import (
     stored_bundle_digest,
 )
 from calwork.labbook.schema import EXPECTED_TRIGGERS, migrate
-from calwork.provenance import sha256_bytes
 
 __all__ = ["VerifyReport", "verify"]
 

@@ -25,7 +25,7 @@ from typing import Any
 
 import numpy as np
 
-from calwork.errors import CalibrationError
+from calwork.core.errors import CalibrationError
 from calwork.qa.rules import DEFAULT_RULES, Rule, Violation, evaluate
 
 __all__ = ["D2_N2", "D4_N2", "ControlChart", "Recommendation", "control_chart"]

@@ -11,7 +11,7 @@ from __future__ import annotations
 from pathlib import Path
 from typing import Any
 
-from calwork.errors import ExportError
+from calwork.core.errors import ExportError
 from calwork.qa.chart import ControlChart
 
 __all__ = ["plot_control_chart"]

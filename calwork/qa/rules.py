@@ -29,7 +29,7 @@ from collections.abc import Sequence
 from dataclasses import dataclass, replace
 from typing import Any
 
-from calwork.errors import CalworkError, check_choice
+from calwork.core.errors import CalworkError, check_choice
 
 __all__ = ["DEFAULT_RULES", "RULES", "Rule", "Violation", "evaluate", "parse_rules"]
 

@@ -1,6 +1,6 @@
 """What a report says, independent of its format: sections of paragraphs, tables and figures.
 
-:func:`build_document` turns a :class:`~calwork.results.Reduction` into a :class:`Document`;
+:func:`build_document` turns a :class:`~calwork.core.results.Reduction` into a :class:`Document`;
 :mod:`calwork.report.html` and :mod:`calwork.report.pdf` render it. Sections: summary (with
 the safety note), one per calibrated calorimeter (runs and the control chart of ε), one per
 sample series (result and uncertainty budget), one per run (values, warnings, and the
@@ -18,8 +18,8 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-from calwork.errors import CalworkError
-from calwork.provenance import calwork_version
+from calwork.core.errors import CalworkError
+from calwork.core.provenance import calwork_version
 from calwork.report.plots import plot_style, simulated_stamp
 from calwork.report.texts import (
     SAFETY_NOTE,

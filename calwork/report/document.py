@@ -5,7 +5,7 @@ from __future__ import annotations
 from pathlib import Path
 from typing import Any
 
-from calwork.errors import ExportError
+from calwork.core.errors import ExportError
 from calwork.report.content import build_document
 from calwork.report.html import render_html
 from calwork.report.output import atomic_target

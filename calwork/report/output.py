@@ -8,7 +8,7 @@ from collections.abc import Iterator
 from contextlib import contextmanager
 from pathlib import Path
 
-from calwork.errors import ExportError
+from calwork.core.errors import ExportError
 
 __all__ = ["atomic_target"]
 
@@ -18,7 +18,7 @@ def atomic_target(path: str | Path, *, what: str = "file") -> Iterator[Path]:
     """Yield a temporary path beside ``path``; rename it onto ``path`` if the block succeeds.
 
     A reader never sees a half-written file, and a failed export leaves the old file alone.
-    Problems with the folder or the disk raise :class:`~calwork.errors.ExportError` (before
+    Problems with the folder or the disk raise :class:`~calwork.core.errors.ExportError` (before
     any work is done when the folder cannot be written).
     """
     path = Path(path)

@@ -29,7 +29,7 @@ from openpyxl.cell import WriteOnlyCell
 from openpyxl.chart import Reference, ScatterChart, Series
 from openpyxl.styles import Font, PatternFill
 
-from calwork.errors import CalworkError, ExportError
+from calwork.core.errors import CalworkError, ExportError
 from calwork.report.grid import text_cell
 from calwork.report.plots import OKABE_ITO
 from calwork.report.sanitise import cell_text

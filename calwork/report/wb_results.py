@@ -12,8 +12,8 @@ import math
 from collections.abc import Mapping
 from typing import Any
 
-from calwork.constants import T_REF_K, R_J_per_mol_K
-from calwork.errors import CalworkError
+from calwork.core.constants import T_REF_K, R_J_per_mol_K
+from calwork.core.errors import CalworkError
 from calwork.formula import ATOMIC_WEIGHT_SOURCE, element_counts
 from calwork.report.formulas import Const, Expr, Ref, average, count, func, quadrature, sqrt
 from calwork.report.formulas import stdev as stdev_of

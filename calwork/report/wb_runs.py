@@ -19,8 +19,8 @@ from __future__ import annotations
 from collections.abc import Iterable
 from typing import Any
 
-from calwork.constants import T_REF_K, STANDARD_ATMOSPHERE_Pa
-from calwork.errors import CalworkError
+from calwork.core.constants import T_REF_K, STANDARD_ATMOSPHERE_Pa
+from calwork.core.errors import CalworkError
 from calwork.report.formulas import Const, Expr, Ref, total
 from calwork.report.plan import Plan, Table, detail
 from calwork.report.texts import primary_rise, rise_method

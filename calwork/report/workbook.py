@@ -23,8 +23,8 @@ from datetime import UTC, datetime
 from pathlib import Path
 from typing import Any
 
-from calwork.errors import ExportError
-from calwork.provenance import calwork_version, sha256_file
+from calwork.core.errors import ExportError
+from calwork.core.provenance import calwork_version, sha256_file
 from calwork.report.grid import new_workbook, save_workbook
 from calwork.report.output import atomic_target
 from calwork.report.plan import Plan, Table
@@ -142,7 +142,7 @@ def write_workbook(reduction: Any, path: str | Path, *, include_readings: bool =
     Parameters
     ----------
     reduction
-        A :class:`calwork.results.Reduction`.
+        A :class:`calwork.core.results.Reduction`.
     path
         Output file (``.xlsx``); written atomically (a temporary file, then renamed).
     include_readings

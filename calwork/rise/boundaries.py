@@ -15,11 +15,11 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from calwork.errors import FitError, PeriodDetectionError
-from calwork.numeric import median
+from calwork.core.errors import FitError, PeriodDetectionError
+from calwork.core.numeric import median
+from calwork.core.thermogram import Thermogram
 from calwork.rise.diagnostics import ar1_inflation
 from calwork.rise.newton import NewtonFit, fit_newton
-from calwork.thermogram import Thermogram
 
 __all__ = ["Event", "detect_onset", "heater_interval", "locate_event", "newtonian_start",
            "provisional_fit"]

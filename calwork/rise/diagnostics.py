@@ -9,7 +9,7 @@ from __future__ import annotations
 import numpy as np
 from scipy.ndimage import median_filter
 
-from calwork.numeric import median
+from calwork.core.numeric import median
 
 __all__ = [
     "MIN_PERIOD_READINGS",

@@ -8,14 +8,15 @@ from functools import cache
 
 import numpy as np
 
-from calwork.errors import (
+from calwork.core.errors import (
     CalworkError,
     ChoiceError,
     MultipleEventsError,
     PeriodDetectionError,
     check_choice,
 )
-from calwork.provenance import Provenance, calwork_version
+from calwork.core.provenance import Provenance, calwork_version
+from calwork.core.thermogram import Thermogram
 from calwork.rise.diagnostics import format_times, sampling_gaps, warning
 from calwork.rise.dickinson import DICKINSON_RULES
 from calwork.rise.events import LogEvent, LogEvents, list_heat_events
@@ -31,7 +32,6 @@ from calwork.rise.result import RiseResult
 from calwork.rise.selection import MethodOutput, Selection, select
 from calwork.rise.tail import tail_correction, tail_model
 from calwork.rise.uncertainty import combine
-from calwork.thermogram import Thermogram
 
 __all__ = ["corrected_rise"]
 
@@ -188,7 +188,7 @@ def corrected_rise(thermogram: Thermogram, method: str = "newton-fit",
     Parameters
     ----------
     thermogram
-        The temperature record (:class:`~calwork.thermogram.Thermogram`).
+        The temperature record (:class:`~calwork.core.thermogram.Thermogram`).
     method
         ``'newton-fit'`` (joint Newtonian fit, default), ``'regnault-pfaundler'`` or
         ``'dickinson'`` (see :data:`calwork.rise.METHODS`).

@@ -33,9 +33,9 @@ from functools import cache
 
 import numpy as np
 
-from calwork.errors import PeriodDetectionError
-from calwork.numeric import median
-from calwork.thermogram import Thermogram
+from calwork.core.errors import PeriodDetectionError
+from calwork.core.numeric import median
+from calwork.core.thermogram import Thermogram
 
 __all__ = ["LogEvent", "LogEvents", "find_events", "list_heat_events", "local_slopes_K_per_s"]
 

@@ -13,7 +13,7 @@ from typing import Any
 
 import numpy as np
 
-from calwork.errors import FitError, PeriodDetectionError, UncertaintyError
+from calwork.core.errors import FitError, PeriodDetectionError, UncertaintyError
 from calwork.rise.diagnostics import ar1_inflation, warning
 from calwork.rise.dickinson import dickinson_exact_tx_s, dickinson_rise_K, time_at_fraction_s
 from calwork.rise.drift import (

@@ -21,7 +21,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from calwork.errors import FitError
+from calwork.core.errors import FitError
 from calwork.rise.drift import convergence_temperature_K
 from calwork.uncertainty import standard_uncertainty
 

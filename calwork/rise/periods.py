@@ -7,7 +7,7 @@ Detection, in order (every step is vectorised; no loop over readings):
    gives a spike-free copy of the record (it passes monotonic stretches unchanged).
 2. **Event**: the largest departure of the smoothed slope from the median slope locates the
    main period roughly (peak slope, steep region, sign: exothermic/heating or endothermic).
-   No departure above the noise → :class:`~calwork.errors.PeriodDetectionError`.
+   No departure above the noise → :class:`~calwork.core.errors.PeriodDetectionError`.
 3. **Spikes** (single-reading outliers, ``|T − median₅| > 8σ``) outside the steep region are
    removed and reported (count and times) — never silently.
 4. **Firing / start time** ``t_i``: given (run sheet, CLI), else the switch-on of a
@@ -38,8 +38,9 @@ from typing import Any
 import numpy as np
 from scipy.ndimage import median_filter
 
-from calwork.errors import CalworkError, PeriodDetectionError
-from calwork.numeric import median
+from calwork.core.errors import CalworkError, PeriodDetectionError
+from calwork.core.numeric import median
+from calwork.core.thermogram import Thermogram
 from calwork.rise.boundaries import (
     detect_onset,
     heater_interval,
@@ -55,7 +56,6 @@ from calwork.rise.diagnostics import (
     robust_noise_K,
     warning,
 )
-from calwork.thermogram import Thermogram
 
 __all__ = ["Periods", "detect_periods"]
 

@@ -12,9 +12,9 @@ from typing import Any
 
 import numpy as np
 
-from calwork.errors import ExportError
+from calwork.core.errors import ExportError
+from calwork.core.thermogram import Thermogram
 from calwork.rise.result import RiseResult
-from calwork.thermogram import Thermogram
 
 __all__ = ["plot_rise"]
 

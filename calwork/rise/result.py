@@ -9,8 +9,8 @@ from typing import Any
 
 import numpy as np
 
-from calwork.provenance import Provenance
-from calwork.results import jsonable
+from calwork.core.provenance import Provenance
+from calwork.core.results import jsonable
 from calwork.rise.drift import drift_curve_K
 from calwork.rise.periods import Periods
 

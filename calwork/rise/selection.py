@@ -13,10 +13,10 @@ from typing import Any
 
 import numpy as np
 
-from calwork.errors import PeriodDetectionError
+from calwork.core.errors import PeriodDetectionError
+from calwork.core.thermogram import Thermogram
 from calwork.rise.periods import Periods
 from calwork.rise.result import DriftCurve
-from calwork.thermogram import Thermogram
 
 __all__ = ["LineFit", "MethodOutput", "Selection", "fit_line", "select"]
 

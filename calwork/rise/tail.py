@@ -25,7 +25,7 @@ from dataclasses import replace
 
 import numpy as np
 
-from calwork.numeric import median
+from calwork.core.numeric import median
 from calwork.rise.selection import Selection
 
 __all__ = ["TAIL_CHI2_Z", "TAIL_START_FRACTION", "TAIL_Z", "tail_correction", "tail_model"]

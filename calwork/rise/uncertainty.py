@@ -23,7 +23,7 @@ from collections.abc import Callable, Mapping, Sequence
 
 import numpy as np
 
-from calwork.errors import UncertaintyError
+from calwork.core.errors import UncertaintyError
 from calwork.uncertainty import variance_component
 
 __all__ = ["combine", "numeric_gradient", "propagate"]

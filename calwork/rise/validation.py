@@ -25,7 +25,7 @@ from typing import Any
 
 import numpy as np
 
-from calwork.errors import CalworkError
+from calwork.core.errors import CalworkError
 from calwork.rise.engine import corrected_rise
 
 __all__ = ["MethodValidation", "ValidationResult", "validate_methods"]

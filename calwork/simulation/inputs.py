@@ -17,7 +17,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from calwork.errors import SimulationError
+from calwork.core.errors import SimulationError
 from calwork.simulation.params import _finite, _positive, check_into
 
 __all__ = ["CombustionPulse", "FirstOrderRelease", "HeatInput", "HeaterInterval"]

@@ -24,7 +24,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.linalg import expm
 
-from calwork.errors import SimulationError
+from calwork.core.errors import SimulationError
 from calwork.simulation.inputs import FirstOrderRelease, HeatInput
 from calwork.simulation.params import CalorimeterParams
 

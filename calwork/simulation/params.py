@@ -15,8 +15,8 @@ from dataclasses import asdict, dataclass, fields, replace
 from pathlib import Path
 from typing import Any
 
+from calwork.core.errors import ChoiceError, InputFileError, SimulationError, check_choice
 from calwork.data import load_data, parse_toml_text
-from calwork.errors import ChoiceError, InputFileError, SimulationError, check_choice
 
 __all__ = ["INITIAL_STATES", "PRESETS", "CalorimeterParams"]
 

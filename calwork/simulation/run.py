@@ -10,8 +10,9 @@ from typing import Any
 
 import numpy as np
 
-from calwork.errors import SimulationError
-from calwork.provenance import Provenance
+from calwork.core.errors import SimulationError
+from calwork.core.provenance import Provenance
+from calwork.core.thermogram import Thermogram
 from calwork.simulation.inputs import (
     CombustionPulse,
     FirstOrderRelease,
@@ -20,7 +21,6 @@ from calwork.simulation.inputs import (
 )
 from calwork.simulation.integrate import LinearModel, integrate
 from calwork.simulation.params import CalorimeterParams, _finite, _positive
-from calwork.thermogram import Thermogram
 
 __all__ = ["EventTruth", "SimulatedRun", "SimulationTruth", "simulate_run"]
 

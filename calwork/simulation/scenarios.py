@@ -20,10 +20,10 @@ from typing import Any
 
 import numpy as np
 
+from calwork.core.errors import ChoiceError, ExportError, SimulationError, check_choice
+from calwork.core.runinfo import EXTENSION_COLUMNS, RUN_SHEET_COLUMNS
 from calwork.data import load_data
-from calwork.errors import ChoiceError, ExportError, SimulationError, check_choice
 from calwork.io.writers import write_log, write_run_sheet
-from calwork.runinfo import EXTENSION_COLUMNS, RUN_SHEET_COLUMNS
 from calwork.simulation.inputs import CombustionPulse, FirstOrderRelease, HeaterInterval
 from calwork.simulation.params import CalorimeterParams
 from calwork.simulation.run import SimulatedRun, simulate_run

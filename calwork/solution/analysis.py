@@ -16,8 +16,9 @@ from typing import Any
 
 import numpy as np
 
-from calwork.errors import PeriodDetectionError, RunError, check_choice
-from calwork.numeric import median
+from calwork.core.errors import PeriodDetectionError, RunError, check_choice
+from calwork.core.numeric import median
+from calwork.core.thermogram import Thermogram
 from calwork.rise import Periods, corrected_rise
 from calwork.rise.events import LogEvent, LogEvents, find_events
 from calwork.solution.electrical import (
@@ -30,7 +31,6 @@ from calwork.solution.electrical import (
     heater_power_W,
 )
 from calwork.solution.reaction import CALIBRATION_BASES
-from calwork.thermogram import Thermogram
 
 __all__ = ["HeaterCalibration", "LogAnalysis", "SolutionOptions", "analyse_log", "event_periods"]
 

@@ -24,8 +24,8 @@ from dataclasses import dataclass, fields
 
 import numpy as np
 
-from calwork.errors import UncertaintyError
-from calwork.results import jsonable
+from calwork.core.errors import UncertaintyError
+from calwork.core.results import jsonable
 
 __all__ = ["BlankCorrection", "blank_correction"]
 

@@ -5,11 +5,11 @@
 Inputs (how the pipeline hands them over)
 ------------------------------------------
 ``runs``
-    The :class:`~calwork.runinfo.RunInfo` rows (any order; other kinds come back as failed
+    The :class:`~calwork.core.runinfo.RunInfo` rows (any order; other kinds come back as failed
     runs naming the ``kind`` column).
 ``thermograms``
     ``Mapping[run_id, Thermogram]`` of the logs already read by the caller. A value may
-    also be a :class:`~calwork.errors.CalworkError` (the log could not be read: the run comes
+    also be a :class:`~calwork.core.errors.CalworkError` (the log could not be read: the run comes
     back with that error). Runs missing from the mapping (or ``thermograms=None``) are read
     here with :func:`calwork.io.load_run_log`.
 ``rises``
@@ -26,7 +26,7 @@ Inputs (how the pipeline hands them over)
 Order of work: electrical runs → a calibration series (ε) per calorimeter; blank runs →
 the ampoule-breaking correction per calorimeter; solution runs → molar enthalpies with the
 in-log calibrations (or the series), the blank and the vaporisation corrections; then a
-:class:`~calwork.results.SampleResult` per sample with the series mean and, where it can be
+:class:`~calwork.core.results.SampleResult` per sample with the series mean and, where it can be
 computed, the enthalpy at infinite dilution. A failing run comes back as a RunResult with
 ``error`` set (the calwork error's message, naming run and column); it is never dropped.
 
@@ -42,11 +42,12 @@ from typing import Any
 
 import numpy as np
 
-from calwork.errors import CalibrationError, CalworkError, RunError
+from calwork.core.errors import CalibrationError, CalworkError, RunError
+from calwork.core.provenance import Provenance
+from calwork.core.results import CalibrationResult, RunResult, SampleResult
+from calwork.core.runinfo import RunInfo
+from calwork.core.thermogram import Thermogram
 from calwork.io import load_run_log
-from calwork.provenance import Provenance
-from calwork.results import CalibrationResult, RunResult, SampleResult
-from calwork.runinfo import RunInfo
 from calwork.solution.analysis import LogAnalysis, SolutionOptions, analyse_log
 from calwork.solution.blanks import BlankCorrection, blank_correction
 from calwork.solution.reaction import (
@@ -60,7 +61,6 @@ from calwork.solution.reaction import (
 )
 from calwork.solution.samples import solution_samples
 from calwork.solution.vaporisation import vaporisation_correction_J
-from calwork.thermogram import Thermogram
 
 __all__ = ["SOLUTION_KINDS", "reduce_solution_runs"]
 

@@ -63,15 +63,15 @@ from fractions import Fraction
 from pathlib import Path
 from typing import Any
 
-from calwork.constants import T_REF_K
+from calwork.core.constants import T_REF_K
+from calwork.core.errors import CalworkError, ExportError, InputFileError, NetworkError
+from calwork.core.results import SampleResult, jsonable
 from calwork.data import load_data, parse_toml_text
-from calwork.errors import CalworkError, ExportError, InputFileError, NetworkError
 from calwork.hess.key_values import KeyValues, load_key_values
 from calwork.hess.network import Network, solve_network
 from calwork.hess.network_result import DerivedEnthalpy, NetworkResult
 from calwork.hess.reactions import Reaction
 from calwork.hess.species import Species, parse_species
-from calwork.results import SampleResult, jsonable
 
 __all__ = [
     "CycleResult",
@@ -200,7 +200,7 @@ def determination_from_sample(
     id: str | None = None,
     source: str | None = None,
 ) -> Reaction:
-    """The determination of a solution series (:class:`~calwork.results.SampleResult`).
+    """The determination of a solution series (:class:`~calwork.core.results.SampleResult`).
 
     Parameters
     ----------

@@ -28,13 +28,13 @@ from typing import Any
 
 import numpy as np
 
+from calwork.core.thermogram import Thermogram
 from calwork.data import load_data
 from calwork.formula import molar_mass_g_per_mol
 from calwork.io.writers import write_log, write_run_sheet
 from calwork.simulate import CalorimeterParams, FirstOrderRelease, HeaterInterval, simulate_run
 from calwork.solution.dilution import apparent_molar_enthalpy_pitzer
 from calwork.solution.vaporisation import vaporisation_correction_J
-from calwork.thermogram import Thermogram
 
 __all__ = ["DEMO_LABORATORY", "kcl_true_molar_enthalpy_kJ_per_mol", "simulate_solution_day"]
 

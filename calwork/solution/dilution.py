@@ -36,10 +36,10 @@ from typing import Any
 
 import numpy as np
 
-from calwork.constants import T_REF_K, R_J_per_mol_K
+from calwork.core.constants import T_REF_K, R_J_per_mol_K
+from calwork.core.errors import RunError, UncertaintyError, check_choice
+from calwork.core.results import jsonable
 from calwork.data import load_data
-from calwork.errors import RunError, UncertaintyError, check_choice
-from calwork.results import jsonable
 from calwork.solution.water import debye_huckel_slopes
 
 __all__ = [

@@ -31,8 +31,8 @@ from dataclasses import dataclass, fields
 
 import numpy as np
 
+from calwork.core.errors import RunError, UncertaintyError, check_choice
 from calwork.data import load_data
-from calwork.errors import RunError, UncertaintyError, check_choice
 
 __all__ = [
     "POTENTIAL_LEADS",

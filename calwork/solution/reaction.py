@@ -32,10 +32,10 @@ import math
 from collections.abc import Mapping
 from dataclasses import dataclass, field, fields
 
+from calwork.core.errors import CalibrationError, RunError, UncertaintyError, check_choice
+from calwork.core.results import jsonable
 from calwork.data import load_data
-from calwork.errors import CalibrationError, RunError, UncertaintyError, check_choice
 from calwork.formula import molar_mass_g_per_mol
-from calwork.results import jsonable
 
 __all__ = [
     "CALIBRATION_BASES",

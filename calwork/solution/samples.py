@@ -19,10 +19,10 @@ from collections.abc import Iterable, Mapping, Sequence
 
 import numpy as np
 
-from calwork.constants import T_REF_K
-from calwork.errors import CalworkError
-from calwork.results import RunResult, SampleResult
-from calwork.runinfo import RunInfo
+from calwork.core.constants import T_REF_K
+from calwork.core.errors import CalworkError
+from calwork.core.results import RunResult, SampleResult
+from calwork.core.runinfo import RunInfo
 from calwork.solution.dilution import (
     electrolyte_by_name,
     extrapolate_to_infinite_dilution,

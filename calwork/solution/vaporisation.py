@@ -23,9 +23,9 @@ from dataclasses import dataclass, fields
 
 import numpy as np
 
-from calwork.constants import R_J_per_mol_K
+from calwork.core.constants import R_J_per_mol_K
+from calwork.core.errors import RunError, check_choice
 from calwork.data import load_data
-from calwork.errors import RunError, check_choice
 
 __all__ = [
     "SOLVENTS",

@@ -18,7 +18,7 @@ from __future__ import annotations
 import math
 from functools import cache
 
-from calwork.constants import (
+from calwork.core.constants import (
     ELEMENTARY_CHARGE_C,
     AVOGADRO_per_mol,
     BOLTZMANN_J_per_K,
@@ -26,7 +26,7 @@ from calwork.constants import (
     STANDARD_ATMOSPHERE_Pa,
     VACUUM_PERMITTIVITY_F_per_m,
 )
-from calwork.errors import RunError
+from calwork.core.errors import RunError
 
 __all__ = ["debye_huckel_slopes", "water_density_kg_per_m3", "water_permittivity"]
 

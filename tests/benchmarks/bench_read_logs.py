@@ -18,8 +18,8 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
+from calwork.core.thermogram import Thermogram
 from calwork.io import read_log, write_log
-from calwork.thermogram import Thermogram
 
 
 def _make_logs(folder: Path, files: int, rows: int) -> list[Path]:

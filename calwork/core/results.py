@@ -13,7 +13,7 @@ from dataclasses import dataclass, field, fields
 from types import MappingProxyType
 from typing import Any
 
-from calwork.provenance import Provenance
+from calwork.core.provenance import Provenance
 
 __all__ = ["CalibrationResult", "Reduction", "RunResult", "SampleResult", "jsonable"]
 

@@ -8,8 +8,8 @@ from __future__ import annotations
 
 import re
 
-from calwork.constants import CELSIUS_ZERO_K
-from calwork.errors import UnitError
+from calwork.core.constants import CELSIUS_ZERO_K
+from calwork.core.errors import UnitError
 
 __all__ = [
     "BTU_IT_J",

@@ -9,10 +9,10 @@ from typing import Any
 
 import numpy as np
 
-from calwork.constants import CELSIUS_ZERO_K
-from calwork.errors import LogFormatError, TimeAxisError, ValueCellError
-from calwork.numeric import median
-from calwork.provenance import Provenance
+from calwork.core.constants import CELSIUS_ZERO_K
+from calwork.core.errors import LogFormatError, TimeAxisError, ValueCellError
+from calwork.core.numeric import median
+from calwork.core.provenance import Provenance
 
 #: Shortest median interval between readings accepted, s: calorimeter logs are sampled at
 #: 0.1 s at the fastest (common practice); far shorter spacing is a time-unit slip.
