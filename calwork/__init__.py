@@ -37,7 +37,7 @@ _export("calwork.core.thermogram", "Thermogram")
 _export("calwork.io", "read_log", "read_run_sheet", "load_run_log", "write_log",
         "write_run_sheet", "unknown_columns", "cvd_resistance_ohm", "cvd_temperature_C",
         "steinhart_hart_temperature_K", "steinhart_hart_resistance_ohm")
-_export("calwork.simulate", "CalorimeterParams", "CombustionPulse", "HeaterInterval",
+_export("calwork.simulation", "CalorimeterParams", "CombustionPulse", "HeaterInterval",
         "FirstOrderRelease", "simulate_run", "SimulatedRun", "SimulationTruth", "EventTruth",
         "simulate_scenario", "build_scenario", "ScenarioRun")
 _export("calwork.rise", "corrected_rise", "detect_periods", "Periods", "RiseResult",

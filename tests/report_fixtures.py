@@ -1,7 +1,7 @@
 """A Reduction for the report and workbook tests, built in memory (no files).
 
 Calibration (benzoic acid) and combustion runs with simulated thermograms
-(``calwork.simulate``; invented data, labelled ``simulated``), their corrected rises
+(``calwork.simulation``; invented data, labelled ``simulated``), their corrected rises
 (``calwork.rise.corrected_rise``) and the real bomb chain (``calwork.bomb.chain``,
 ``calwork.bomb.series``, ``calwork.hess``) run exactly as ``calwork.reduce`` runs it, so the
 numbers follow the chain's definitions:
@@ -33,7 +33,7 @@ from calwork.core.provenance import Provenance, sha256_bytes
 from calwork.core.results import Reduction
 from calwork.core.runinfo import RunInfo
 from calwork.rise import corrected_rise
-from calwork.simulate import CalorimeterParams, CombustionPulse, simulate_run
+from calwork.simulation import CalorimeterParams, CombustionPulse, simulate_run
 
 CERTIFIED_J_PER_G = 26434.0  # NIST SRM 39j, mass in vacuum (docs/references.md §2, confirmed)
 SAMPLE_J_PER_G = 40_230.0  # invented massic energy of the simulated sample, J/g
@@ -44,7 +44,7 @@ def _log(sim, rid: str):
     th = sim.thermogram
     data = th.time_s.tobytes() + th.temperature_K.tobytes()
     prov = Provenance(source_path=f"{rid}.csv", sha256=sha256_bytes(data),
-                      importer="calwork.simulate (in memory)", first_row=2,
+                      importer="calwork.simulation (in memory)", first_row=2,
                       last_row=1 + th.n_points)
     return replace(th, provenance=prov)
 

@@ -21,7 +21,7 @@ def test_choice_lists_match_the_registries_they_mirror():
     from calwork.cli import _choices
     from calwork.hess.network import WORST_OFFENDER_MODES
     from calwork.rise import DICKINSON_RULES, METHODS
-    from calwork.simulate import SCENARIOS
+    from calwork.simulation import SCENARIOS
 
     assert set(_choices.WORST_OFFENDER_MODES) == set(WORST_OFFENDER_MODES)
     assert set(_choices.SCENARIOS) == set(SCENARIOS)

@@ -56,10 +56,13 @@ def collect(tmp: Path) -> dict:
     from calwork.cli.main import main
 
     sys.path.insert(0, str(Path(__file__).parent))
+    from importlib import resources
+
     from conftest import copy_sample_runs
 
     runs = copy_sample_runs(tmp / "runs")
-    folders = {str(runs): "<runs>", str(tmp): "<tmp>"}
+    with resources.as_file(resources.files("calwork.sample_runs")) as bundled:
+        folders = {str(runs): "<runs>", str(tmp): "<tmp>", str(bundled): "<bundled-runs>"}
     out = {}
     for name, argv in COMMANDS.items():
         args = [a.format(runs=runs, tmp=tmp) for a in argv]

@@ -22,7 +22,7 @@ import numpy as np
 import pytest
 
 from calwork.labbook import open_labbook
-from calwork.simulate import simulate_scenario
+from calwork.simulation import simulate_scenario
 
 pytestmark = pytest.mark.skipif(not hasattr(signal, "SIGKILL"), reason="needs POSIX signals")
 

@@ -13,7 +13,7 @@ import pytest
 from calwork.cli.main import main
 from calwork.labbook import Filters, open_labbook
 from calwork.reduce import reduce_sheet
-from calwork.simulate import simulate_scenario
+from calwork.simulation import simulate_scenario
 
 
 @pytest.fixture(scope="module")

@@ -8,7 +8,7 @@ import pytest
 
 from calwork.cli.main import main
 from calwork.labbook import open_labbook
-from calwork.simulate import simulate_scenario
+from calwork.simulation import simulate_scenario
 
 
 @pytest.fixture(scope="module")

@@ -23,7 +23,7 @@ from calwork.bomb.washburn import Combustible, bomb_states
 from calwork.core.constants import T_REF_K
 from calwork.io import write_log, write_run_sheet
 from calwork.reduce import reduce_runs, reduce_sheet
-from calwork.simulate import CalorimeterParams, CombustionPulse, simulate_run
+from calwork.simulation import CalorimeterParams, CombustionPulse, simulate_run
 
 V_L, P_MPa, W_G = 0.342, 3.04, 1.0
 CERT = 26434.0

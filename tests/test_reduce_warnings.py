@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from calwork.io import write_log, write_run_sheet
 from calwork.reduce import reduce_sheet
-from calwork.simulate import CalorimeterParams, CombustionPulse, simulate_run
+from calwork.simulation import CalorimeterParams, CombustionPulse, simulate_run
 
 
 def test_a_log_without_a_time_unit_is_flagged(tmp_path):

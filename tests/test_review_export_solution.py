@@ -121,7 +121,7 @@ def test_k01_by_hand(reduction, truth):
     # 3. vaporisation into the ampoule's 0.5 mL: a heat absorbed, i.e. a negative correction
     q_vap = _q_vap_J(0.5, T_i)
     assert k01.corrections_J["vaporisation"] == pytest.approx(-q_vap, rel=1e-3)
-    # the simulator set its truth at the nominal 298.15 K (calwork/solution/demo.py)
+    # the simulator set its truth at the nominal 298.15 K (sample_runs/solution_day.py)
     assert -_q_vap_J(0.5, 298.15) == pytest.approx(truth["runs"]["K01"]["vaporisation_J"],
                                                    rel=1e-3)
     # 4. blank: each empty-ampoule run's heat minus its own (1.0 mL) vaporisation, averaged
@@ -162,7 +162,7 @@ def test_infinite_dilution_by_hand(reduction, truth):
     # Pitzer describes the m-dependence: Δ_solH∞ is the weighted mean of Δ_solH(m) − ΦL(m)
     assert s.infinite_dilution_enthalpy_kJ_per_mol == pytest.approx(
         np.average(y, weights=w), rel=1e-9)
-    # the simulator's truth: Δ_solH∞ = 17.584 − ΦL(0.111) (calwork/solution/demo.py)
+    # the simulator's truth: Δ_solH∞ = 17.584 − ΦL(0.111) (sample_runs/solution_day.py)
     true_inf = 17.584 - _phi_L_kcl_J_per_mol(0.111, 298.15) / 1000.0
     assert abs(s.infinite_dilution_enthalpy_kJ_per_mol - true_inf) < (
         3 * s.u_infinite_dilution_enthalpy_kJ_per_mol)

@@ -19,7 +19,7 @@ from calwork.io import read_log
 from calwork.rise import corrected_rise, detect_periods
 from calwork.rise.boundaries import newtonian_start
 from calwork.rise.periods import END_CONFIDENCE_LIMIT
-from calwork.simulate import CalorimeterParams, CombustionPulse, simulate_run
+from calwork.simulation import CalorimeterParams, CombustionPulse, simulate_run
 
 DEMO = Path(__file__).resolve().parents[1] / "sample_runs" / "logs" / "bomb" / "BA-01.csv"
 

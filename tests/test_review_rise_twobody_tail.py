@@ -18,7 +18,7 @@ import numpy as np
 import pytest
 
 from calwork.rise import corrected_rise
-from calwork.simulate import CalorimeterParams, CombustionPulse, FirstOrderRelease, simulate_run
+from calwork.simulation import CalorimeterParams, CombustionPulse, FirstOrderRelease, simulate_run
 
 PULSE = CombustionPulse(energy_J=26434.0, fire_time_s=600.0)
 

@@ -1,4 +1,4 @@
-"""Accuracy of the rise methods on simulated runs with known truth (calwork.simulate).
+"""Accuracy of the rise methods on simulated runs with known truth (calwork.simulation).
 
 Truth = heat / (C_b + C_w) (``SimulationTruth.adiabatic_rise_K``). Period detection is
 automatic in every case. Tolerances are the targets of the temperature-rise engine (issue 3):
@@ -13,7 +13,7 @@ import numpy as np
 import pytest
 
 from calwork.rise import corrected_rise
-from calwork.simulate import (
+from calwork.simulation import (
     CalorimeterParams,
     CombustionPulse,
     FirstOrderRelease,

@@ -141,7 +141,7 @@ def test_plot_rise_writes_a_png_and_draws_into_axes(tmp_path, record, result):
 
 
 def test_validate_methods_small_run():
-    from calwork.simulate import CalorimeterParams
+    from calwork.simulation import CalorimeterParams
 
     params = CalorimeterParams.bomb_preset(bomb_water_conductance_W_per_K=None)
     res = rise.validate_methods(params, runs=3, seed=5)

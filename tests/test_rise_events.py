@@ -19,7 +19,7 @@ from calwork.core.errors import ChoiceError, MultipleEventsError
 from calwork.io import write_log, write_run_sheet
 from calwork.reduce import reduce_sheet
 from calwork.rise import corrected_rise, list_heat_events
-from calwork.simulate import (
+from calwork.simulation import (
     CalorimeterParams,
     CombustionPulse,
     FirstOrderRelease,

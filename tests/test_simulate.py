@@ -1,4 +1,4 @@
-"""Physics checks of the calorimeter simulator (calwork.simulate).
+"""Physics checks of the calorimeter simulator (calwork.simulation).
 
 The simulator is the ground truth of the test suite, so its numbers are checked against closed
 forms of the model (docs/methods.md §1.1 heat balance, §1.9 thermometer lag and two bodies), against
@@ -18,7 +18,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from scipy.integrate import quad, solve_ivp
 
-from calwork.simulate import (
+from calwork.simulation import (
     CalorimeterParams,
     CombustionPulse,
     FirstOrderRelease,
@@ -334,7 +334,7 @@ def test_thermogram_is_labelled_simulated_and_truth_is_jsonable():
                        duration_s=2400.0, seed=7)
     th = run.thermogram
     assert th.metadata["simulated"] == "true"
-    assert th.provenance.importer == "calwork.simulate"
+    assert th.provenance.importer == "calwork.simulation"
     assert th.provenance.method == "simulated"
     assert th.provenance.constants["water_heat_capacity_J_per_K"] == 8400.0
     assert th.n_points == 481

@@ -11,7 +11,7 @@ import pytest
 from calwork.cli.main import main
 from calwork.core.errors import SimulationError
 from calwork.core.runinfo import EXTENSION_COLUMNS, RUN_SHEET_COLUMNS
-from calwork.simulate import CalorimeterParams, build_scenario, simulate_scenario
+from calwork.simulation import CalorimeterParams, build_scenario, simulate_scenario
 
 BA_J_PER_G = 26434.0  # NIST SRM 39j certificate, standard bomb conditions (docs/references.md)
 

@@ -10,7 +10,7 @@ import pytest
 
 from calwork.core.errors import InputFileError, SimulationError
 from calwork.data import load_data
-from calwork.simulate import (
+from calwork.simulation import (
     CalorimeterParams,
     CombustionPulse,
     FirstOrderRelease,

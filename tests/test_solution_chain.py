@@ -1,4 +1,4 @@
-"""The solution chain end to end on simulated runs with known truth (calwork.simulate)."""
+"""The solution chain end to end on simulated runs with known truth (calwork.simulation)."""
 
 from __future__ import annotations
 
@@ -7,16 +7,16 @@ import math
 from dataclasses import replace
 
 import pytest
+from calwork.sample_runs.solution_day import simulate_solution_day
 
 from calwork.core.errors import LogFormatError
 from calwork.core.runinfo import RunInfo
 from calwork.core.thermogram import Thermogram
 from calwork.formula import molar_mass_g_per_mol
 from calwork.io.sheets import read_run_sheet
-from calwork.simulate import CalorimeterParams, FirstOrderRelease, HeaterInterval, simulate_run
+from calwork.simulation import CalorimeterParams, FirstOrderRelease, HeaterInterval, simulate_run
 from calwork.solution.analysis import SolutionOptions
 from calwork.solution.chain import reduce_solution_runs
-from calwork.solution.demo import simulate_solution_day
 
 # A small semi-adiabatic vessel: ε = 300 J/K, k = G/ε = 1e-3 1/s (docs/methods.md §1.1 ranges)
 VESSEL = CalorimeterParams.solution_preset(bomb_heat_capacity_J_per_K=40.0,

@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 
 from calwork.core.errors import ChoiceError, RunError
-from calwork.simulate import CalorimeterParams, HeaterInterval, simulate_run
+from calwork.simulation import CalorimeterParams, HeaterInterval, simulate_run
 from calwork.solution.electrical import (
     electrical_energy_J,
     energy_equivalent_J_per_K,

@@ -9,7 +9,7 @@ import pytest
 
 from calwork.core.errors import PeriodDetectionError
 from calwork.rise.events import find_events, local_slopes_K_per_s
-from calwork.simulate import CalorimeterParams, FirstOrderRelease, HeaterInterval, simulate_run
+from calwork.simulation import CalorimeterParams, FirstOrderRelease, HeaterInterval, simulate_run
 from calwork.solution.analysis import analyse_log, event_periods
 
 P = CalorimeterParams.solution_preset()

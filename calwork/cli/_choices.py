@@ -15,5 +15,5 @@ RISE_METHODS = ("dickinson", "newton-fit", "regnault-pfaundler")
 DICKINSON_RULES = ("equal-area", "60-percent")
 #: calwork.hess.network.WORST_OFFENDER_MODES
 WORST_OFFENDER_MODES = ("none", "report", "inflate")
-#: calwork.simulate.SCENARIOS
+#: calwork.simulation.SCENARIOS
 SCENARIOS = ("bomb", "solution")

@@ -21,7 +21,7 @@ Scenarios:
 
 Everything written is invented data, labelled "simulated" in every log and in the
 run sheet's notes. --calorimeter reads a [calorimeter] table with the field names of
-calwork.simulate.CalorimeterParams (optionally preset = "bomb" or "solution").
+calwork.simulation.CalorimeterParams (optionally preset = "bomb" or "solution").
 
 Real experiments: oxygen bombs are pressure vessels and calibration heaters carry
 electrical power; follow the manufacturer's instructions and local codes.
@@ -77,7 +77,7 @@ def _check_out(out: str, overwrite: bool) -> None:
 
 def run(args: argparse.Namespace) -> int:
     """Write the scenario and print what was written."""
-    from calwork.simulate import CalorimeterParams, build_scenario
+    from calwork.simulation import CalorimeterParams, build_scenario
 
     _check_out(args.out, args.overwrite)
     params = CalorimeterParams.from_toml(args.calorimeter) if args.calorimeter else None

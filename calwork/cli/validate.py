@@ -15,7 +15,7 @@ print the bias and spread (ppm) against the known truth, the largest error, the 
 standard uncertainty and its coverage (fraction of runs with |error| <= 2u).
 
 --calorimeter reads the calorimeter's parameters from a TOML file: a [calorimeter] table with
-the fields of calwork.simulate.CalorimeterParams (optionally preset = "bomb" or "solution" to
+the fields of calwork.simulation.CalorimeterParams (optionally preset = "bomb" or "solution" to
 start from a bundled set and override some fields); without it the bundled macro bomb
 calorimeter is used. Bomb-sized calorimeters (>= 2 kJ/K) get a combustion of about 2.5 K,
 smaller ones a 300 s heater interval of about 50 mK.
@@ -41,7 +41,7 @@ def register(subparsers: argparse._SubParsersAction) -> None:
 def run(args: argparse.Namespace) -> int:
     """Simulate, reduce and print the validation table (or JSON)."""
     from calwork.rise.validation import validate_methods
-    from calwork.simulate import CalorimeterParams
+    from calwork.simulation import CalorimeterParams
 
     if args.calorimeter:
         params = CalorimeterParams.from_toml(args.calorimeter)

@@ -227,7 +227,7 @@ def corrected_rise(thermogram: Thermogram, method: str = "newton-fit",
 
     Examples
     --------
-    >>> from calwork.simulate import CalorimeterParams, CombustionPulse, simulate_run
+    >>> from calwork.simulation import CalorimeterParams, CombustionPulse, simulate_run
     >>> run = simulate_run(CalorimeterParams.bomb_preset(bomb_water_conductance_W_per_K=None),
     ...                    CombustionPulse(energy_J=26434.0, fire_time_s=600.0),
     ...                    duration_s=2400.0, seed=1)

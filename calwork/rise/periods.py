@@ -224,7 +224,7 @@ def detect_periods(thermogram: Thermogram, *, fire_time_s: float | None = None,
 
     Examples
     --------
-    >>> from calwork.simulate import CalorimeterParams, CombustionPulse, simulate_run
+    >>> from calwork.simulation import CalorimeterParams, CombustionPulse, simulate_run
     >>> run = simulate_run(CalorimeterParams.bomb_preset(),
     ...                    CombustionPulse(energy_J=26434.0, fire_time_s=600.0),
     ...                    duration_s=2400.0, seed=1)

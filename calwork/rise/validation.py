@@ -1,7 +1,7 @@
 """Method validation on simulated runs: bias, spread and coverage of every rise method.
 
 ``validate_methods(params, runs, seed)`` simulates ``runs`` thermograms of the user's
-calorimeter (:class:`calwork.simulate.CalorimeterParams`) with known heat, reduces each with
+calorimeter (:class:`calwork.simulation.CalorimeterParams`) with known heat, reduces each with
 every method (automatic period detection) and compares with the truth:
 
 * **bias** and **spread** (mean and standard deviation of the relative error, ppm) against the
@@ -108,7 +108,7 @@ def format_table(headers, rows) -> str:
 
 
 def _scenario(params) -> tuple[Any, float, str]:
-    from calwork.simulate import CombustionPulse, HeaterInterval
+    from calwork.simulation import CombustionPulse, HeaterInterval
 
     eps = params.energy_equivalent_J_per_K
     tau = params.internal_time_constant_s or 0.0
@@ -130,7 +130,7 @@ def validate_methods(params, runs: int = 20, seed: int = 0) -> ValidationResult:
     Parameters
     ----------
     params
-        The calorimeter (:class:`calwork.simulate.CalorimeterParams`).
+        The calorimeter (:class:`calwork.simulation.CalorimeterParams`).
     runs
         Number of simulated runs (seeds ``seed``, ``seed + 1``, …).
     seed
@@ -141,7 +141,7 @@ def validate_methods(params, runs: int = 20, seed: int = 0) -> ValidationResult:
     ValidationResult
         One :class:`MethodValidation` row per method (and the 60 % Dickinson variant).
     """
-    from calwork.simulate import simulate_run
+    from calwork.simulation import simulate_run
 
     if runs < 1:
         raise CalworkError("the number of runs must be at least 1", column="runs", found=runs)

@@ -211,7 +211,7 @@ def _metadata(params: CalorimeterParams, inputs: Sequence[HeatInput], seed: int 
               truth: SimulationTruth) -> dict[str, str]:
     meta = {
         "simulated": "true",
-        "simulator": "calwork.simulate (isoperibol calorimeter model; invented data)",
+        "simulator": "calwork.simulation (isoperibol calorimeter model; invented data)",
         "seed": "none" if seed is None else str(seed),
         "true_heat_released_J": repr(truth.heat_released_J),
         "true_adiabatic_rise_K": repr(truth.adiabatic_rise_K),
@@ -322,7 +322,7 @@ def simulate_run(
     thermogram = Thermogram(
         time_s=times, temperature_K=reading, channels=channels,
         metadata=_metadata(params, inputs, seed, truth),
-        provenance=Provenance(importer="calwork.simulate", method="simulated",
+        provenance=Provenance(importer="calwork.simulation", method="simulated",
                               constants={**params.to_dict(), "seed": seed}),
     )
     return SimulatedRun(thermogram=thermogram, truth=truth, params=params,

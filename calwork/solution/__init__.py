@@ -3,14 +3,12 @@ Debye–Hückel / Pitzer ΦL and extrapolation to infinite dilution, thermochemi
 
 * :mod:`.electrical` — heater power (``heater_V`` × ``heater_A`` or ``V_s/R_s``), heater
   intervals, ``Q = ∫ V I dt``, ``ε = Q/ΔT_c`` (docs/methods.md §2.3).
-* :mod:`.events` — heater intervals and the reaction in one log, and their windows.
 * :mod:`.analysis` — one log: events → corrected rises → in-log calibrations.
 * :mod:`.reaction` — Δ_rH = −(ε ΔT_c − Σq)/n, the (2.2) referral rule, amounts, molality.
 * :mod:`.blanks`, :mod:`.vaporisation` — ampoule-breaking and vaporisation corrections (§2.4).
 * :mod:`.dilution` — ΦL (limiting, extended Debye–Hückel, Pitzer) and the extrapolation.
 * :mod:`.cycles` — solution results as Hess determinations; cycle files; network CSV export.
 * :mod:`.chain` — :func:`reduce_solution_runs`, the pipeline entry point.
-* :mod:`.demo` — :func:`simulate_solution_day`, invented demonstration data.
 
 Submodules are imported on first use so that ``import calwork.solution`` stays light.
 """
@@ -31,7 +29,6 @@ __all__ = [
     "molar_enthalpy_J_per_mol",
     "reduce_solution_runs",
     "refer_energy_equivalent",
-    "simulate_solution_day",
     "solution_determination",
     "solve_cycle",
     "vaporisation_correction_J",
@@ -51,7 +48,6 @@ _WHERE = {
     "molar_enthalpy_J_per_mol": "reaction",
     "reduce_solution_runs": "chain",
     "refer_energy_equivalent": "reaction",
-    "simulate_solution_day": "demo",
     "solution_determination": "cycles",
     "solve_cycle": "cycles",
     "vaporisation_correction_J": "vaporisation",

@@ -25,7 +25,7 @@ from datetime import date, timedelta
 from pathlib import Path
 
 from calwork.labbook import open_labbook
-from calwork.simulate import simulate_scenario
+from calwork.simulation import simulate_scenario
 
 RUNS_PER_SHEET = 100
 

@@ -18,7 +18,7 @@ from pathlib import Path
 
 def build(folder: Path, n_runs: int, n_calorimeters: int = 5) -> Path:
     from calwork.io import write_log, write_run_sheet
-    from calwork.simulate import CalorimeterParams, CombustionPulse, simulate_run
+    from calwork.simulation import CalorimeterParams, CombustionPulse, simulate_run
 
     rows = []
     per = n_runs // n_calorimeters

@@ -29,7 +29,7 @@ from pathlib import Path
 
 def _simulate(n: int, folder: Path) -> list[Path]:
     from calwork.io.writers import write_log
-    from calwork.simulate import CalorimeterParams, CombustionPulse, simulate_run
+    from calwork.simulation import CalorimeterParams, CombustionPulse, simulate_run
 
     params = CalorimeterParams.bomb_preset(sampling_interval_s=1.0)
     paths = []

@@ -18,7 +18,7 @@ from dataclasses import replace
 import numpy as np
 from scipy.integrate import solve_ivp
 
-from calwork.simulate import (
+from calwork.simulation import (
     CalorimeterParams,
     CombustionPulse,
     FirstOrderRelease,

@@ -21,7 +21,7 @@ import time
 import numpy as np
 
 from calwork.core.runinfo import RunInfo
-from calwork.simulate import CalorimeterParams, FirstOrderRelease, HeaterInterval, simulate_run
+from calwork.simulation import CalorimeterParams, FirstOrderRelease, HeaterInterval, simulate_run
 from calwork.solution.chain import reduce_solution_runs
 
 

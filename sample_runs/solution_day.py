@@ -32,7 +32,7 @@ from calwork.core.thermogram import Thermogram
 from calwork.data import load_data
 from calwork.formula import molar_mass_g_per_mol
 from calwork.io.writers import write_log, write_run_sheet
-from calwork.simulate import CalorimeterParams, FirstOrderRelease, HeaterInterval, simulate_run
+from calwork.simulation import CalorimeterParams, FirstOrderRelease, HeaterInterval, simulate_run
 from calwork.solution.dilution import apparent_molar_enthalpy_pitzer
 from calwork.solution.vaporisation import vaporisation_correction_J
 
@@ -67,7 +67,7 @@ def kcl_true_molar_enthalpy_kJ_per_mol(molality_mol_per_kg: float) -> float:
 
 def _preamble(run: str, kind: str, seed: int, truth: dict[str, Any]) -> dict[str, str]:
     out = {"simulated": "true", "laboratory": DEMO_LABORATORY, "calorimeter": _CALORIMETER,
-           "run": run, "kind": kind, "simulator": "calwork.simulate", "seed": str(seed)}
+           "run": run, "kind": kind, "simulator": "calwork.simulation", "seed": str(seed)}
     out.update({f"true_{k}": repr(v) for k, v in truth.items()})
     return out
 

@@ -1,6 +1,6 @@
 """The bundled demonstration data: a simulated day's work of a fictional laboratory.
 
-Everything here is **simulated** with calwork's own calorimeter simulator (``calwork.simulate``)
+Everything here is **simulated** with calwork's own calorimeter simulator (``calwork.simulation``)
 for invented laboratories (the bomb runs for the "Fenwick Row thermochemistry laboratory",
 the solution runs for the "Lindqvist Solution Thermochemistry Laboratory"), and is labelled as
 such in every log (a ``simulated: true`` preamble line) and run-sheet row (``notes``):
@@ -9,7 +9,7 @@ such in every log (a ``simulated: true`` preamble line) and run-sheet row (``not
   combustions of succinic acid and four of acetanilide;
 * solution calorimeter ``sol-1``: electrical calibrations, a dissolution series of potassium
   chloride at several molalities and blank (empty-ampoule) runs, written by
-  :func:`calwork.solution.demo.simulate_solution_day`.
+  :func:`calwork.sample_runs.solution_day.simulate_solution_day`.
 
 The true heats are computed consistently with the reduction chain (certificate value × Jessup
 factor for the run's bomb conditions, the bomb contents' energy equivalents, nitric acid), so
@@ -17,8 +17,9 @@ reducing the sheet returns the invented truth within its uncertainty. The sample
 "true" standard massic energies are set from literature formation enthalpies (see
 :data:`DEMO_SAMPLES`) so that the demo's ΔfH° can be compared with published values.
 
-``python -m calwork.demo OUT_DIR`` rebuilds the folder (the bundled ``sample_runs/`` was made
-with the default seed).
+``python -m calwork.sample_runs.build OUT_DIR`` rebuilds the folder (the bundled
+``sample_runs/`` was made with the default seed; its logs name the simulator by the module
+path it had then, ``calwork.simulate``).
 """
 
 from __future__ import annotations
@@ -83,7 +84,7 @@ def _contents(formula, mass_g, rho, cp, titre_mL, conc):
 def _bomb_day(out: Path, rng: np.random.Generator) -> list[dict[str, Any]]:
     from calwork.bomb.certificate import jessup_factor
     from calwork.io.writers import write_log
-    from calwork.simulate import CalorimeterParams, CombustionPulse, simulate_run
+    from calwork.simulation import CalorimeterParams, CombustionPulse, simulate_run
 
     base = CalorimeterParams.bomb_preset()
     plan: list[tuple[str, str | None, int]] = [("calibration", None, i) for i in range(8)]
@@ -198,8 +199,9 @@ def write_network_file(path: str | Path, *, seed: int = 20260302) -> Path:
 
 def build_sample_runs(out_dir: str | Path, *, seed: int = 20260302) -> Path:
     """Write the demo folder (logs and ``runs.csv``) into ``out_dir``; returns the sheet path."""
+    from calwork.sample_runs.solution_day import simulate_solution_day
+
     from calwork.io.writers import write_run_sheet
-    from calwork.solution.demo import simulate_solution_day
 
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
