@@ -40,8 +40,9 @@ _export("calwork.io", "read_log", "read_run_sheet", "load_run_log", "write_log",
 _export("calwork.simulation", "CalorimeterParams", "CombustionPulse", "HeaterInterval",
         "FirstOrderRelease", "simulate_run", "SimulatedRun", "SimulationTruth", "EventTruth",
         "simulate_scenario", "build_scenario", "ScenarioRun")
+_export("calwork.simulation.validation", "validate_methods")
 _export("calwork.rise", "corrected_rise", "detect_periods", "Periods", "RiseResult",
-        "plot_rise", "validate_methods", "find_events", "list_heat_events")
+        "plot_rise", "find_events", "list_heat_events")
 _export("calwork.hess", "parse_species", "Species", "parse_equation", "Reaction", "combine",
         "Combination", "Network", "solve_network", "NetworkResult", "load_key_values",
         "combustion_link", "combustion_link_many", "combustion_reaction", "read_network_file")

@@ -12,9 +12,7 @@ the samples. Rows of kind ``electrical``, ``solution`` and ``blank`` go to
 A failing run never disappears: it comes back as a :class:`~calwork.core.results.RunResult` with
 ``error`` set (naming the run and the column), and the rest of the sheet is reduced.
 
-Safety: the numbers are only as good as the experiment. Oxygen bombs are pressure vessels,
-bomb washings are acids and calibration heaters carry mains-derived power: follow the makers'
-instructions and the local codes.
+Safety: see :data:`calwork.core.safety.SAFETY_NOTE`.
 """
 
 from __future__ import annotations

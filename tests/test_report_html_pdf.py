@@ -13,8 +13,8 @@ sys.path.insert(0, str(Path(__file__).parent))
 from report_fixtures import cached_reduction, demo_reduction
 
 from calwork.core.errors import ExportError
+from calwork.core.safety import SAFETY_NOTE
 from calwork.report import write_report
-from calwork.report.texts import SAFETY_NOTE
 
 HOSTILE = '<script>alert("x")</script>=HYPERLINK("http://example.invalid","x")'
 

@@ -9,6 +9,7 @@ import numpy as np
 import pytest
 from test_rise_records import newtonian_record
 
+import calwork
 import calwork.rise as rise
 from calwork.core.errors import ChoiceError, PeriodDetectionError
 from calwork.core.results import jsonable
@@ -144,7 +145,7 @@ def test_validate_methods_small_run():
     from calwork.simulation import CalorimeterParams
 
     params = CalorimeterParams.bomb_preset(bomb_water_conductance_W_per_K=None)
-    res = rise.validate_methods(params, runs=3, seed=5)
+    res = calwork.validate_methods(params, runs=3, seed=5)
     names = [m.method for m in res.methods]
     assert names == ["newton-fit", "regnault-pfaundler", "dickinson", "dickinson (60-percent)"]
     newton = res.methods[0]

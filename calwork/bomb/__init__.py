@@ -2,8 +2,7 @@
 contents, Washburn reduction to standard states, calibration series, the run/series chain and
 fuel outputs.
 
-Safety: oxygen bombs are pressure vessels; charge, fire and vent them only as the maker and
-the local pressure-equipment codes prescribe; bomb washings are acids.
+Safety: see :data:`calwork.core.safety.SAFETY_NOTE`.
 """
 
 from calwork.bomb.buoyancy import buoyancy_factor, mass_in_vacuum_g

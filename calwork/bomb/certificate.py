@@ -6,9 +6,7 @@ water per litre of bomb volume, reaction referred to 25 °C). Jessup's formula (
 (1942) 247, printed on the SRM 39 certificates; coefficients recalled from memory, kept as
 data in ``benzoic_acid.toml``) corrects it to the actual conditions of a run.
 
-Safety: an oxygen bomb is a pressure vessel. Charge it only to the pressure its maker rates,
-never burn more than the maker's maximum sample energy, test it as the local pressure-vessel
-codes require, and fire it only from behind a shield.
+Safety: see :data:`calwork.core.safety.SAFETY_NOTE`.
 """
 
 from __future__ import annotations

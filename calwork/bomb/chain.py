@@ -14,8 +14,7 @@ standard massic energy adds the Washburn correction: ``Δcu° = Δu_B + ΔU_Σ/m
 released). ``details`` names every constant used. When the sheet gives no bomb volume the
 contents' energy equivalent and the Washburn correction are not computed and the run says so.
 
-Safety: oxygen bombs are pressure vessels (see :mod:`calwork.bomb.certificate`); follow the
-maker's limits and the local pressure-vessel codes.
+Safety: see :data:`calwork.core.safety.SAFETY_NOTE`.
 """
 
 from __future__ import annotations

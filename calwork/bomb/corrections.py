@@ -4,8 +4,7 @@ Each function returns the energy in J that the process *released into the calori
 (positive; a negative value means heat that the sample's combustion did not deliver, as for
 unburnt carbon). Constants are data in ``bomb_corrections.toml`` (sources there).
 
-Safety: the bomb washings are dilute nitric (and sulfuric) acid — wear eye protection and
-gloves when rinsing and titrating, and dispose of them as the local rules require.
+Safety: see :data:`calwork.core.safety.SAFETY_NOTE`.
 """
 
 from __future__ import annotations

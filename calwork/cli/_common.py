@@ -4,12 +4,13 @@ from __future__ import annotations
 
 import json
 import sys
-from collections.abc import Iterable, Sequence
+import textwrap
 from typing import Any
 
 from calwork.core.results import jsonable
+from calwork.core.safety import SAFETY_NOTE
 
-__all__ = ["format_table", "print_json"]
+__all__ = ["print_json", "with_safety_note"]
 
 
 def print_json(obj: Any) -> None:
@@ -18,14 +19,6 @@ def print_json(obj: Any) -> None:
     sys.stdout.write("\n")
 
 
-def format_table(headers: Sequence[str], rows: Iterable[Sequence[Any]]) -> str:
-    """A plain-text table with right-aligned numbers."""
-    text_rows = [["" if v is None else str(v) for v in row] for row in rows]
-    widths = [len(h) for h in headers]
-    for row in text_rows:
-        for i, cell in enumerate(row):
-            widths[i] = max(widths[i], len(cell))
-    line = "  ".join(h.ljust(w) for h, w in zip(headers, widths, strict=True))
-    out = [line, "  ".join("-" * w for w in widths)]
-    out.extend("  ".join(c.rjust(w) for c, w in zip(row, widths, strict=True)) for row in text_rows)
-    return "\n".join(out)
+def with_safety_note(description: str) -> str:
+    """A command's help text followed by the safety note, wrapped for a terminal."""
+    return f"{description.rstrip()}\n\n{textwrap.fill(SAFETY_NOTE, 92)}\n"

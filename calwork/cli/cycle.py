@@ -4,7 +4,8 @@ from __future__ import annotations
 
 import argparse
 
-from calwork.cli._common import format_table, print_json
+from calwork.cli._common import print_json, with_safety_note
+from calwork.core.text import format_table
 
 __all__ = ["register", "run"]
 
@@ -24,14 +25,12 @@ determined", the cycle lacks a known ΔfH° (add a [[species]] entry, e.g. the a
 salt). Uncertainties are standard uncertainties (k = 1). --export-network writes the
 cycle as a network CSV that `calwork network` reads.
 
-Caution: the dissolution enthalpies come from calorimeters with electrical heaters and glass
-ampoules; follow the instrument maker's instructions and local safety rules.
 """
 
 
 def register(subparsers: argparse._SubParsersAction) -> None:
     p = subparsers.add_parser("cycle", help="thermochemical cycle from enthalpies of solution",
-                              description=_HELP,
+                              description=with_safety_note(_HELP),
                               formatter_class=argparse.RawDescriptionHelpFormatter)
     p.add_argument("file", metavar="FILE", help="cycle file (.toml)")
     p.add_argument("--json", action="store_true", help="print one JSON object")

@@ -7,7 +7,7 @@ from importlib import resources
 from pathlib import Path
 
 from calwork.cli._choices import RISE_METHODS
-from calwork.cli._common import print_json
+from calwork.cli._common import print_json, with_safety_note
 
 __all__ = ["register", "run", "sample_sheet"]
 
@@ -18,10 +18,7 @@ are SIMULATED with calwork's own calorimeter simulator for a fictional laborator
 benzoic-acid calibration series and combustions of succinic acid and acetanilide in an oxygen
 bomb calorimeter; electrical calibrations, blanks and a potassium chloride dissolution series
 in a solution calorimeter).
-
-Safety: oxygen bombs are pressure vessels charged to about 3 MPa; follow the manufacturer's
-instructions, local codes and licensed practice. calwork computes; it does not make a
-procedure safe."""
+"""
 
 
 def sample_sheet() -> Path:
@@ -32,7 +29,8 @@ def sample_sheet() -> Path:
 def register(subparsers: argparse._SubParsersAction) -> None:
     p = subparsers.add_parser(
         "demo", help="reduce the bundled simulated sample runs end to end",
-        description=_DESCRIPTION, formatter_class=argparse.RawDescriptionHelpFormatter)
+        description=with_safety_note(_DESCRIPTION),
+        formatter_class=argparse.RawDescriptionHelpFormatter)
     p.add_argument("--out", default="calwork-demo", metavar="DIR",
                    help="report folder to write (default: %(default)s)")
     p.add_argument("--method", default="newton-fit", choices=RISE_METHODS,

@@ -10,9 +10,10 @@ from typing import Any
 
 import numpy as np
 
-from calwork.cli._common import format_table, print_json
+from calwork.cli._common import print_json
 from calwork.core.constants import CELSIUS_ZERO_K
 from calwork.core.errors import ChoiceError, ExportError
+from calwork.core.text import format_table
 from calwork.core.thermogram import Thermogram
 from calwork.io.logs import read_log
 from calwork.io.sensors import SENSORS

@@ -7,8 +7,9 @@ import math
 from pathlib import Path
 from typing import Any
 
-from calwork.cli._common import format_table, print_json
+from calwork.cli._common import print_json
 from calwork.core.errors import ExportError
+from calwork.core.text import format_table
 
 __all__ = ["register"]
 

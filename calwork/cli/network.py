@@ -5,7 +5,7 @@ from __future__ import annotations
 import argparse
 
 from calwork.cli._choices import WORST_OFFENDER_MODES
-from calwork.cli._common import print_json
+from calwork.cli._common import print_json, with_safety_note
 from calwork.core.errors import NetworkError
 
 __all__ = ["register"]
@@ -36,14 +36,12 @@ TOML tables: [[determination]] id, equation, delta_r_H_kJ_per_mol, u_delta_r_H_k
 u_delta_f_H_kJ_per_mol; [[heat_capacity]] species, model (shomate, nasa7, constant) and its
 coefficients; [[correlation]] a, b, correlation (or covariance_kJ2_per_mol2).
 
-Caution: the input enthalpies come from calorimetry with oxygen bombs (pressure vessels) and
-acids; follow the instrument maker's instructions and local safety codes.
 """
 
 
 def register(subparsers: argparse._SubParsersAction) -> None:
     p = subparsers.add_parser("network", help="solve a thermochemical network (Hess)",
-                              description=_HELP,
+                              description=with_safety_note(_HELP),
                               formatter_class=argparse.RawDescriptionHelpFormatter)
     p.add_argument("file", metavar="FILE", help="network file (.csv or .toml)")
     p.add_argument("--json", action="store_true", help="print one JSON object")

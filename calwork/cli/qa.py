@@ -5,7 +5,7 @@ from __future__ import annotations
 import argparse
 from dataclasses import replace
 
-from calwork.cli._common import print_json
+from calwork.cli._common import print_json, with_safety_note
 from calwork.cli.labbook import _common
 
 __all__ = ["register"]
@@ -28,16 +28,16 @@ Change them with --rules, e.g. --rules beyond-action,run-one-side=8,trend=6.
 
 QA note: a signal says the calorimeter changed, not why. Check what changed (bomb, vessel,
 thermometer, stirrer, jacket, water mass, oxygen pressure, crucible, reference-material lot)
-and standardise again after any change of a part. Safety: an oxygen bomb is a pressure
-vessel — after service or any sign of damage have it inspected and pressure-tested as its
-maker and local codes require before firing it again.
+and standardise again after any change of a part, and after service or any sign of damage
+have the bomb inspected and pressure-tested as its maker and local codes require before it
+is fired again.
 """
 
 
 def register(subparsers: argparse._SubParsersAction) -> None:
     """Add the ``qa`` subcommand."""
     p = subparsers.add_parser("qa", help="control chart of ε and recalibration advice",
-                              description=_DESCRIPTION,
+                              description=with_safety_note(_DESCRIPTION),
                               formatter_class=argparse.RawDescriptionHelpFormatter)
     p.add_argument("calorimeter", metavar="CALORIMETER", help="calorimeter id (sheet column)")
     p.add_argument("--baseline", type=int, metavar="N",

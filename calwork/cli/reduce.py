@@ -15,17 +15,13 @@ from pathlib import Path
 from typing import Any
 
 from calwork.cli._choices import RISE_METHODS
-from calwork.cli._common import format_table, print_json
+from calwork.cli._common import print_json
 from calwork.core.errors import CalworkError, ExportError
 from calwork.core.results import Reduction
+from calwork.core.safety import SAFETY_NOTE
+from calwork.core.text import format_table
 
 __all__ = ["reduction_markdown", "register", "write_outputs"]
-
-_SAFETY = ("Safety: oxygen bombs are pressure vessels — charge, fire and vent them only as the "
-           "maker and the local pressure-equipment codes prescribe; bomb washings are acids; "
-           "calibration heaters are electrical circuits. These results do not replace those "
-           "checks.")
-
 
 def register(subparsers: argparse._SubParsersAction) -> None:
     """Add the ``reduce`` subcommand."""
@@ -36,7 +32,7 @@ def register(subparsers: argparse._SubParsersAction) -> None:
         "temperature rises, energy equivalents per calorimeter, massic energies of "
         "combustion with the Washburn corrections, formation enthalpies, solution runs. "
         "Exit status 0 = all runs reduced, 1 = some runs failed (listed), 2 = the sheet "
-        "cannot be read. " + _SAFETY,
+        "cannot be read. " + SAFETY_NOTE,
     )
     p.add_argument("sheet", metavar="SHEET", help="run sheet (.csv, .xlsx or .toml)")
     p.add_argument("--method", default="newton-fit", choices=methods,
@@ -225,7 +221,7 @@ def reduction_markdown(red: Reduction) -> str:
     lines = ["# Reduction report", ""]
     if red.sheet_path:
         lines.append(f"Run sheet: {md(red.sheet_path)}  ")
-    lines += [f"Temperature-rise method: {red.method}", "", _SAFETY, ""]
+    lines += [f"Temperature-rise method: {red.method}", "", SAFETY_NOTE, ""]
     if red.calibrations:
         header = "| calorimeter | ε / J K⁻¹ | u(ε) / J K⁻¹ | n | RSD / % | outlier test |"
         lines += ["## Calibrations", "", header, "|---|---|---|---|---|---|"]

@@ -5,8 +5,9 @@ from __future__ import annotations
 import argparse
 
 from calwork.cli._choices import DICKINSON_RULES, RISE_METHODS
-from calwork.cli._common import format_table, print_json
+from calwork.cli._common import print_json, with_safety_note
 from calwork.core.errors import ChoiceError
+from calwork.core.text import format_table
 
 __all__ = ["register", "run"]
 
@@ -23,9 +24,7 @@ cooling), regnault-pfaundler, dickinson (--dickinson-rule equal-area, the exact 
 A log with several heat events (two firings; a calibration, a reaction and a calibration) is
 refused with the list of its events unless --event N says which one to reduce.
 
-Caution: the logs come from oxygen bombs (pressure vessels) and electrically heated cells;
-operate them only as the maker and the local pressure-equipment and electrical-safety codes
-prescribe. This command only reads files.
+This command only reads files.
 """
 
 
@@ -35,7 +34,8 @@ def register(subparsers: argparse._SubParsersAction) -> None:
 
     p = subparsers.add_parser(
         "rise", help="corrected temperature rise of one temperature log",
-        description=_DESCRIPTION, formatter_class=argparse.RawDescriptionHelpFormatter,
+        description=with_safety_note(_DESCRIPTION),
+        formatter_class=argparse.RawDescriptionHelpFormatter,
     )
     p.add_argument("log", metavar="LOG", help="temperature log (.csv/.txt/... or .xlsx)")
     p.add_argument("--method", default="newton-fit", choices=RISE_METHODS,

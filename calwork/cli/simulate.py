@@ -5,7 +5,8 @@ from __future__ import annotations
 import argparse
 
 from calwork.cli._choices import SCENARIOS
-from calwork.cli._common import format_table, print_json
+from calwork.cli._common import print_json, with_safety_note
+from calwork.core.text import format_table
 
 __all__ = ["register", "run"]
 
@@ -23,8 +24,6 @@ Everything written is invented data, labelled "simulated" in every log and in th
 run sheet's notes. --calorimeter reads a [calorimeter] table with the field names of
 calwork.simulation.CalorimeterParams (optionally preset = "bomb" or "solution").
 
-Real experiments: oxygen bombs are pressure vessels and calibration heaters carry
-electrical power; follow the manufacturer's instructions and local codes.
 """
 
 
@@ -32,7 +31,8 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     """Add the ``simulate`` subcommand."""
     p = subparsers.add_parser(
         "simulate", help="write simulated logs and a run sheet",
-        description=_DESCRIPTION, formatter_class=argparse.RawDescriptionHelpFormatter,
+        description=with_safety_note(_DESCRIPTION),
+        formatter_class=argparse.RawDescriptionHelpFormatter,
     )
     p.add_argument("--out", required=True, metavar="DIR",
                    help="output folder (created; must be new or empty unless --overwrite)")

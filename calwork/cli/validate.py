@@ -40,8 +40,8 @@ def register(subparsers: argparse._SubParsersAction) -> None:
 
 def run(args: argparse.Namespace) -> int:
     """Simulate, reduce and print the validation table (or JSON)."""
-    from calwork.rise.validation import validate_methods
     from calwork.simulation import CalorimeterParams
+    from calwork.simulation.validation import validate_methods
 
     if args.calorimeter:
         params = CalorimeterParams.from_toml(args.calorimeter)

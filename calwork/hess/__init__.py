@@ -13,12 +13,12 @@ from calwork.hess.combustion import (
 )
 from calwork.hess.equations import Equation, parse_equation
 from calwork.hess.files import read_network_file
-from calwork.hess.key_values import KeyValue, KeyValues, is_reference_state, load_key_values
+from calwork.hess.key_values import KeyValue, KeyValues, load_key_values
 from calwork.hess.kirchhoff import ConstantCp, Nasa7, Piecewise, Shomate
 from calwork.hess.network import Network, solve_network
 from calwork.hess.network_result import DerivedEnthalpy, NetworkResult
 from calwork.hess.reactions import Reaction
-from calwork.hess.species import Species, parse_species
+from calwork.hess.species import Species, is_reference_state, parse_species
 
 __all__ = [
     "Combination",

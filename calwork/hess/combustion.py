@@ -17,8 +17,7 @@ For a compound C_aH_bO_cN_dS_e (phase ``cr``, ``l``, ...):
   the key values with their correlations — for CHON this is
   u² = u²(Δ_cH) + a² u²(CO₂) + (b/2)² u²(H₂O) (docs/methods.md §3.8).
 
-Safety: combustion energies come from oxygen-bomb experiments; bombs are pressure vessels —
-follow the maker's instructions, pressure-test schedules and local codes.
+
 """
 
 from __future__ import annotations

@@ -7,8 +7,8 @@ bundled choice; ``standard``: u = ±). A key value is either a formation enthalp
 species or, for solution species defined through a reaction (H2SO4 in 115 H2O), the
 enthalpy of that reaction; either way it enters a network as one row.
 
-Elements in their reference states (``calwork/data/reference_states.toml``) and ``H+(aq)``
-have Δ_fH° = 0 and are never unknowns.
+Elements in their reference states and ``H+(aq)`` have Δ_fH° = 0 and are never unknowns
+(:func:`calwork.hess.species.reference_states`).
 """
 
 from __future__ import annotations
@@ -29,24 +29,10 @@ from calwork.hess.species import Species, parse_species, species_or_parse
 __all__ = [
     "KeyValue",
     "KeyValues",
-    "is_reference_state",
     "load_key_values",
-    "reference_states",
 ]
 
 UNCERTAINTY_CONVENTIONS = ("expanded", "standard")
-
-
-@cache
-def reference_states() -> frozenset[Species]:
-    """Species with Δ_fH° = 0: elements in reference states and the H+(aq) convention."""
-    data = load_data("reference_states.toml")
-    return frozenset(parse_species(s) for s in [*data["elements"], *data["conventions"]])
-
-
-def is_reference_state(species: Species | str) -> bool:
-    """True for an element in its reference state (or ``H+(aq)``)."""
-    return species_or_parse(species) in reference_states()
 
 
 @dataclass(frozen=True, kw_only=True)

@@ -8,9 +8,7 @@ right correlations. The network is solved by weighted least squares (:mod:`.wls`
 for consistency (:mod:`.diagnostics`), and species the data do not determine are listed
 instead of being given a value.
 
-Safety: the numbers this produces are only as good as the experiments behind them; oxygen
-bombs are pressure vessels and calorimetric acids are corrosive — follow the instrument
-maker's instructions and local codes when producing the data.
+
 """
 
 from __future__ import annotations
@@ -33,11 +31,11 @@ from calwork.hess.diagnostics import (
     residuals,
     worst_offender_order,
 )
-from calwork.hess.key_values import KeyValues, load_key_values, reference_states
+from calwork.hess.key_values import KeyValues, load_key_values
 from calwork.hess.kirchhoff import CpModel, adjust_reaction_enthalpy
 from calwork.hess.network_result import NetworkResult, free_directions, monte_carlo_check
 from calwork.hess.reactions import Reaction
-from calwork.hess.species import Species, species_or_parse
+from calwork.hess.species import Species, reference_states, species_or_parse
 from calwork.hess.wls import solve_wls
 from calwork.uncertainty import standard_uncertainty
 

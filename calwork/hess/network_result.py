@@ -13,12 +13,12 @@ import numpy as np
 
 from calwork.core.errors import NetworkError, UncertaintyError
 from calwork.core.results import jsonable
+from calwork.core.text import format_table
 from calwork.hess.algebra import nullspace
 from calwork.hess.diagnostics import Inflation, Offender, Residual
 from calwork.hess.equations import format_coefficient
-from calwork.hess.key_values import reference_states
 from calwork.hess.reactions import Reaction
-from calwork.hess.species import Species
+from calwork.hess.species import Species, reference_states
 from calwork.hess.wls import LinearSolution, solve_many_rhs
 
 __all__ = ["DerivedEnthalpy", "NetworkResult", "free_directions", "monte_carlo_check"]
@@ -256,8 +256,6 @@ class NetworkResult:
         })
 
     def report(self) -> str:
-        from calwork.cli._common import format_table
-
         k = self.coverage_factor
         rows = []
         for name in self.species:

@@ -25,7 +25,7 @@ from calwork.hess.equations import (
     parse_coefficient,
     parse_equation,
 )
-from calwork.hess.species import Species, species_or_parse
+from calwork.hess.species import Species, is_reference_state, species_or_parse
 
 __all__ = ["Reaction", "stoichiometry_text"]
 
@@ -214,8 +214,6 @@ class Reaction:
 
     def enthalpy_from(self, formation_kJ_per_mol: Mapping[Species | str, float]) -> float:
         """Σ ν Δ_fH° from a table of formation enthalpies (elements in reference states 0)."""
-        from calwork.hess.key_values import is_reference_state
-
         table = {species_or_parse(k): float(v) for k, v in formation_kJ_per_mol.items()}
         total = 0.0
         for sp, c in self.stoichiometry.items():

@@ -40,9 +40,11 @@ from functools import cache
 from types import MappingProxyType
 
 from calwork.core.errors import FormulaError
+from calwork.data import load_data
 from calwork.formula import element_counts
 
-__all__ = ["PRIMARY_STATES", "Species", "parse_species", "species_or_parse"]
+__all__ = ["PRIMARY_STATES", "Species", "is_reference_state", "parse_species",
+           "reference_states", "species_or_parse"]
 
 #: Primary physical states (IUPAC Green Book abbreviations; ``sln`` = solution).
 PRIMARY_STATES = ("g", "l", "cr", "s", "am", "aq", "sln")
@@ -236,3 +238,16 @@ def parse_species(text: str) -> Species:
 def species_or_parse(value: Species | str) -> Species:
     """Return ``value`` if it is a :class:`Species`, else parse it."""
     return value if isinstance(value, Species) else parse_species(value)
+
+
+@cache
+def reference_states() -> frozenset[Species]:
+    """Species with Δ_fH° = 0: elements in their reference states and the ``H+(aq)``
+    convention (``calwork/data/reference_states.toml``)."""
+    data = load_data("reference_states.toml")
+    return frozenset(parse_species(s) for s in [*data["elements"], *data["conventions"]])
+
+
+def is_reference_state(species: Species | str) -> bool:
+    """True for an element in its reference state (or ``H+(aq)``)."""
+    return species_or_parse(species) in reference_states()

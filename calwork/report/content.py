@@ -20,9 +20,9 @@ from typing import Any
 
 from calwork.core.errors import CalworkError
 from calwork.core.provenance import calwork_version
+from calwork.core.safety import SAFETY_NOTE
 from calwork.report.plots import plot_style, simulated_stamp
 from calwork.report.texts import (
-    SAFETY_NOTE,
     SIMULATED_NOTE,
     is_simulated,
     primary_rise,

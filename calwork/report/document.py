@@ -28,10 +28,7 @@ def write_report(reduction: Any, path: str | Path) -> Path:
     HTML is self-contained (inline CSS, base64 PNG images, no external resources; all text
     escaped). PDF pages are drawn with matplotlib.
 
-    Safety: the report carries the safety note — oxygen bombs are pressure vessels charged to
-    about 3 MPa, bomb washings are acids, calibration heaters are electrical; follow the
-    manufacturer's instructions, local codes and licensed practice. calwork computes; it does
-    not make a procedure safe.
+    The report carries the safety note (:data:`calwork.core.safety.SAFETY_NOTE`).
 
     Raises
     ------

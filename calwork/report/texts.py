@@ -6,24 +6,12 @@ from collections.abc import Mapping
 from typing import Any
 
 __all__ = [
-    "SAFETY_NOTE",
     "SIMULATED_NOTE",
     "is_simulated",
     "primary_rise",
     "rise_method",
     "simulated_runs",
 ]
-
-#: The safety note every report and workbook carries.
-SAFETY_NOTE = (
-    "Safety: oxygen bombs are pressure vessels, charged with oxygen to about 3 MPa; the "
-    "combustion leaves nitric (and sulfuric) acid in the bomb; calibration heaters and "
-    "ignition circuits are electrical equipment. Follow the manufacturer's instructions for "
-    "the bomb, the calorimeter and the heaters, the pressure-vessel, electrical and chemical "
-    "safety codes that apply where you work, and your laboratory's licensed practice "
-    "(pressure ratings, periodic testing, shields, eye protection). calwork computes results "
-    "from data; it does not make a procedure safe."
-)
 
 #: Label for anything that comes from simulated (invented) data.
 SIMULATED_NOTE = (

@@ -14,11 +14,12 @@ from typing import Any
 
 from calwork.core.constants import T_REF_K, R_J_per_mol_K
 from calwork.core.errors import CalworkError
+from calwork.core.safety import SAFETY_NOTE
 from calwork.formula import ATOMIC_WEIGHT_SOURCE, element_counts
 from calwork.report.formulas import Const, Expr, Ref, average, count, func, quadrature, sqrt
 from calwork.report.formulas import stdev as stdev_of
 from calwork.report.plan import Plan, Table
-from calwork.report.texts import SAFETY_NOTE, SIMULATED_NOTE, simulated_runs
+from calwork.report.texts import SIMULATED_NOTE, simulated_runs
 from calwork.report.wb_runs import runs_of
 
 __all__ = [

@@ -25,11 +25,12 @@ from typing import Any
 
 from calwork.core.errors import ExportError
 from calwork.core.provenance import calwork_version, sha256_file
+from calwork.core.safety import SAFETY_NOTE
 from calwork.report.grid import new_workbook, save_workbook
 from calwork.report.output import atomic_target
 from calwork.report.plan import Plan, Table
 from calwork.report.sanitise import safe_sheet_title
-from calwork.report.texts import SAFETY_NOTE, is_simulated, rise_method
+from calwork.report.texts import is_simulated, rise_method
 from calwork.report.wb_readings import write_log_sheet
 from calwork.report.wb_results import (
     plan_budget,
@@ -159,9 +160,7 @@ def write_workbook(reduction: Any, path: str | Path, *, include_readings: bool =
     Notes
     -----
     Text from run sheets and logs is written as text, never as formulas. The workbook holds
-    the safety note: oxygen bombs are pressure vessels (about 3 MPa of oxygen), the bomb
-    liquid is acidic, heaters are electrical — follow the manufacturer's instructions and
-    local codes; calwork computes, it does not make a procedure safe.
+    the safety note (:data:`calwork.core.safety.SAFETY_NOTE`).
     """
     path = Path(path)
     if path.suffix.lower() != ".xlsx":

@@ -6,7 +6,6 @@
   ``'newton-fit'`` (joint Newtonian fit, default), ``'regnault-pfaundler'``, ``'dickinson'``
   (``dickinson_rule='equal-area'`` or ``'60-percent'``).
 * :class:`Periods`, :class:`RiseResult` — the records; :func:`plot_rise` — the figure;
-  :func:`validate_methods` — bias, spread and coverage of every method on simulated runs.
 
 The pure Newtonian functions (``exchange_correction_K``, ``newton_drift_K_per_s``, the
 Regnault–Pfaundler and Dickinson formulas) are re-exported for direct use.
@@ -56,18 +55,13 @@ __all__ = [
     "regnault_pfaundler_exchange_K",
     "regnault_pfaundler_rise_K",
     "time_at_fraction_s",
-    "validate_methods",
 ]
 
 
 def __getattr__(name: str):
-    # plotting pulls in matplotlib and validation the simulator: import them on first use
+    # plotting pulls in matplotlib: import it on first use
     if name == "plot_rise":
         from calwork.rise.plot import plot_rise
 
         return plot_rise
-    if name == "validate_methods":
-        from calwork.rise.validation import validate_methods
-
-        return validate_methods
     raise AttributeError(f"module 'calwork.rise' has no attribute {name!r}")

@@ -34,9 +34,6 @@ class CombustionPulse:
     ``t₀ ≤ t < t₀ + Δ`` — smooth (zero power and zero slope at both ends) and integrating
     exactly to ``E``.
 
-    Caution (real bombs): oxygen bombs are pressure vessels; fill, fire and vent them only as
-    the maker and local pressure-equipment codes prescribe.
-
     Attributes
     ----------
     energy_J
@@ -103,9 +100,6 @@ class HeaterInterval:
 
     The simulated log carries the heater voltage ``V = √(P R)`` and current ``I = √(P/R)``
     (channels ``heater_V``, ``heater_A``) while it is on.
-
-    Caution (real heaters): mains-derived supplies and wet cells are an electrical hazard; use
-    isolated low-voltage supplies and follow local electrical-safety rules.
 
     Attributes
     ----------

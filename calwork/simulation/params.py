@@ -224,9 +224,6 @@ class CalorimeterParams:
     def bomb_preset(cls, **overrides: Any) -> CalorimeterParams:
         """A macro isoperibol oxygen-bomb calorimeter (ε = 10 kJ/K, k = 4e-5 1/s, two bodies,
         τ₁ ≈ 90 s, 2 s thermometer lag, readings every 5 s).
-
-        Caution: an oxygen bomb is a pressure vessel; real work follows the maker's
-        instructions and local pressure-equipment codes.
         """
         return cls.preset("bomb", **overrides)
 

@@ -19,9 +19,7 @@ the calorimeter–jacket gap):
 The energy equivalent is ``ε = Q_el / ΔT_c,el`` with the corrected rise of the heater event
 from the same temperature-rise engine as the reaction.
 
-Caution: calorimeter heaters are electrical circuits in contact with (often conducting,
-sometimes corrosive) liquids. Use isolated low-voltage supplies, keep connections dry and
-follow your local electrical-safety rules.
+Safety: see :data:`calwork.core.safety.SAFETY_NOTE`.
 """
 
 from __future__ import annotations

@@ -26,6 +26,7 @@ from typing import Any
 import numpy as np
 
 from calwork.core.errors import CalworkError
+from calwork.core.text import format_table
 from calwork.rise.engine import corrected_rise
 
 __all__ = ["MethodValidation", "ValidationResult", "validate_methods"]
@@ -95,16 +96,6 @@ class ValidationResult:
                               "max |err| ppm", "mean u ppm", "|err| ≤ 2u"), rows)
         notes = "\n".join(f"note: {w}" for w in self.warnings)
         return "\n".join(p for p in (head, table, notes) if p)
-
-
-def format_table(headers, rows) -> str:
-    """Plain-text table, numbers right-aligned."""
-    cells = [[str(c) for c in row] for row in rows]
-    widths = [max(len(h), *(len(r[i]) for r in cells)) for i, h in enumerate(headers)]
-    lines = ["  ".join(h.ljust(w) for h, w in zip(headers, widths, strict=True)),
-             "  ".join("-" * w for w in widths)]
-    lines += ["  ".join(c.rjust(w) for c, w in zip(r, widths, strict=True)) for r in cells]
-    return "\n".join(lines)
 
 
 def _scenario(params) -> tuple[Any, float, str]:
