@@ -430,18 +430,16 @@ NOTES = (
 def washburn_correction(
     combustibles: Sequence[Combustible],
     *,
-    bomb_volume_L: float,
-    o2_pressure_MPa: float,
-    bomb_water_g: float,
-    nitric_acid_mol: float = 0.0,
-    soot_g: float = 0.0,
-    temperature_K: float = T_REF_K,
     states: tuple[BombState, BombState] | None = None,
+    **conditions: float,
 ) -> WashburnResult:
     """The Washburn correction ΔU_Σ (J) of a bomb combustion, with its terms.
 
-    Parameters are those of :func:`bomb_states`; ``states`` may pass the states it
-    already computed for the same parameters.
+    ``conditions`` are the keyword parameters of :func:`bomb_states` (``bomb_volume_L``,
+    ``o2_pressure_MPa``, ``bomb_water_g``, and optionally ``nitric_acid_mol``, ``soot_g``,
+    ``temperature_K``); ``states`` may pass the states :func:`bomb_states` already computed
+    for them, and the conditions are then not needed. The cross-virial model is always the
+    recommended one (the other enters the uncertainty).
 
     Examples
     --------
@@ -454,11 +452,9 @@ def washburn_correction(
     >>> 18 < r.correction_J / 3.0 < 26
     True
     """
-    initial, final = states or bomb_states(
-        combustibles, bomb_volume_L=bomb_volume_L, o2_pressure_MPa=o2_pressure_MPa,
-        bomb_water_g=bomb_water_g, nitric_acid_mol=nitric_acid_mol, soot_g=soot_g,
-        temperature_K=temperature_K,
-    )
+    if "cross_model" in conditions:
+        raise TypeError("washburn_correction always uses the recommended cross-virial model")
+    initial, final = states or bomb_states(combustibles, **conditions)
     terms = _terms(initial, final, RECOMMENDED_CROSS_MODEL)
     correction = sum(terms.values())
     # the cross-virial model: the other GERG-2008 fit evaluated on the same states (for
@@ -479,7 +475,7 @@ def washburn_correction(
     u = math.sqrt(sum(v * v for v in components.values()))
     return WashburnResult(
         correction_J=correction, u_correction_J=u, u_components_J=components, terms_J=terms,
-        initial=initial, final=final, temperature_K=temperature_K, notes=NOTES,
+        initial=initial, final=final, temperature_K=final.temperature_K, notes=NOTES,
         source=_props()["source"]["citation"],
     )
 

@@ -121,34 +121,23 @@ class CalworkError(Exception):
     def __str__(self) -> str:
         return self._render()
 
-    def __reduce__(self):  # picklable with all structured fields
-        kwargs = {
-            "path": self.path,
-            "line": self.line,
-            "column": self.column,
-            "run": self.run,
-            "expected": self.expected,
-            **self.extra,
-        }
+    def _fields(self) -> dict[str, Any]:
+        """The structured fields, as keyword arguments of the constructor."""
+        kwargs = {"path": self.path, "line": self.line, "column": self.column, "run": self.run,
+                  "expected": self.expected, **self.extra}
         if self._has_found:
             kwargs["found"] = self.found
-        return (_rebuild, (type(self), self.message, kwargs))
+        return kwargs
+
+    def __reduce__(self):  # picklable with all structured fields
+        return (_rebuild, (type(self), self.message, self._fields()))
 
     def with_context(self, **fields: Any) -> CalworkError:
         """Return a copy of this error with location fields filled in where missing."""
-        kwargs = {
-            "path": self.path,
-            "line": self.line,
-            "column": self.column,
-            "run": self.run,
-            "expected": self.expected,
-            **self.extra,
-        }
+        kwargs = self._fields()
         for key, value in fields.items():
             if kwargs.get(key) is None:
                 kwargs[key] = value
-        if self._has_found:
-            kwargs["found"] = self.found
         return type(self)(self.message, **kwargs)
 
 

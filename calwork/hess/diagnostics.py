@@ -34,6 +34,7 @@ __all__ = [
     "Inflation",
     "Offender",
     "Residual",
+    "Screening",
     "anchor_conflicts",
     "anchor_label",
     "consistency",
@@ -78,17 +79,13 @@ class Consistency:
 
 
 @dataclass(frozen=True, kw_only=True)
-class Offender:
-    """One step of the worst-offender ordering."""
+class _Step:
+    """What every worst-offender step records about the row it acted on."""
 
     step: int
     id: str
-    #: |r/u| of the row when it was named
+    #: |r/u| of the row when it was acted on
     score: float
-    #: |z| (standardised residual) of the row when it was named
-    z: float
-    chi2_before: float
-    chi2_after: float
     #: eligible rows the data cannot tell apart from this one (same |z|)
     indistinguishable_from: tuple[str, ...] = ()
     #: anchors (key values) that tie with this row: the conflict is with them
@@ -99,6 +96,16 @@ class Offender:
         d["indistinguishable_from"] = list(self.indistinguishable_from)
         d["conflicts_with"] = list(self.conflicts_with)
         return d
+
+
+@dataclass(frozen=True, kw_only=True)
+class Offender(_Step):
+    """One step of the worst-offender ordering (the row removed)."""
+
+    #: |z| (standardised residual) of the row when it was named
+    z: float
+    chi2_before: float
+    chi2_after: float
 
     def describe(self) -> str:
         """One readable sentence for reports and terminal output."""
@@ -114,23 +121,11 @@ class Offender:
 
 
 @dataclass(frozen=True, kw_only=True)
-class Inflation:
+class Inflation(_Step):
     """One down-weighting step: ``id``'s standard uncertainty went from ``old_u`` to ``new_u``."""
 
-    step: int
-    id: str
     old_u_kJ_per_mol: float
     new_u_kJ_per_mol: float
-    #: |r/u| before the change
-    score: float
-    indistinguishable_from: tuple[str, ...] = ()
-    conflicts_with: tuple[str, ...] = ()
-
-    def to_dict(self) -> dict[str, object]:
-        d = dict(self.__dict__)
-        d["indistinguishable_from"] = list(self.indistinguishable_from)
-        d["conflicts_with"] = list(self.conflicts_with)
-        return d
 
 
 def anchor_label(row_id: str) -> str:
@@ -222,21 +217,29 @@ def anchor_conflicts(records: Sequence[Residual], anchors: set[str],
             if rec.id in anchors and _testable(rec) and rec.score > threshold]
 
 
-def worst_offender_order(
-    solve: Callable[[np.ndarray, np.ndarray], tuple[list[Residual], Consistency]],
-    u: np.ndarray,
-    ids: Sequence[str],
-    eligible: set[str],
-    *,
-    threshold: float,
-    max_steps: int,
-) -> tuple[list[Offender], list[Residual]]:
+@dataclass(frozen=True, kw_only=True)
+class Screening:
+    """What the worst-offender procedures work on.
+
+    ``solve(keep_mask, u)`` re-solves the network with the rows of ``keep_mask`` and the
+    standard uncertainties ``u`` and returns the rows' residual records and the consistency;
+    ``u`` and ``ids`` are the rows' uncertainties and ids; only ``eligible`` rows may be
+    removed or widened (never key values or anchors).
+    """
+
+    solve: Callable[[np.ndarray, np.ndarray], tuple[list[Residual], Consistency]]
+    u: np.ndarray
+    ids: tuple[str, ...]
+    eligible: frozenset[str]
+
+
+def worst_offender_order(screen: Screening, *, threshold: float,
+                         max_steps: int) -> tuple[list[Offender], list[Residual]]:
     """Remove the worst row (largest |r/u|) and re-solve, until every |z| ≤ ``threshold``.
 
-    ``solve(keep_mask, u)`` re-solves with the rows of ``keep_mask`` and returns their
-    residual records and the consistency. Rows outside ``eligible`` are never removed.
     Returns the removal order and the residuals of the network without the removed rows.
     """
+    solve, u, ids, eligible = screen.solve, screen.u, screen.ids, screen.eligible
     keep = np.ones(len(ids), dtype=bool)
     order: list[Offender] = []
     records, cons = solve(keep, u)
@@ -259,22 +262,15 @@ def worst_offender_order(
     return order, records
 
 
-def inflate_until_consistent(
-    solve: Callable[[np.ndarray, np.ndarray], tuple[list[Residual], Consistency]],
-    u: np.ndarray,
-    ids: Sequence[str],
-    eligible: set[str],
-    *,
-    threshold: float,
-    factor: float,
-    max_steps: int,
-) -> tuple[np.ndarray, list[Inflation], bool]:
+def inflate_until_consistent(screen: Screening, *, threshold: float, factor: float,
+                             max_steps: int) -> tuple[np.ndarray, list[Inflation], bool]:
     """Multiply the worst row's u by ``factor`` and re-solve until every |z| ≤ threshold.
 
     Returns the adjusted uncertainties, the record of every change, and whether the
     procedure converged (every eligible row consistent) within ``max_steps``.
     """
-    u = np.array(u, dtype=float)
+    solve, ids, eligible = screen.solve, screen.ids, screen.eligible
+    u = np.array(screen.u, dtype=float)
     keep = np.ones(len(ids), dtype=bool)
     log: list[Inflation] = []
     for step in range(1, max_steps + 2):

@@ -24,6 +24,7 @@ import scipy.sparse as sp
 from calwork.core.constants import T_REF_K
 from calwork.core.errors import NetworkError, check_choice
 from calwork.hess.diagnostics import (
+    Screening,
     anchor_conflicts,
     anchor_label,
     consistency,
@@ -336,14 +337,14 @@ def solve_network(
     warnings = list(asm.warnings)
     order: list = []
     remaining = []
+    screen = Screening(solve=solver, u=asm.u, ids=tuple(asm.ids), eligible=frozenset(eligible))
     if mode != "none":
-        order, remaining = worst_offender_order(solver, asm.u, asm.ids, eligible,
-                                                threshold=threshold, max_steps=max_offenders)
+        order, remaining = worst_offender_order(screen, threshold=threshold,
+                                                max_steps=max_offenders)
     u_final, inflations = asm.u, []
     if mode == "inflate":
         u_final, inflations, converged = inflate_until_consistent(
-            solver, asm.u, asm.ids, eligible, threshold=threshold, factor=inflation_factor,
-            max_steps=max_steps)
+            screen, threshold=threshold, factor=inflation_factor, max_steps=max_steps)
         if not converged:
             warnings.append(f"worst-offender-not-converged: after {len(inflations)} widening "
                             f"steps some determination still has |z| > {threshold:g}")

@@ -80,6 +80,18 @@ def cvd_resistance_ohm(
     return float(out) if out.ndim == 0 else out
 
 
+
+def _positive_resistance(R_ohm) -> np.ndarray:
+    """``R_ohm`` as an array, refused unless every value is a positive finite resistance."""
+    R = np.asarray(R_ohm, dtype=float)
+    bad = ~np.isfinite(R) | (R <= 0.0)
+    if np.any(bad):
+        raise SensorRangeError(
+            "resistance must be a positive finite number",
+            found=float(R.flat[int(np.flatnonzero(bad.ravel())[0])]), expected="R > 0 ohm",
+        )
+    return R
+
 def cvd_temperature_C(
     R_ohm, R0_ohm: float = 100.0, A: float = CVD_A_PER_C, B: float = CVD_B_PER_C2,
     C: float = CVD_C_PER_C4, *, tol_C: float = 1e-10, max_iter: int = 50,
@@ -117,13 +129,7 @@ def cvd_temperature_C(
     >>> round(cvd_temperature_C(138.5055), 3)
     100.0
     """
-    R = np.asarray(R_ohm, dtype=float)
-    bad = ~np.isfinite(R) | (R <= 0.0)
-    if np.any(bad):
-        raise SensorRangeError(
-            "resistance must be a positive finite number",
-            found=float(R.flat[int(np.flatnonzero(bad.ravel())[0])]), expected="R > 0 ohm",
-        )
+    R = _positive_resistance(R_ohm)
     ratio = R / R0_ohm
     if B == 0.0:
         t = (ratio - 1.0) / A
@@ -173,13 +179,7 @@ def steinhart_hart_temperature_K(R_ohm, a: float, b: float, c: float):
     >>> round(steinhart_hart_temperature_K(10000.0, 1.129148e-3, 2.34125e-4, 8.76741e-8), 4)
     298.1497
     """
-    R = np.asarray(R_ohm, dtype=float)
-    bad = ~np.isfinite(R) | (R <= 0.0)
-    if np.any(bad):
-        raise SensorRangeError(
-            "resistance must be a positive finite number",
-            found=float(R.flat[int(np.flatnonzero(bad.ravel())[0])]), expected="R > 0 ohm",
-        )
+    R = _positive_resistance(R_ohm)
     x = np.log(R)
     inv = a + b * x + c * x**3
     if np.any(inv <= 0.0):

@@ -27,6 +27,7 @@ from calwork.report.texts import (
     is_simulated,
     primary_rise,
     simulated_runs,
+    unit_of_budget_key,
 )
 
 __all__ = ["Document", "Figure", "Paragraph", "Section", "Table", "build_document", "fmt"]
@@ -97,20 +98,12 @@ def _png(draw: Callable[[Any], None], size: tuple[float, float]) -> bytes:
     return buf.getvalue()
 
 
-def _unit(key: str) -> str:
-    for suffix, unit in (("_J_per_K", "J/K"), ("_J_per_g", "J/g"), ("_kJ_per_mol", "kJ/mol"),
-                         ("_percent", "%"), ("_relative", "1")):
-        if key.endswith(suffix):
-            return unit
-    return ""
-
-
 def _budget_table(budget: Any, default_unit: str = "") -> Table:
     rows = []
     for key, value in budget.items():
         if not isinstance(value, (int, float)) or isinstance(value, bool):
             continue
-        unit = _unit(key) or default_unit
+        unit = unit_of_budget_key(key) or default_unit
         name = key
         for suffix in ("_J_per_K", "_J_per_g", "_kJ_per_mol", "_percent"):
             name = name.removesuffix(suffix)

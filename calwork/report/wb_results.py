@@ -19,7 +19,7 @@ from calwork.formula import ATOMIC_WEIGHT_SOURCE, element_counts
 from calwork.report.formulas import Const, Expr, Ref, average, count, func, quadrature, sqrt
 from calwork.report.formulas import stdev as stdev_of
 from calwork.report.plan import Plan, Table
-from calwork.report.texts import SIMULATED_NOTE, simulated_runs
+from calwork.report.texts import SIMULATED_NOTE, simulated_runs, unit_of_budget_key
 from calwork.report.wb_runs import runs_of
 
 __all__ = [
@@ -187,14 +187,6 @@ def _budget_row(table: Table, row: int, series: str, quantity: str, component: s
     return table.put(row, "value", content)
 
 
-def _unit(key: str) -> str:
-    for suffix, unit in (("_J_per_K", "J/K"), ("_J_per_g", "J/g"), ("_kJ_per_mol", "kJ/mol"),
-                         ("_percent", "%"), ("_relative", "1")):
-        if key.endswith(suffix):
-            return unit
-    return ""
-
-
 def _calibration_budget(plan: Plan, table: Table, row: int, c: Any) -> int:
     b = dict(c.budget)
     name, q = c.calorimeter, "energy equivalent ε"
@@ -233,7 +225,7 @@ def _calibration_budget(plan: Plan, table: Table, row: int, c: Any) -> int:
         if isinstance(value, (int, float)) and math.isfinite(value):
             # components without a unit suffix are J/K, like u(ε) (calwork.solution.chain)
             _budget_row(table, row, name, q, f"(information) {key}", float(value),
-                        _unit(key) or "J/K")
+                        unit_of_budget_key(key) or "J/K")
             row += 1
     ref = _budget_row(table, row, name, q, "combined u(ε) = √(Σ u_i²)", total_content, "J/K",
                       "formula" if not isinstance(total_content, float) else "calwork")
@@ -289,7 +281,7 @@ def _sample_budget(plan: Plan, table: Table, row: int, s: Any) -> int:
         if key in ("key_values_kJ_per_mol", "u_delta_c_H_kJ_per_mol", "u_delta_f_H_kJ_per_mol"):
             continue  # these are written as formulas on the Formation sheet
         if isinstance(value, (int, float)) and math.isfinite(value):
-            quantity, unit = "", _unit(key)
+            quantity, unit = "", unit_of_budget_key(key)
             if s.kind != "combustion" and not unit:
                 # the solution chain's sample budget is in kJ/mol (calwork.solution.samples)
                 unit = "kJ/mol"

@@ -198,6 +198,19 @@ def _jessup(plan: Plan, table: Table, row: int, run: Any, info: Any, m: Ref | No
                                                  f"Jessup factor of run {run.run}"))
 
 
+
+def _run_rows(plan: Plan, grid: Any, cols: list, runs: list[Any]) -> tuple[Table, list]:
+    """A per-run table with the common trailing columns, its common cells filled; and per
+    run its spreadsheet row, the run and its run-sheet row (or ``None``)."""
+    table = Table(grid, 1, [*cols, *_TAIL])
+    infos = _infos(plan)
+    rows = []
+    for i, run in enumerate(runs):
+        info = infos.get(run.run)
+        _common(table, 2 + i, run, info)
+        rows.append((2 + i, run, info))
+    return table, rows
+
 def plan_calibration_runs(plan: Plan, runs: list[Any]) -> None:
     """ε = (m·q·f + Σ corrections + R)/ΔT_c for every calibration run, as a formula."""
     grid = plan.grid(CALIBRATION_RUNS)
@@ -212,14 +225,9 @@ def plan_calibration_runs(plan: Plan, runs: list[Any]) -> None:
                    "d(t − 25)]"), "0.00000000"),
         *_CONTENTS,
         ("eps", "energy equivalent ε = (m·q·f + Σ corr + R)/ΔT_c (J/K)", "0.000"),
-        *_TAIL,
     ]
-    table = Table(grid, 1, cols)
-    infos = _infos(plan)
-    for i, run in enumerate(runs):
-        row = 2 + i
-        info = infos.get(run.run)
-        _common(table, row, run, info)
+    table, rows = _run_rows(plan, grid, cols, runs)
+    for row, run, info in rows:
         table.put(row, "material", run.details.get("reference_material") or run.sample)
         m = _mass(plan, table, row, run, info)
         q = table.put(row, "cert", detail(run.details, "certified_J_per_g"))
@@ -253,15 +261,11 @@ def plan_sample_runs(plan: Plan, runs: list[Any]) -> None:
         ("du", "massic energy Δu = −(ε·ΔT_c − R − Σ corr)/m (J/g)", "0.00"),
         ("washburn", "standard-state (Washburn) correction ΔU_Σ (J)", "0.000"),
         ("du0", "standard massic energy Δu° = Δu + ΔU_Σ/m (J/g)", "0.00"),
-        *_TAIL,
     ]
-    table = Table(grid, 1, cols)
-    infos = _infos(plan)
-    for i, run in enumerate(runs):
-        row = 2 + i
-        _common(table, row, run, infos.get(run.run))
+    table, rows = _run_rows(plan, grid, cols, runs)
+    for row, run, info in rows:
         table.put(row, "sample", run.sample)
-        m = _mass(plan, table, row, run, infos.get(run.run))
+        m = _mass(plan, table, row, run, info)
         mean = plan.refs.get(("eps_mean", run.calorimeter or ""))
         eps = table.put(row, "eps", mean if mean is not None and run.error is None
                         else run.energy_equivalent_J_per_K)
@@ -303,13 +307,9 @@ def plan_solution_runs(plan: Plan, runs: list[Any]) -> None:
         ("q", "reaction heat (J)", "0.0000"),
         ("h", "molar enthalpy (kJ/mol)", "0.000"), ("u_h", "u(molar enthalpy) (kJ/mol)", "0.000"),
         ("molality", "final molality (mol/kg)", "0.00000"),
-        *_TAIL,
     ]
-    table = Table(grid, 1, cols)
-    infos = _infos(plan)
-    for i, run in enumerate(runs):
-        row = 2 + i
-        _common(table, row, run, infos.get(run.run))
+    table, rows = _run_rows(plan, grid, cols, runs)
+    for row, run, _info in rows:
         table.put(row, "kind", run.kind)
         table.put(row, "sample", run.sample)
         table.put(row, "rise", run.corrected_rise_K)

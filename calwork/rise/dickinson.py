@@ -41,16 +41,8 @@ def dickinson_rise_K(t_i_s: float, t_f_s: float, t_x_s: float, T_i_K: float, T_f
 
 def dickinson_exact_tx_s(t_i_s: float, t_f_s: float, T_mean_i_K: float, T_mean_f_K: float,
                          integral_T_K_s: float) -> float:
-    """The equal-area time ``t_x`` of (1.7), s.
-
-    Parameters
-    ----------
-    t_i_s, t_f_s
-        Start and end of the main period, s.
-    T_mean_i_K, T_mean_f_K
-        Mean temperatures of the fore and after periods, K.
-    integral_T_K_s
-        ``∫_{t_i}^{t_f} T dt`` over the main-period readings, K·s.
+    """The equal-area time ``t_x`` of (1.7), s (parameters as for
+    :func:`calwork.rise.regnault_pfaundler.regnault_pfaundler_exchange_K`).
 
     Examples
     --------

@@ -46,20 +46,11 @@ def regnault_pfaundler_exchange_K(t_i_s: float, t_f_s: float, g_i_K_per_s: float
 def regnault_pfaundler_rise_K(t_i_s: float, t_f_s: float, T_i_K: float, T_f_K: float,
                               g_i_K_per_s: float, g_f_K_per_s: float, T_mean_i_K: float,
                               T_mean_f_K: float, integral_T_K_s: float) -> float:
-    """Corrected rise by Regnault–Pfaundler (1.4), K.
+    """Corrected rise by Regnault–Pfaundler (1.4), K: ``(T_f − T_i) − δT_ex``.
 
-    Parameters
-    ----------
-    t_i_s, t_f_s
-        Start and end of the main period, s.
-    T_i_K, T_f_K
-        Temperatures at ``t_i`` and ``t_f``, K (calwork uses the fitted drift lines there).
-    g_i_K_per_s, g_f_K_per_s
-        Fore and after drift rates, K/s.
-    T_mean_i_K, T_mean_f_K
-        Mean temperatures of the fore and after periods, K.
-    integral_T_K_s
-        ``∫_{t_i}^{t_f} T dt`` over the main-period readings, K·s.
+    ``T_i_K`` and ``T_f_K`` are the temperatures at ``t_i`` and ``t_f``, K (calwork uses the
+    fitted drift lines there); the other parameters are those of
+    :func:`regnault_pfaundler_exchange_K`.
 
     Examples
     --------

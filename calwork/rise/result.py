@@ -58,7 +58,34 @@ class DriftCurve:
 
 
 @dataclass(frozen=True, kw_only=True)
-class RiseResult:
+class NewtonianTerms:
+    """The Newtonian model of a reduction and its end-point temperatures (what a method
+    returns and the result reports alike).
+
+    Attributes
+    ----------
+    k_per_s, u_k_per_s
+        Exchange rate constant ``k`` and its standard uncertainty, 1/s.
+    T_inf_K, u_T_inf_K
+        Convergence temperature ``T_∞`` and its standard uncertainty, K.
+    T_initial_K, T_final_K
+        Temperatures at ``t_i`` (fitted fore curve) and ``t_f`` (fitted after curve), K.
+    fore_drift, after_drift
+        The fitted drift curves.
+    """
+
+    k_per_s: float
+    u_k_per_s: float
+    T_inf_K: float
+    u_T_inf_K: float
+    T_initial_K: float
+    T_final_K: float
+    fore_drift: DriftCurve
+    after_drift: DriftCurve
+
+
+@dataclass(frozen=True, kw_only=True)
+class RiseResult(NewtonianTerms):
     """The corrected temperature rise of one thermogram.
 
     Attributes
@@ -118,15 +145,7 @@ class RiseResult:
     main_end_s: float
     fore_period_s: tuple[float, float]
     after_period_s: tuple[float, float]
-    k_per_s: float
-    u_k_per_s: float
-    T_inf_K: float
-    u_T_inf_K: float
-    T_initial_K: float
-    T_final_K: float
     exchange_correction_K: float
-    fore_drift: DriftCurve
-    after_drift: DriftCurve
     t_x_s: float | None = None
     dickinson_rule: str | None = None
     noise_K: float | None = None

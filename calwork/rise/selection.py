@@ -16,7 +16,7 @@ import numpy as np
 from calwork.core.errors import PeriodDetectionError
 from calwork.core.thermogram import Thermogram
 from calwork.rise.periods import Periods
-from calwork.rise.result import DriftCurve
+from calwork.rise.result import NewtonianTerms
 
 __all__ = ["LineFit", "MethodOutput", "Selection", "fit_line", "select"]
 
@@ -128,21 +128,13 @@ def fit_line(t: np.ndarray, T: np.ndarray) -> LineFit:
                    dsq_K2=float(np.sum(np.diff(r) ** 2)), n=int(t.size))
 
 
-@dataclass(frozen=True, eq=False)
-class MethodOutput:
+@dataclass(frozen=True, eq=False, kw_only=True)
+class MethodOutput(NewtonianTerms):
     """What a method returns (before diagnostics are added)."""
 
     rise_K: float
     budget: dict[str, float]
-    k_per_s: float
-    u_k_per_s: float
-    T_inf_K: float
-    u_T_inf_K: float
-    T_initial_K: float
-    T_final_K: float
     exchange_K: float
-    fore_drift: DriftCurve
-    after_drift: DriftCurve
     sigma_K: float
     rho1: float
     durbin_watson: float

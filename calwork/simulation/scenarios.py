@@ -208,19 +208,11 @@ def build_scenario(
     return written
 
 
-def simulate_scenario(
-    kind: str,
-    out_dir: str | Path,
-    *,
-    params: CalorimeterParams | None = None,
-    runs: int = 5,
-    seed: int | None = 0,
-    fmt: str = "csv",
-    duration_s: float | None = None,
-) -> list[dict[str, Any]]:
+def simulate_scenario(kind: str, out_dir: str | Path, **options: Any) -> list[dict[str, Any]]:
     """Write a simulated scenario (logs + ``runs.csv``) and return the run-sheet rows written.
 
-    Same parameters as :func:`build_scenario` (which also returns the truth of every run).
+    ``options`` are the keyword parameters of :func:`build_scenario` (``params``, ``runs``,
+    ``seed``, ``fmt``, ``duration_s``), which also returns the truth of every run.
 
     Examples
     --------
@@ -229,5 +221,4 @@ def simulate_scenario(
     >>> [r["kind"] for r in rows]
     ['calibration', 'combustion']
     """
-    return [w.row for w in build_scenario(kind, out_dir, params=params, runs=runs, seed=seed,
-                                          fmt=fmt, duration_s=duration_s)]
+    return [w.row for w in build_scenario(kind, out_dir, **options)]
