@@ -26,6 +26,7 @@ __all__ = [
     "newton_temperature_K",
     "relaxation_factor_dk_s2",
     "relaxation_factor_s",
+    "relaxation_terms",
     "trapezoid_K_s",
     "trapezoid_weights_s",
 ]
@@ -60,6 +61,32 @@ def newton_drift_K_per_s(temperature_K, rate_constant_per_s, convergence_tempera
     return rate_constant_per_s * (np.subtract(convergence_temperature_K, temperature_K))
 
 
+def relaxation_terms(tau_s, rate_constant_per_s: float):
+    """``e^{−kτ}``, ``φ(τ, k)`` (s) and ``∂φ/∂k`` (s²) together — the kernel behind every
+    Newtonian curve in calwork (the joint fit, its Jacobian, the drift curves).
+
+    Below ``|k τ| = 10⁻³`` ``φ`` and ``∂φ/∂k`` come from their Taylor series (relative error
+    below 1e-14), above it from ``−expm1(−kτ)/k`` (no cancellation of ``1 − e^{−kτ}``) and
+    ``(τ e^{−kτ} − φ)/k``.
+
+    Examples
+    --------
+    >>> e, phi, dphi = relaxation_terms(100.0, 0.0)
+    >>> float(e), float(phi), float(dphi)
+    (1.0, 100.0, -5000.0)
+    """
+    tau = np.asarray(tau_s, dtype=float)
+    k = float(rate_constant_per_s)
+    x = k * tau
+    e = np.exp(-x)
+    if k == 0.0 or abs(k) * float(np.max(np.abs(tau), initial=0.0)) < _SERIES_LIMIT:
+        phi = tau * (1.0 - x * (0.5 - x * (1.0 / 6.0 - x / 24.0)))
+        dphi = tau * tau * (-0.5 + x * (1.0 / 3.0 - x * (0.125 - x / 30.0)))
+        return e, phi, dphi
+    phi = -np.expm1(-x) / k
+    return e, phi, (tau * e - phi) / k
+
+
 def relaxation_factor_s(tau_s, rate_constant_per_s: float):
     """``φ(τ, k) = (1 − e^{−kτ})/k``, s; equal to ``τ`` for ``k = 0`` (stable near 0).
 
@@ -77,22 +104,12 @@ def relaxation_factor_s(tau_s, rate_constant_per_s: float):
     >>> round(float(relaxation_factor_s(100.0, 1e-2)), 6)
     63.212056
     """
-    tau = np.asarray(tau_s, dtype=float)
-    k = float(rate_constant_per_s)
-    if k == 0.0 or abs(k) * float(np.max(np.abs(tau), initial=0.0)) < _SERIES_LIMIT:
-        x = k * tau
-        return tau * (1.0 - x * (0.5 - x * (1.0 / 6.0 - x / 24.0)))
-    return -np.expm1(-k * tau) / k
+    return relaxation_terms(tau_s, rate_constant_per_s)[1]
 
 
 def relaxation_factor_dk_s2(tau_s, rate_constant_per_s: float):
     """``∂φ/∂k`` of :func:`relaxation_factor_s`, s²: ``(τ e^{−kτ} − φ)/k`` (→ −τ²/2 at k = 0)."""
-    tau = np.asarray(tau_s, dtype=float)
-    k = float(rate_constant_per_s)
-    if k == 0.0 or abs(k) * float(np.max(np.abs(tau), initial=0.0)) < _SERIES_LIMIT:
-        x = k * tau
-        return tau * tau * (-0.5 + x * (1.0 / 3.0 - x * (0.125 - x / 30.0)))
-    return (tau * np.exp(-k * tau) - relaxation_factor_s(tau, k)) / k
+    return relaxation_terms(tau_s, rate_constant_per_s)[2]
 
 
 def drift_curve_K(t_s, t0_s: float, T0_K: float, drift0_K_per_s: float, rate_constant_per_s):

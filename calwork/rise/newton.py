@@ -16,33 +16,18 @@ linear. This is far faster than a general optimiser and gives the covariance dir
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass
 
 import numpy as np
 
 from calwork.core.errors import FitError
-from calwork.rise.drift import convergence_temperature_K
+from calwork.rise.drift import convergence_temperature_K, relaxation_terms
 from calwork.uncertainty import standard_uncertainty
 
 __all__ = ["NewtonFit", "fit_newton", "newton_rise"]
 
 #: Parameter order of :attr:`NewtonFit.params` and its covariance.
 PARAMETERS = ("theta_fore_K", "theta_after_K", "drift_ref_K_per_s", "k_per_s")
-_SERIES_LIMIT = 1e-3
-
-
-def _relax(tau: np.ndarray, k: float) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """``e^{−kτ}``, ``φ`` and ``∂φ/∂k`` together (one exponential)."""
-    x = k * tau
-    if k == 0.0 or abs(k) * float(np.max(np.abs(tau), initial=0.0)) < _SERIES_LIMIT:
-        e = np.exp(-x)
-        phi = tau * (1.0 - x * (0.5 - x * (1.0 / 6.0 - x / 24.0)))
-        dphi = tau * tau * (-0.5 + x * (1.0 / 3.0 - x * (0.125 - x / 30.0)))
-        return e, phi, dphi
-    e = np.exp(-x)
-    phi = (1.0 - e) / k
-    return e, phi, (tau * e - phi) / k
 
 
 def _line(t: np.ndarray, y: np.ndarray) -> tuple[float, float, float]:
@@ -123,32 +108,14 @@ class NewtonFit:
         c = self.after_t0_s if after else self.fore_t0_s
         th0 = float(self.params[1] if after else self.params[0])
         g, k = self.drift_ref_K_per_s, self.k_per_s
-        if isinstance(t_s, float | int):
-            return self._theta_scalar(float(t_s) - c, th0, g, k, after)
-        t = np.asarray(t_s, dtype=float)
-        tau = t - c
-        e, phi, dphi = _relax(np.atleast_1d(tau), k)
-        e, phi, dphi = e.reshape(tau.shape), phi.reshape(tau.shape), dphi.reshape(tau.shape)
+        scalar = isinstance(t_s, float | int)
+        tau = np.asarray(t_s, dtype=float) - c
+        e, phi, dphi = relaxation_terms(tau, k)
         value = th0 * e + g * phi
         zero = np.zeros_like(e)
         grad = np.stack([zero if after else e, e if after else zero, phi,
                          -th0 * tau * e + g * dphi])
-        return value, grad
-
-    @staticmethod
-    def _theta_scalar(tau: float, th0: float, g: float, k: float,
-                      after: bool) -> tuple[float, np.ndarray]:
-        x = k * tau
-        e = math.exp(-x)
-        if abs(x) < _SERIES_LIMIT:
-            phi = tau * (1.0 - x * (0.5 - x * (1.0 / 6.0 - x / 24.0)))
-            dphi = tau * tau * (-0.5 + x * (1.0 / 3.0 - x * (0.125 - x / 30.0)))
-        else:
-            phi = -math.expm1(-x) / k
-            dphi = (tau * e - phi) / k
-        grad = np.array([0.0 if after else e, e if after else 0.0, phi,
-                         -th0 * tau * e + g * dphi])
-        return th0 * e + g * phi, grad
+        return (float(value), grad) if scalar else (value, grad)
 
     def temperature_K(self, t_s, which: str) -> np.ndarray:
         """Temperature of the fitted fore or after curve at ``t_s``, K."""
@@ -214,7 +181,7 @@ def fit_newton(t_fore: np.ndarray, T_fore: np.ndarray, t_after: np.ndarray,
     converged = False
     it = 0
     for it in range(1, max_iterations + 1):  # noqa: B007 - iteration count is reported
-        e, phi, dphi = _relax(tau, p[3])
+        e, phi, dphi = relaxation_terms(tau, p[3])
         th0[:nf], th0[nf:] = p[0], p[1]
         r = y - (th0 * e + p[2] * phi)
         J[:nf, 0] = e[:nf]

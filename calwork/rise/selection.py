@@ -15,6 +15,7 @@ import numpy as np
 
 from calwork.core.errors import PeriodDetectionError
 from calwork.core.thermogram import Thermogram
+from calwork.rise.drift import trapezoid_K_s, trapezoid_weights_s
 from calwork.rise.periods import Periods
 from calwork.rise.result import NewtonianTerms
 
@@ -44,17 +45,13 @@ class Selection:
         hi = int(np.searchsorted(t, b, side="left"))
         tt = np.concatenate(([a], t[lo:hi], [b]))
         yy = np.concatenate(([np.interp(a, t, y)], y[lo:hi], [np.interp(b, t, y)]))
-        return float(np.sum(np.diff(tt) * (yy[1:] + yy[:-1])) * 0.5)
+        return trapezoid_K_s(tt, yy)
 
     def main_weights_sq_s2(self) -> float:
         """``Σ w_j²`` of the trapezoid weights over the main period, s²."""
         lo = int(np.searchsorted(self.t, self.t_i, side="right"))
         hi = int(np.searchsorted(self.t, self.t_f, side="left"))
-        tt = np.concatenate(([self.t_i], self.t[lo:hi], [self.t_f]))
-        d = np.diff(tt)
-        w = np.zeros(tt.size)
-        w[:-1] += 0.5 * d
-        w[1:] += 0.5 * d
+        w = trapezoid_weights_s(np.concatenate(([self.t_i], self.t[lo:hi], [self.t_f])))
         return float(w @ w)
 
     def previous_reading_s(self, steps: int = 1) -> float:
