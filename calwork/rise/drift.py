@@ -20,7 +20,9 @@ __all__ = [
     "corrected_rise_K",
     "cumulative_trapezoid_K_s",
     "drift_curve_K",
+    "drift_rate_K_per_s",
     "exchange_correction_K",
+    "exchange_from_drift_K",
     "newton_constants_from_drifts",
     "newton_drift_K_per_s",
     "newton_temperature_K",
@@ -36,8 +38,23 @@ __all__ = [
 _SERIES_LIMIT = 1e-3
 
 
+def drift_rate_K_per_s(temperature_K, reference_temperature_K: float, drift_ref_K_per_s: float,
+                       rate_constant_per_s: float):
+    """Newtonian drift rate about a reference temperature, ``g = g_r − k (T − T_r)``, K/s —
+    the form every rise method evaluates (finite when ``k → 0``).
+
+    Examples
+    --------
+    >>> float(drift_rate_K_per_s(298.0, 297.0, 2e-4, 1e-4))
+    0.0001
+    """
+    return drift_ref_K_per_s - rate_constant_per_s * np.subtract(temperature_K,
+                                                                 reference_temperature_K)
+
+
 def newton_drift_K_per_s(temperature_K, rate_constant_per_s, convergence_temperature_K):
-    """Newtonian drift rate ``g = k (T_∞ − T)`` (docs/methods.md (1.1) with ``w = 0``).
+    """Newtonian drift rate ``g = k (T_∞ − T)`` (docs/methods.md (1.1) with ``w = 0``):
+    :func:`drift_rate_K_per_s` about ``T_∞``, where the drift is zero.
 
     Parameters
     ----------
@@ -58,7 +75,7 @@ def newton_drift_K_per_s(temperature_K, rate_constant_per_s, convergence_tempera
     >>> float(newton_drift_K_per_s(298.0, 1e-4, 298.5))
     5e-05
     """
-    return rate_constant_per_s * (np.subtract(convergence_temperature_K, temperature_K))
+    return drift_rate_K_per_s(temperature_K, convergence_temperature_K, 0.0, rate_constant_per_s)
 
 
 def relaxation_terms(tau_s, rate_constant_per_s: float):
@@ -185,12 +202,39 @@ def cumulative_trapezoid_K_s(time_s, y) -> np.ndarray:
     return out
 
 
+def exchange_from_drift_K(span_s: float, drift_ref_K_per_s: float, rate_constant_per_s: float,
+                          theta_integral_K_s: float) -> float:
+    """Heat-exchange correction ``δT_ex = ∫ g dt`` (1.2) with the drift written about a
+    reference temperature ``T_r``: ``g = g_r − k (T − T_r)``, so
+    ``δT_ex = g_r (t_f − t_i) − k ∫ (T − T_r) dt``, K — the form every rise method uses
+    (finite when ``k → 0``).
+
+    Parameters
+    ----------
+    span_s
+        ``t_f − t_i``, s.
+    drift_ref_K_per_s
+        ``g_r``, the drift rate at ``T_r``, K/s.
+    rate_constant_per_s
+        ``k``, 1/s.
+    theta_integral_K_s
+        ``∫_{t_i}^{t_f} (T − T_r) dt`` over the main-period readings, K·s.
+
+    Examples
+    --------
+    >>> exchange_from_drift_K(100.0, 1e-4, 0.0, 50.0)
+    0.01
+    """
+    return drift_ref_K_per_s * span_s - rate_constant_per_s * theta_integral_K_s
+
+
 def exchange_correction_K(time_s, temperature_K, rate_constant_per_s: float,
                           convergence_temperature_K: float) -> float:
     """Heat-exchange correction ``δT_ex = ∫ k (T_∞ − T) dt`` over the readings, K (1.2).
 
     The integral runs over the given readings (trapezoid rule on their timestamps); pass the
-    main-period readings from ``t_i`` to ``t_f``.
+    main-period readings from ``t_i`` to ``t_f``. Evaluated by :func:`exchange_from_drift_K`
+    about the first reading.
 
     Examples
     --------
@@ -200,8 +244,10 @@ def exchange_correction_K(time_s, temperature_K, rate_constant_per_s: float,
     """
     t = np.asarray(time_s, dtype=float)
     T = np.asarray(temperature_K, dtype=float)
-    k = rate_constant_per_s
-    return float(k * (convergence_temperature_K * (t[-1] - t[0]) - trapezoid_K_s(t, T)))
+    T_r = float(T[0])
+    g_r = float(newton_drift_K_per_s(T_r, rate_constant_per_s, convergence_temperature_K))
+    return float(exchange_from_drift_K(float(t[-1] - t[0]), g_r, rate_constant_per_s,
+                                       trapezoid_K_s(t, T - T_r)))
 
 
 def corrected_rise_K(T_initial_K: float, T_final_K: float, exchange_correction_K: float) -> float:

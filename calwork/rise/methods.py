@@ -19,6 +19,7 @@ from calwork.rise.dickinson import dickinson_exact_tx_s, dickinson_rise_K, time_
 from calwork.rise.drift import (
     convergence_temperature_K,
     cumulative_trapezoid_K_s,
+    drift_rate_K_per_s,
     newton_constants_from_drifts,
 )
 from calwork.rise.newton import fit_newton, newton_rise
@@ -77,9 +78,11 @@ def reduce_newton(sel: Selection, start: Any = None) -> MethodOutput:
     }
     T_r = fit.reference_temperature_K
     th_f, th_a, g_r = (float(v) for v in fit.params[:3])
-    fore = DriftCurve(t0_s=fit.fore_t0_s, T0_K=T_r + th_f, drift0_K_per_s=g_r - k * th_f,
+    fore = DriftCurve(t0_s=fit.fore_t0_s, T0_K=T_r + th_f,
+                      drift0_K_per_s=drift_rate_K_per_s(th_f, 0.0, g_r, k),  # θ about T_r
                       k_per_s=k)
-    after = DriftCurve(t0_s=fit.after_t0_s, T0_K=T_r + th_a, drift0_K_per_s=g_r - k * th_a,
+    after = DriftCurve(t0_s=fit.after_t0_s, T0_K=T_r + th_a,
+                       drift0_K_per_s=drift_rate_K_per_s(th_a, 0.0, g_r, k),
                        k_per_s=k)
     return MethodOutput(
         rise_K=rise, budget=budget, k_per_s=k, u_k_per_s=math.sqrt(cov[3, 3]),
@@ -156,7 +159,7 @@ def _linear_output(sel: Selection, fl: LineFit, al: LineFit, rise: float, fit_u:
     budget.update(extra or {})
     if newtonian:  # the linear drift law g_i + s (T − T̄_i) is Newton's law with k = −s
         def drift(T):
-            return g_i - k * (T - fl.T_mean_K)
+            return drift_rate_K_per_s(T, fl.T_mean_K, g_i, k)
 
         fore = DriftCurve(t0_s=sel.t_i, T0_K=T_i, drift0_K_per_s=drift(T_i), k_per_s=k)
         after = DriftCurve(t0_s=sel.t_f, T0_K=T_f, drift0_K_per_s=drift(T_f), k_per_s=k)

@@ -21,7 +21,12 @@ from dataclasses import dataclass
 import numpy as np
 
 from calwork.core.errors import FitError
-from calwork.rise.drift import convergence_temperature_K, relaxation_terms
+from calwork.rise.drift import (
+    convergence_temperature_K,
+    corrected_rise_K,
+    exchange_from_drift_K,
+    relaxation_terms,
+)
 from calwork.uncertainty import standard_uncertainty
 
 __all__ = ["NewtonFit", "fit_newton", "newton_rise"]
@@ -257,8 +262,8 @@ def newton_rise(fit: NewtonFit, t_i_s: float, t_f_s: float,
     th_f, gr_f = fit.theta(t_f_s, "after")
     g, k = fit.drift_ref_K_per_s, fit.k_per_s
     span = t_f_s - t_i_s
-    exchange = g * span - k * theta_integral_K_s
-    rise = float(th_f - th_i) - exchange
+    exchange = exchange_from_drift_K(span, g, k, theta_integral_K_s)
+    rise = corrected_rise_K(float(th_i), float(th_f), exchange)
     grad = gr_f - gr_i
     grad = grad + np.array([0.0, 0.0, -span, theta_integral_K_s])
     parts = {

@@ -13,6 +13,12 @@ equal intervals).
 
 from __future__ import annotations
 
+from calwork.rise.drift import (
+    corrected_rise_K,
+    exchange_from_drift_K,
+    newton_constants_from_drifts,
+)
+
 __all__ = ["regnault_pfaundler_exchange_K", "regnault_pfaundler_rise_K"]
 
 
@@ -39,8 +45,8 @@ def regnault_pfaundler_exchange_K(t_i_s: float, t_f_s: float, g_i_K_per_s: float
     0.0
     """
     span = t_f_s - t_i_s
-    s = (g_f_K_per_s - g_i_K_per_s) / (T_mean_f_K - T_mean_i_K)
-    return g_i_K_per_s * span + s * (integral_T_K_s - T_mean_i_K * span)
+    k, _ = newton_constants_from_drifts(g_i_K_per_s, g_f_K_per_s, T_mean_i_K, T_mean_f_K)
+    return exchange_from_drift_K(span, g_i_K_per_s, k, integral_T_K_s - T_mean_i_K * span)
 
 
 def regnault_pfaundler_rise_K(t_i_s: float, t_f_s: float, T_i_K: float, T_f_K: float,
@@ -60,5 +66,5 @@ def regnault_pfaundler_rise_K(t_i_s: float, t_f_s: float, T_i_K: float, T_f_K: f
     ...                                 299.0, 29800.0), 9)
     2.0
     """
-    return (T_f_K - T_i_K) - regnault_pfaundler_exchange_K(
-        t_i_s, t_f_s, g_i_K_per_s, g_f_K_per_s, T_mean_i_K, T_mean_f_K, integral_T_K_s)
+    return corrected_rise_K(T_i_K, T_f_K, regnault_pfaundler_exchange_K(
+        t_i_s, t_f_s, g_i_K_per_s, g_f_K_per_s, T_mean_i_K, T_mean_f_K, integral_T_K_s))
