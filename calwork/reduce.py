@@ -6,8 +6,7 @@ corrected temperature rise (:func:`calwork.rise.corrected_rise`, with the row's
 reference-material runs, reduces the combustion runs with the calibration of their
 calorimeter, averages each sample's series with its uncertainty budget and solves the
 formation enthalpies through :func:`calwork.hess.combustion_link_many` with the covariance of
-the samples. Rows of kind ``electrical``, ``solution`` and ``blank`` go to
-:func:`calwork.solution.chain.reduce_solution_runs`.
+the samples.
 
 A failing run never disappears: it comes back as a :class:`~calwork.core.results.RunResult` with
 ``error`` set (naming the run and the column), and the rest of the sheet is reduced.
@@ -18,26 +17,32 @@ Safety: see :data:`calwork.core.safety.SAFETY_NOTE`.
 from __future__ import annotations
 
 import sys
-from collections.abc import Mapping, Sequence
+from collections.abc import Callable, Sequence
 from dataclasses import replace
 from pathlib import Path
 from typing import Any
 
 from calwork.bomb.calibration import DEFAULT_RSD_LIMIT_PERCENT
-from calwork.bomb.chain import reduce_calibration_run, reduce_combustion_run, run_error
-from calwork.bomb.series import calibration_series, formation_enthalpies, sample_series
-from calwork.core.errors import CalworkError, DuplicateRunError, RunError
+from calwork.bomb.pipeline import reduce_bomb_runs
+from calwork.core.errors import DuplicateRunError, RunError, check_choice
 from calwork.core.provenance import Provenance
-from calwork.core.results import CalibrationResult, Reduction, RunResult, SampleResult
-from calwork.core.runinfo import RunInfo
+from calwork.core.results import ChainResult, Reduction, RunResult, failed_run
+from calwork.core.runinfo import BOMB_KINDS, RUN_KINDS, SOLUTION_KINDS, RunInfo
+from calwork.io import read_run_sheet, unknown_columns
+from calwork.rise import METHODS
+from calwork.solution.chain import reduce_solution_runs
 
-__all__ = ["BOMB_KINDS", "SOLUTION_KINDS", "reduce_runs", "reduce_sheet"]
+__all__ = ["CHAINS", "reduce_runs", "reduce_sheet"]
 
-#: Run kinds reduced by the bomb chain.
-BOMB_KINDS = ("calibration", "combustion")
-#: Run kinds handed to the solution chain.
-SOLUTION_KINDS = ("electrical", "solution", "blank")
 _DEFAULT_CALORIMETER = "default"
+
+#: The energy chains, keyed on the run kinds each reduces (the kinds are defined once, in
+#: :mod:`calwork.core.runinfo`). Each takes its rows and keyword options and returns a
+#: :class:`~calwork.core.results.ChainResult`.
+CHAINS: tuple[tuple[tuple[str, ...], Callable[..., ChainResult]], ...] = (
+    (BOMB_KINDS, reduce_bomb_runs),
+    (SOLUTION_KINDS, reduce_solution_runs),
+)
 
 
 class _Progress:
@@ -64,44 +69,6 @@ class _Progress:
             sys.stderr.flush()
 
 
-def _methods() -> Sequence[str]:
-    from calwork.rise import METHODS
-
-    return tuple(METHODS)
-
-
-def _read_and_rise(info: RunInfo, method: str) -> tuple[Any, Any]:
-    """The run's thermogram and RiseResult (either may be a CalworkError)."""
-    from calwork.io import load_run_log
-    from calwork.rise import corrected_rise
-
-    try:
-        tg = load_run_log(info)
-    except CalworkError as exc:
-        return exc, None
-    try:
-        rise = corrected_rise(tg, method, event=info.event, fire_time_s=info.fire_time_s,
-                              main_end_s=info.main_end_s)
-    except CalworkError as exc:
-        return tg, exc
-    return tg, rise
-
-
-def _solution(rows: list[RunInfo], method: str, thermograms: Mapping[str, Any]
-              ) -> tuple[list[RunResult], list[CalibrationResult], list[SampleResult]]:
-    try:
-        from calwork.solution.chain import reduce_solution_runs
-    except ModuleNotFoundError as exc:
-        if not (exc.name or "").startswith("calwork.solution"):
-            raise
-        err = RunError("this run kind is not supported yet (calwork.solution.chain is missing)",
-                       column="kind")
-        return [run_error(info, err.with_context(found=info.kind)) for info in rows], [], []
-    runs, cals, samples = reduce_solution_runs(rows, method=method, thermograms=thermograms,
-                                               rises=None)
-    return list(runs), list(cals), list(samples)
-
-
 def reduce_runs(
     runs: Sequence[RunInfo],
     *,
@@ -109,7 +76,8 @@ def reduce_runs(
     progress: bool = False,
     rsd_limit_percent: float | None = DEFAULT_RSD_LIMIT_PERCENT,
 ) -> Reduction:
-    """Reduce the rows of a run sheet.
+    """Reduce the rows of a run sheet: each row goes to the energy chain of its kind
+    (:data:`CHAINS`).
 
     Parameters
     ----------
@@ -129,9 +97,7 @@ def reduce_runs(
         Calibrations, every run (failures with ``error``), samples, the covariance of the
         samples, and the rows and thermograms read.
     """
-    from calwork.core.errors import check_choice
-
-    check_choice("method", method, _methods())
+    check_choice("method", method, METHODS)
     seen: set[str] = set()
     for r in runs:
         if r.run in seen:
@@ -144,113 +110,46 @@ def reduce_runs(
     if unnamed:
         warnings.append(f"no calorimeter given for runs {unnamed}: treated as calorimeter "
                         f"{_DEFAULT_CALORIMETER!r}")
-    unknown = sorted({k for r in runs for k in r.extra})
-    try:
-        from calwork.io import unknown_columns
-
-        unknown = unknown_columns(runs)
-    except ImportError:
-        pass
+    unknown = unknown_columns(runs)
     if unknown:
         warnings.append(f"unknown columns kept but not used: {unknown}")
 
-    bar = _Progress(len(rows), progress)
-    thermograms: dict[str, Any] = {}
     results: dict[str, RunResult] = {}
-    rises: dict[str, Any] = {}
-    solution_rows: list[RunInfo] = []
     for info in rows:
         if info.problems:  # found while reading the sheet leniently: report, don't drop
-            results[info.run] = run_error(info, info.problems[0])
-        elif info.kind in SOLUTION_KINDS:
-            from calwork.io import load_run_log
-
-            try:
-                thermograms[info.run] = load_run_log(info)
-            except CalworkError as exc:
-                thermograms[info.run] = exc
-            solution_rows.append(info)
-        elif info.kind in BOMB_KINDS:
-            tg, rise = _read_and_rise(info, method)
-            thermograms[info.run] = tg
-            if isinstance(tg, CalworkError):
-                results[info.run] = run_error(info, tg)
-            elif isinstance(rise, CalworkError):
-                results[info.run] = run_error(info, rise)
-            else:
-                rises[info.run] = rise
-        else:
-            results[info.run] = run_error(info, RunError(
+            results[info.run] = failed_run(info, info.problems[0])
+        elif info.kind not in RUN_KINDS:
+            results[info.run] = failed_run(info, RunError(
                 "unknown run kind", column="kind", found=info.kind,
-                expected=f"one of {list(BOMB_KINDS + SOLUTION_KINDS)}"))
-        bar.step(info.run)
+                expected=f"one of {list(RUN_KINDS)}"))
+    bar = _Progress(len(rows), progress)
+    for info in rows:
+        if info.run in results:
+            bar.step(info.run)
+    options = {reduce_bomb_runs: {"rsd_limit_percent": rsd_limit_percent}}
+    parts: list[ChainResult] = []
+    for kinds, chain in CHAINS:
+        mine = [info for info in rows if info.kind in kinds and info.run not in results]
+        if mine:
+            parts.append(chain(mine, method=method, on_run=bar.step, **options.get(chain, {})))
     bar.close()
 
-    # calibrations, per calorimeter
-    by_cal: dict[str, list[RunResult]] = {}
-    for info in rows:
-        if info.kind == "calibration" and info.run in rises:
-            try:
-                res = reduce_calibration_run(info, rises[info.run])
-            except CalworkError as exc:
-                res = run_error(info, exc, rise=rises[info.run])
-            results[info.run] = res
-            if res.error is None:
-                by_cal.setdefault(info.calorimeter, []).append(res)
-    calibrations: dict[str, CalibrationResult] = {}
-    for cal, members in by_cal.items():
-        try:
-            calibrations[cal] = calibration_series(cal, members,
-                                                   rsd_limit_percent=rsd_limit_percent)
-        except CalworkError as exc:
-            warnings.append(f"calorimeter {cal!r}: {exc}")
-
-    # combustion runs and sample series
-    series: dict[str, list[tuple[RunResult, RunInfo]]] = {}
-    for info in rows:
-        if info.kind == "combustion" and info.run in rises:
-            try:
-                res = reduce_combustion_run(info, rises[info.run],
-                                            calibrations.get(info.calorimeter))
-            except CalworkError as exc:
-                res = run_error(info, exc, rise=rises[info.run])
-            results[info.run] = res
-            if res.error is None:
-                series.setdefault(info.sample or info.formula or info.run, []).append(
-                    (res, info))
-    samples: list[SampleResult] = []
-    terms = []
-    conventions = []
-    for name, members in series.items():
-        try:
-            s, t = sample_series(name, [m[0] for m in members], [m[1] for m in members],
-                                 calibrations)
-        except CalworkError as exc:
-            warnings.append(f"sample {name!r}: {exc}")
-            continue
-        samples.append(s)
-        terms.append(t)
-        conventions.append(members[0][0].details["sulfur_convention"])
-    covariance: dict[str, Any] = {}
-    if samples:
-        samples, covariance = formation_enthalpies(samples, terms, conventions)
-
-    cal_list = list(calibrations.values())
-    if solution_rows:
-        s_runs, s_cals, s_samples = _solution(solution_rows, method, thermograms)
-        for res in s_runs:
-            results[res.run] = res
-        cal_list += s_cals
-        samples += s_samples
-    ordered = [results[info.run] for info in rows if info.run in results]
-    good = {k: v for k, v in thermograms.items() if not isinstance(v, CalworkError)}
+    read: dict[str, Any] = {}
+    for part in parts:
+        results.update((r.run, r) for r in part.runs)
+        read.update(part.thermograms)
+        warnings.extend(part.warnings)
+    covariance = next((p.covariance for p in parts if p.covariance), {})
+    thermograms = {info.run: read[info.run] for info in rows if info.run in read}
     prov = Provenance(importer="calwork.reduce.reduce_runs", method=method,
                       constants=_constants_used(),
-                      parents=tuple(tg.provenance for tg in good.values()
+                      parents=tuple(tg.provenance for tg in thermograms.values()
                                     if getattr(tg, "provenance", None) is not None))
-    return Reduction(calibrations=cal_list, runs=ordered, samples=samples,
+    return Reduction(calibrations=[c for p in parts for c in p.calibrations],
+                     runs=[results[info.run] for info in rows],
+                     samples=[s for p in parts for s in p.samples],
                      covariance=covariance, method=method, provenance=prov,
-                     warnings=warnings, run_infos=runs, thermograms=good)
+                     warnings=warnings, run_infos=runs, thermograms=thermograms)
 
 
 def _constants_used() -> dict[str, str]:
@@ -277,8 +176,6 @@ def reduce_sheet(
     CalworkError
         If the sheet itself cannot be read (single runs that fail are reported in the result).
     """
-    from calwork.io import read_run_sheet
-
     runs = read_run_sheet(path, strict=False)
     red = reduce_runs(runs, method=method, progress=progress,
                       rsd_limit_percent=rsd_limit_percent)

@@ -26,11 +26,12 @@ import numpy as np
 import openpyxl
 import pytest
 
-from calwork.bomb.chain import reduce_calibration_run, reduce_combustion_run, run_error
+from calwork.bomb.chain import reduce_calibration_run, reduce_combustion_run
 from calwork.bomb.series import calibration_series, formation_enthalpies, sample_series
 from calwork.core.errors import CalworkError
 from calwork.core.provenance import Provenance, sha256_bytes
 from calwork.core.results import Reduction
+from calwork.core.results import failed_run as failed_result
 from calwork.core.runinfo import RunInfo
 from calwork.rise import corrected_rise
 from calwork.simulation import CalorimeterParams, CombustionPulse, simulate_run
@@ -118,7 +119,7 @@ def demo_reduction(*, sample: str = "naphthalene", formula: str = "C10H8",
             try:
                 res = reduce_combustion_run(info, rises[info.run], cal)
             except CalworkError as exc:
-                res = run_error(info, exc, rise=rises[info.run])
+                res = failed_result(info, exc, rise=rises[info.run])
             results[info.run] = res
             if res.error is None:
                 series.setdefault(info.sample, []).append((res, info))

@@ -18,6 +18,12 @@ from calwork.simulation import CalorimeterParams, FirstOrderRelease, HeaterInter
 from calwork.solution.analysis import SolutionOptions
 from calwork.solution.chain import reduce_solution_runs
 
+
+def _chain(*args, **kwargs):
+    """The chain's runs, calibrations and samples, as lists."""
+    res = reduce_solution_runs(*args, **kwargs)
+    return list(res.runs), list(res.calibrations), list(res.samples)
+
 # A small semi-adiabatic vessel: ε = 300 J/K, k = G/ε = 1e-3 1/s (docs/methods.md §1.1 ranges)
 VESSEL = CalorimeterParams.solution_preset(bomb_heat_capacity_J_per_K=40.0,
                                            water_heat_capacity_J_per_K=260.0,
@@ -57,7 +63,7 @@ def test_dissolution_end_to_end_within_0_1_percent():
         logs[run] = _log(-n * H_kJ * 1000.0, seed=100 + k)
         infos.append(_info(run, sample="salt", amount_mol=n))
         truth[run] = H_kJ
-    runs, cals, samples = reduce_solution_runs(infos, thermograms=logs)
+    runs, cals, samples = _chain(infos, thermograms=logs)
     assert cals == []
     for r in runs:
         assert r.error is None, r.error
@@ -86,7 +92,7 @@ def test_tris_reference_reactions_are_recovered(name, J_per_g, u_J_per_g):
     mass_g = 0.5
     heat_released = -J_per_g * mass_g  # ΔH < 0 releases heat into the calorimeter
     tg = _log(heat_released, seed=7, tau_s=15.0)
-    (r,), _, (s,) = reduce_solution_runs(
+    (r,), _, (s,) = _chain(
         [_info("T1", sample=name, formula=TRIS, mass_g=mass_g)], thermograms={"T1": tg})
     assert r.error is None, r.error
     M = molar_mass_g_per_mol(TRIS)
@@ -108,7 +114,7 @@ def test_calibration_basis_options_and_referral():
     info = _info("R1", amount_mol=0.002)
     out = {}
     for basis in ("before", "after", "mean"):
-        (r,), _, _ = reduce_solution_runs([info], thermograms={"R1": tg},
+        (r,), _, _ = _chain([info], thermograms={"R1": tg},
                                           options=SolutionOptions(calibration=basis))
         out[basis] = r
     rise = out["mean"].rise[1]
@@ -121,7 +127,7 @@ def test_calibration_basis_options_and_referral():
     assert out["mean"].energy_equivalent_J_per_K == pytest.approx((eps_a + eps_b) / 2)
     # only a calibration after the reaction: 'auto' takes it (and refers to T_i)
     tg_after = _log(-35.0, seed=12, heaters=(False, True))
-    (r,), _, _ = reduce_solution_runs([info], thermograms={"R1": tg_after})
+    (r,), _, _ = _chain([info], thermograms={"R1": tg_after})
     assert r.details["calibration_basis"] == "after"
     assert r.molar_enthalpy_kJ_per_mol == pytest.approx(17.5, rel=1e-3)
 
@@ -140,7 +146,7 @@ def test_electrical_series_with_standard_resistor_serves_runs_without_calibratio
                              standard_resistor_ohm=10.0))
     logs["D1"] = _log(-30.0, seed=210, heaters=(False, False))
     infos.append(_info("D1", amount_mol=0.0015, sample="no-cal"))
-    runs, (cal,), (_s,) = reduce_solution_runs(infos, thermograms=logs)
+    runs, (cal,), (_s,) = _chain(infos, thermograms=logs)
     assert [r.error for r in runs] == [None] * 4
     assert cal.n_runs == 3
     assert cal.method == "electrical"
@@ -153,7 +159,7 @@ def test_electrical_series_with_standard_resistor_serves_runs_without_calibratio
     assert "calibration_series" in d.details["budget_kJ_per_mol"]
     # missing R_s: the electrical run fails naming the column; the others still reduce
     bad = [replace(infos[0], standard_resistor_ohm=None), *infos[1:]]
-    runs, (cal,), _ = reduce_solution_runs(bad, thermograms=logs)
+    runs, (cal,), _ = _chain(bad, thermograms=logs)
     assert runs[0].error is not None
     assert "standard_resistor_ohm" in runs[0].error
     assert "'E0'" in runs[0].error
@@ -167,19 +173,19 @@ def test_sheet_heater_power_and_times_without_channels():
     bare = replace(sim.thermogram, channels={})
     info = RunInfo(run="E1", kind="electrical", calorimeter="C1", heater_power_W=P_HEATER,
                    heater_on_s=300.0, heater_off_s=600.0)
-    (r,), (cal,), _ = reduce_solution_runs([info], thermograms={"E1": bare})
+    (r,), (cal,), _ = _chain([info], thermograms={"E1": bare})
     assert r.error is None, r.error
     assert r.heater_energy_J == pytest.approx(15.0)
     assert r.energy_equivalent_J_per_K == pytest.approx(EPS, rel=5e-4)
     assert cal.n_runs == 1
     assert cal.warnings
     # heater power given without the on/off times -> error naming the column
-    (r,), cals, _ = reduce_solution_runs([replace(info, heater_on_s=None, heater_off_s=None)],
+    (r,), cals, _ = _chain([replace(info, heater_on_s=None, heater_off_s=None)],
                                          thermograms={"E1": bare})
     assert "heater_on_s" in r.error
     assert cals == []
     # an electrical run with no heater data at all
-    (r,), _, _ = reduce_solution_runs([replace(info, heater_power_W=None, heater_on_s=None,
+    (r,), _, _ = _chain([replace(info, heater_power_W=None, heater_on_s=None,
                                                heater_off_s=None)], thermograms={"E1": bare})
     assert "heater" in r.error
 
@@ -195,7 +201,7 @@ def test_failing_runs_are_returned_with_their_error():
     ]
     logs = {"A": tg, "B": tg, "C": tg, "E": tg,
             "D": LogFormatError("no temperature column", path="d.csv", line=3)}
-    runs, _, samples = reduce_solution_runs(infos, thermograms=logs)
+    runs, _, samples = _chain(infos, thermograms=logs)
     assert [r.run for r in runs] == ["A", "B", "C", "D", "E"]
     assert "amount_mol" in runs[0].error
     assert "'A'" in runs[0].error
@@ -213,7 +219,7 @@ def test_simulated_day_kcl_series_blanks_and_infinite_dilution(tmp_path):
     assert truth["simulated"] is True
     assert all("simulated" in str(r["notes"]) for r in rows)
     infos = read_run_sheet(tmp_path / "solution_runs.csv")
-    runs, (cal,), (kcl,) = reduce_solution_runs(infos)
+    runs, (cal,), (kcl,) = _chain(infos)
     assert all(r.error is None for r in runs), [r.error for r in runs if r.error]
     assert cal.n_runs == 3
     assert cal.energy_equivalent_J_per_K == pytest.approx(360.0, rel=5e-4)
@@ -252,7 +258,7 @@ def test_simulated_day_kcl_series_blanks_and_infinite_dilution(tmp_path):
 def test_sheet_heater_times_refine_the_channel_interval_and_options_are_checked():
     tg = _log(-35.0, seed=17)
     info = _info("H1", amount_mol=0.002, heater_on_s=300.0, heater_off_s=600.0)
-    (r,), _, _ = reduce_solution_runs([info], thermograms={"H1": tg})
+    (r,), _, _ = _chain([info], thermograms={"H1": tg})
     cal = r.details["calibrations"][0]
     assert cal["energy_source"] == "sheet times, channel power"
     assert (cal["heater_on_s"], cal["heater_off_s"]) == (300.0, 600.0)

@@ -48,7 +48,7 @@ from calwork.data import load_data
 from calwork.formula import element_counts, molar_mass_g_per_mol
 
 __all__ = ["BombConditions", "bomb_conditions", "reduce_calibration_run",
-           "reduce_combustion_run", "run_error"]
+           "reduce_combustion_run"]
 
 _M_S = 32.06  # conventional atomic weight of sulfur (CIAAW), g/mol
 
@@ -105,16 +105,6 @@ def bomb_conditions(info: Any) -> BombConditions:
                             "bomb condition) assumed")
     return BombConditions(bomb_volume_L=V, o2_pressure_MPa=p,
                           bomb_water_g=_nonneg(w, "bomb_water_g"), warnings=tuple(warnings))
-
-
-def run_error(info: Any, exc: CalworkError, *, rise: Any = None) -> RunResult:
-    """A RunResult that carries ``exc`` (with the run's sheet location) and no numbers."""
-    err = exc.with_context(run=info.run, path=getattr(info, "sheet_path", None),
-                           line=getattr(info, "line", None))
-    return RunResult(run=info.run, kind=info.kind, sample=info.sample,
-                     calorimeter=info.calorimeter, error=str(err), rise=rise,
-                     corrected_rise_K=getattr(rise, "corrected_rise_K", None),
-                     u_corrected_rise_K=getattr(rise, "u_corrected_rise_K", None))
 
 
 def _vacuum_mass(info: Any, density: float | None, details: dict, warnings: list) -> float:

@@ -15,7 +15,8 @@ from typing import Any
 
 from calwork.core.provenance import Provenance
 
-__all__ = ["CalibrationResult", "Reduction", "RunResult", "SampleResult", "jsonable"]
+__all__ = ["CalibrationResult", "ChainResult", "Reduction", "RunResult", "SampleResult",
+           "failed_run", "jsonable"]
 
 
 def jsonable(value: Any) -> Any:
@@ -169,6 +170,26 @@ class SampleResult:
 
 
 @dataclass(frozen=True, kw_only=True)
+class ChainResult:
+    """What one energy chain (bomb or solution) returns for its rows of a run sheet."""
+
+    #: One RunResult per row given, in the same order (failures carry ``error``).
+    runs: tuple[RunResult, ...]
+    calibrations: tuple[CalibrationResult, ...] = ()
+    samples: tuple[SampleResult, ...] = ()
+    #: Covariance of the samples (bomb chain; see :attr:`Reduction.covariance`).
+    covariance: Mapping[str, Any] = field(default_factory=dict)
+    warnings: tuple[str, ...] = ()
+    #: Thermograms read, by run id (the ones that could be read).
+    thermograms: Mapping[str, Any] = field(default_factory=dict, repr=False)
+
+    def __post_init__(self) -> None:
+        _freeze(self, "covariance", "thermograms")
+        for name in ("calibrations", "runs", "samples", "warnings"):
+            object.__setattr__(self, name, tuple(getattr(self, name)))
+
+
+@dataclass(frozen=True, kw_only=True)
 class Reduction:
     """Everything ``calwork reduce`` produces for one run sheet."""
 
@@ -204,3 +225,15 @@ class Reduction:
             "warnings": list(self.warnings),
             "provenance": None if self.provenance is None else self.provenance.to_dict(),
         }
+
+
+def failed_run(info: Any, exc: Any, *, rise: Any = None) -> RunResult:
+    """A RunResult for the run-sheet row ``info`` that carries the error ``exc`` (a
+    :class:`~calwork.core.errors.CalworkError`, given the row's sheet location) and no numbers
+    beyond the rise, if one was computed. A failing run is reported, never dropped."""
+    err = exc.with_context(run=info.run, path=getattr(info, "sheet_path", None),
+                           line=getattr(info, "line", None))
+    return RunResult(run=info.run, kind=info.kind, sample=info.sample,
+                     calorimeter=info.calorimeter, error=str(err), rise=rise,
+                     corrected_rise_K=getattr(rise, "corrected_rise_K", None),
+                     u_corrected_rise_K=getattr(rise, "u_corrected_rise_K", None))

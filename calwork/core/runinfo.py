@@ -7,10 +7,15 @@ from dataclasses import dataclass, field, fields
 from pathlib import Path
 from types import MappingProxyType
 
-__all__ = ["EXTENSION_COLUMNS", "RUN_KINDS", "RUN_SHEET_COLUMNS", "RunInfo"]
+__all__ = ["BOMB_KINDS", "EXTENSION_COLUMNS", "RUN_KINDS", "RUN_SHEET_COLUMNS", "SOLUTION_KINDS",
+           "RunInfo"]
 
+#: Run kinds of the oxygen-bomb chain (:func:`calwork.bomb.pipeline.reduce_bomb_runs`).
+BOMB_KINDS = ("calibration", "combustion")
+#: Run kinds of the solution chain (:func:`calwork.solution.chain.reduce_solution_runs`).
+SOLUTION_KINDS = ("electrical", "solution", "blank")
 #: The run kinds a sheet may name (contract).
-RUN_KINDS = ("calibration", "combustion", "electrical", "solution", "blank")
+RUN_KINDS = BOMB_KINDS + SOLUTION_KINDS
 
 #: Contract columns of a run sheet and their Python types (``float`` cells in the units of the
 #: name's suffix). Blank cells mean "not given".

@@ -26,7 +26,6 @@ from calwork.report.plan import Plan, Table, detail
 from calwork.report.texts import primary_rise, rise_method
 
 __all__ = [
-    "SOLUTION_KINDS",
     "ordered_bomb_runs",
     "plan_calibration_runs",
     "plan_corrections",
@@ -35,7 +34,6 @@ __all__ = [
     "runs_of",
 ]
 
-SOLUTION_KINDS = ("electrical", "solution", "blank")
 
 CORRECTIONS = "Corrections"
 CALIBRATION_RUNS = "Calibration runs"

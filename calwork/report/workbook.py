@@ -25,6 +25,7 @@ from typing import Any
 
 from calwork.core.errors import ExportError
 from calwork.core.provenance import calwork_version, sha256_file
+from calwork.core.runinfo import SOLUTION_KINDS
 from calwork.core.safety import SAFETY_NOTE
 from calwork.report.grid import new_workbook, save_workbook
 from calwork.report.output import atomic_target
@@ -39,7 +40,6 @@ from calwork.report.wb_results import (
     plan_summary_samples,
 )
 from calwork.report.wb_runs import (
-    SOLUTION_KINDS,
     ordered_bomb_runs,
     plan_calibration_runs,
     plan_corrections,

@@ -37,15 +37,15 @@ computed, the enthalpy at infinite dilution. A failing run comes back as a RunRe
 from __future__ import annotations
 
 import math
-from collections.abc import Mapping, Sequence
+from collections.abc import Callable, Mapping, Sequence
 from typing import Any
 
 import numpy as np
 
 from calwork.core.errors import CalibrationError, CalworkError, RunError
 from calwork.core.provenance import Provenance
-from calwork.core.results import CalibrationResult, RunResult, SampleResult
-from calwork.core.runinfo import RunInfo
+from calwork.core.results import CalibrationResult, ChainResult, RunResult, failed_run
+from calwork.core.runinfo import SOLUTION_KINDS, RunInfo
 from calwork.core.thermogram import Thermogram
 from calwork.io import load_run_log
 from calwork.solution.analysis import LogAnalysis, SolutionOptions, analyse_log
@@ -62,19 +62,7 @@ from calwork.solution.reaction import (
 from calwork.solution.samples import solution_samples
 from calwork.solution.vaporisation import vaporisation_correction_J
 
-__all__ = ["SOLUTION_KINDS", "reduce_solution_runs"]
-
-#: Run-sheet kinds handled by this chain.
-SOLUTION_KINDS = ("blank", "electrical", "solution")
-
-
-def _message(info: RunInfo, exc: CalworkError) -> str:
-    return str(exc.with_context(run=info.run, path=info.sheet_path, line=info.line))
-
-
-def _failed(info: RunInfo, message: str) -> RunResult:
-    return RunResult(run=info.run, kind=info.kind, sample=info.sample,
-                     calorimeter=info.calorimeter, error=message)
+__all__ = ["reduce_solution_runs"]
 
 
 def _thermogram(info: RunInfo, thermograms: Mapping[str, Any] | None) -> Thermogram:
@@ -288,7 +276,8 @@ def reduce_solution_runs(
     thermograms: Mapping[str, Any] | None = None,
     rises: Mapping[str, Sequence[Any]] | None = None,
     options: SolutionOptions | None = None,
-) -> tuple[list[RunResult], list[CalibrationResult], list[SampleResult]]:
+    on_run: Callable[[str], None] | None = None,
+) -> ChainResult:
     """Reduce the solution-calorimetry rows of a run sheet.
 
     Parameters
@@ -303,25 +292,36 @@ def reduce_solution_runs(
         ``None`` (compute each event's rise), or per run the RiseResults of its events.
     options
         :class:`SolutionOptions`.
+    on_run
+        Called with each run id once its log is read (a progress bar).
 
     Returns
     -------
-    (run_results, calibrations, samples)
+    ChainResult
         One RunResult per input row (same order; failures carry ``error``), one
         CalibrationResult per calorimeter with electrical runs, one SampleResult per
-        solution sample.
+        solution sample, and the thermograms read.
     """
     opts = options or SolutionOptions()
     results: dict[str, RunResult] = {}
+    read: dict[str, Thermogram] = {}
     analyses: dict[str, tuple[LogAnalysis, Thermogram]] = {}
     for info in runs:
         if info.kind not in SOLUTION_KINDS:
-            results[info.run] = _failed(info, _message(info, RunError(
+            results[info.run] = failed_run(info, RunError(
                 "not a solution-calorimetry run", column="kind", found=info.kind,
-                expected=f"one of {list(SOLUTION_KINDS)}")))
+                expected=f"one of {list(SOLUTION_KINDS)}"))
             continue
         try:
             tg = _thermogram(info, thermograms)
+        except CalworkError as exc:
+            results[info.run] = failed_run(info, exc)
+            continue
+        finally:
+            if on_run is not None:
+                on_run(info.run)
+        read[info.run] = tg
+        try:
             analyses[info.run] = (analyse_log(
                 tg, method=method, heater_power_W_sheet=info.heater_power_W,
                 heater_on_s=info.heater_on_s, heater_off_s=info.heater_off_s,
@@ -330,7 +330,7 @@ def reduce_solution_runs(
                 expect_reaction=info.kind != "electrical", options=opts,
                 rises=None if rises is None else rises.get(info.run)), tg)
         except CalworkError as exc:
-            results[info.run] = _failed(info, _message(info, exc))
+            results[info.run] = failed_run(info, exc)
 
     pending = [info for info in runs if info.run in analyses]
     # 1. stand-alone electrical calibrations -> one series per calorimeter
@@ -340,7 +340,7 @@ def reduce_solution_runs(
         try:
             result, budget = _electrical_run(info, analysis, tg, method)
         except CalworkError as exc:
-            results[info.run] = _failed(info, _message(info, exc))
+            results[info.run] = failed_run(info, exc)
             continue
         results[info.run] = result
         by_cal.setdefault(_calorimeter(info), []).append((result, budget))
@@ -353,7 +353,7 @@ def reduce_solution_runs(
         try:
             result = _blank_run(info, analysis, tg, method, series.get(_calorimeter(info)))
         except CalworkError as exc:
-            results[info.run] = _failed(info, _message(info, exc))
+            results[info.run] = failed_run(info, exc)
             continue
         results[info.run] = result
         blank_items.setdefault(_calorimeter(info), []).append(result)
@@ -376,10 +376,11 @@ def reduce_solution_runs(
                 info, analysis, tg, method, series.get(name), blanks.get(name), opts,
                 blanks_with_vapour=no_volume.get(name, ()))
         except CalworkError as exc:
-            results[info.run] = _failed(info, _message(info, exc))
+            results[info.run] = failed_run(info, exc)
     ordered = [results[info.run] for info in runs]
     infos = {info.run: info for info in runs}
     samples = solution_samples([r for r in ordered if r.kind == "solution"], infos,
                                phi_L_model=opts.phi_L_model,
                                shared_components=SHARED_COMPONENTS)
-    return ordered, list(series.values()), samples
+    return ChainResult(runs=ordered, calibrations=list(series.values()), samples=samples,
+                       thermograms=read)

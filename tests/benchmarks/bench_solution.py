@@ -65,7 +65,8 @@ def main(argv: list[str] | None = None) -> int:
     t_sim = time.perf_counter() - t0
     reduce_solution_runs(infos[:2], thermograms=logs, method=args.method)  # warm up imports
     t0, c0 = time.perf_counter(), time.process_time()
-    runs, _, samples = reduce_solution_runs(infos, thermograms=logs, method=args.method)
+    res = reduce_solution_runs(infos, thermograms=logs, method=args.method)
+    runs, samples = res.runs, res.samples
     elapsed, cpu = time.perf_counter() - t0, time.process_time() - c0
     failed = sum(r.error is not None for r in runs)
     errors = np.array([r.molar_enthalpy_kJ_per_mol / 17.5 - 1 for r in runs if r.error is None])
