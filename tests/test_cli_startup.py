@@ -20,13 +20,10 @@ def test_every_subcommand_is_registered_and_has_help(capsys):
 def test_choice_lists_match_the_registries_they_mirror():
     from calwork.cli import _choices
     from calwork.hess.network import WORST_OFFENDER_MODES
-    from calwork.rise import DICKINSON_RULES, METHODS
     from calwork.simulation import SCENARIOS
 
     assert set(_choices.WORST_OFFENDER_MODES) == set(WORST_OFFENDER_MODES)
     assert set(_choices.SCENARIOS) == set(SCENARIOS)
-    assert set(_choices.RISE_METHODS) == set(METHODS)
-    assert set(_choices.DICKINSON_RULES) == set(DICKINSON_RULES)
 
 
 def test_building_the_parser_imports_no_heavy_module():

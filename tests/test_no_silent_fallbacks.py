@@ -146,7 +146,9 @@ def test_a_failed_boundary_component_is_reported_not_dropped(monkeypatch):
     def broken(*_args, **_kwargs):
         raise ConvergenceError("forced failure for the test")
 
-    monkeypatch.setattr(engine, "newton_rise_only", broken)
+    from calwork.rise import methods
+
+    monkeypatch.setattr(methods, "newton_rise_only", broken)  # the registry's warm re-run
     res = engine.corrected_rise(run.thermogram)
     assert any(w.startswith("boundary-component-incomplete") for w in res.warnings)
 

@@ -88,16 +88,16 @@ def test_cross_check_and_method_agreement(record, result):
 def test_methods_disagree_is_flagged(record, monkeypatch):
     # The cross-check rarely fires on real records (both methods read the same drifts); the
     # plumbing is checked by offsetting the RP value by 10 combined uncertainties.
-    import calwork.rise.engine as engine
+    import calwork.rise.methods as methods
 
-    real = engine.regnault_pfaundler_check
+    real = methods.regnault_pfaundler_check
     base = corrected_rise(record)
 
     def shifted(sel):
         rise, u = real(sel)
         return rise + 10 * base.u_corrected_rise_K, u
 
-    monkeypatch.setattr(engine, "regnault_pfaundler_check", shifted)
+    monkeypatch.setattr(methods, "regnault_pfaundler_check", shifted)  # the registry's check
     res = corrected_rise(record)
     flagged = [w for w in res.warnings if w.startswith("methods-disagree:")]
     assert len(flagged) == 1

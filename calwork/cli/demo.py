@@ -6,8 +6,8 @@ import argparse
 from importlib import resources
 from pathlib import Path
 
-from calwork.cli._choices import RISE_METHODS
 from calwork.cli._common import print_json, with_safety_note
+from calwork.rise.registry import METHODS
 
 __all__ = ["register", "run", "sample_sheet"]
 
@@ -33,7 +33,7 @@ def register(subparsers: argparse._SubParsersAction) -> None:
         formatter_class=argparse.RawDescriptionHelpFormatter)
     p.add_argument("--out", default="calwork-demo", metavar="DIR",
                    help="report folder to write (default: %(default)s)")
-    p.add_argument("--method", default="newton-fit", choices=RISE_METHODS,
+    p.add_argument("--method", default="newton-fit", choices=sorted(METHODS),
                    help="temperature-rise method (default: %(default)s)")
     p.add_argument("--no-plots", action="store_true", help="skip the per-run PNG plots")
     p.add_argument("--json", action="store_true",

@@ -14,18 +14,18 @@ import sys
 from pathlib import Path
 from typing import Any
 
-from calwork.cli._choices import RISE_METHODS
 from calwork.cli._common import print_json
 from calwork.core.errors import CalworkError, ExportError
 from calwork.core.results import Reduction
 from calwork.core.safety import SAFETY_NOTE
 from calwork.core.text import format_table
+from calwork.rise.registry import METHODS
 
 __all__ = ["reduction_markdown", "register", "write_outputs"]
 
 def register(subparsers: argparse._SubParsersAction) -> None:
     """Add the ``reduce`` subcommand."""
-    methods = sorted(RISE_METHODS)
+    methods = sorted(METHODS)
     p = subparsers.add_parser(
         "reduce", help="reduce a run sheet: calibrations, samples, formation enthalpies",
         description="Reduce every run of a run sheet (CSV, XLSX or TOML): corrected "

@@ -4,10 +4,10 @@ from __future__ import annotations
 
 import argparse
 
-from calwork.cli._choices import DICKINSON_RULES, RISE_METHODS
 from calwork.cli._common import print_json, with_safety_note
 from calwork.core.errors import ChoiceError
 from calwork.core.text import format_table
+from calwork.rise.registry import DICKINSON_RULES, METHODS
 
 __all__ = ["register", "run"]
 
@@ -38,7 +38,7 @@ def register(subparsers: argparse._SubParsersAction) -> None:
         formatter_class=argparse.RawDescriptionHelpFormatter,
     )
     p.add_argument("log", metavar="LOG", help="temperature log (.csv/.txt/... or .xlsx)")
-    p.add_argument("--method", default="newton-fit", choices=RISE_METHODS,
+    p.add_argument("--method", default="newton-fit", choices=sorted(METHODS),
                    help="temperature-rise method (default newton-fit)")
     p.add_argument("--dickinson-rule", default="equal-area", choices=DICKINSON_RULES,
                    help="t_x rule of the dickinson method (default equal-area)")

@@ -8,60 +8,55 @@
 * :class:`Periods`, :class:`RiseResult` — the records; :func:`plot_rise` — the figure;
 
 The pure Newtonian functions (``exchange_correction_K``, ``newton_drift_K_per_s``, the
-Regnault–Pfaundler and Dickinson formulas) are re-exported for direct use.
+Regnault–Pfaundler and Dickinson formulas) are re-exported for direct use. :data:`METHODS`
+is the registry of rise methods (:mod:`calwork.rise.registry`).
+
+Names are imported on first use (PEP 562), so that ``calwork.rise.registry`` — what the
+command line needs to build its help — loads no numerical code.
 """
 
-from calwork.rise.dickinson import (
-    DICKINSON_RULES,
-    dickinson_exact_tx_s,
-    dickinson_rise_K,
-    time_at_fraction_s,
-)
-from calwork.rise.drift import (
-    corrected_rise_K,
-    exchange_correction_K,
-    newton_constants_from_drifts,
-    newton_drift_K_per_s,
-    newton_temperature_K,
-)
-from calwork.rise.engine import corrected_rise
-from calwork.rise.events import find_events, list_heat_events
-from calwork.rise.methods import METHODS
-from calwork.rise.periods import Periods, detect_periods
-from calwork.rise.regnault_pfaundler import (
-    regnault_pfaundler_exchange_K,
-    regnault_pfaundler_rise_K,
-)
-from calwork.rise.result import DriftCurve, RiseResult
+from __future__ import annotations
 
-__all__ = [
-    "DICKINSON_RULES",
-    "METHODS",
-    "DriftCurve",
-    "Periods",
-    "RiseResult",
-    "corrected_rise",
-    "corrected_rise_K",
-    "detect_periods",
-    "dickinson_exact_tx_s",
-    "dickinson_rise_K",
-    "exchange_correction_K",
-    "find_events",
-    "list_heat_events",
-    "newton_constants_from_drifts",
-    "newton_drift_K_per_s",
-    "newton_temperature_K",
-    "plot_rise",
-    "regnault_pfaundler_exchange_K",
-    "regnault_pfaundler_rise_K",
-    "time_at_fraction_s",
-]
+from importlib import import_module
+from typing import Any
+
+#: public name -> submodule that defines it
+_WHERE = {
+    "DICKINSON_RULES": "registry",
+    "METHODS": "registry",
+    "RiseMethod": "registry",
+    "DriftCurve": "result",
+    "Periods": "periods",
+    "RiseResult": "result",
+    "corrected_rise": "engine",
+    "corrected_rise_K": "drift",
+    "detect_periods": "periods",
+    "dickinson_exact_tx_s": "dickinson",
+    "dickinson_rise_K": "dickinson",
+    "exchange_correction_K": "drift",
+    "find_events": "events",
+    "list_heat_events": "events",
+    "newton_constants_from_drifts": "drift",
+    "newton_drift_K_per_s": "drift",
+    "newton_temperature_K": "drift",
+    "plot_rise": "plot",
+    "regnault_pfaundler_exchange_K": "regnault_pfaundler",
+    "regnault_pfaundler_rise_K": "regnault_pfaundler",
+    "time_at_fraction_s": "dickinson",
+}
+
+__all__ = sorted(_WHERE)
 
 
-def __getattr__(name: str):
-    # plotting pulls in matplotlib: import it on first use
-    if name == "plot_rise":
-        from calwork.rise.plot import plot_rise
+def __getattr__(name: str) -> Any:
+    try:
+        module = _WHERE[name]
+    except KeyError:
+        raise AttributeError(f"module 'calwork.rise' has no attribute {name!r}") from None
+    value = getattr(import_module(f"calwork.rise.{module}"), name)
+    globals()[name] = value  # later look-ups skip this hook
+    return value
 
-        return plot_rise
-    raise AttributeError(f"module 'calwork.rise' has no attribute {name!r}")
+
+def __dir__() -> list[str]:
+    return sorted(__all__)

@@ -35,6 +35,7 @@ WARNING_CODES = {
     "autocorrelated-residuals": "drift-period residuals are serially correlated (Durbin–Watson)",
     "drift-implausible": "k ≤ 0 or T_∞ far from the jacket temperature",
     "methods-disagree": "newton-fit and Regnault–Pfaundler differ beyond their uncertainties",
+    "cross-check-failed": "the cross-check by another method could not be computed",
     "fire-time-late": "the given firing time is after the detected onset of the rise",
     "main-end-early": "the given end of the main period is before the detected plateau",
     "dickinson-60-percent": "the 60 % shortcut differs from the equal-area Dickinson value",

@@ -20,10 +20,7 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["DICKINSON_RULES", "dickinson_exact_tx_s", "dickinson_rise_K", "time_at_fraction_s"]
-
-#: The ``t_x`` rules of :func:`calwork.rise.corrected_rise` ``(method='dickinson')``.
-DICKINSON_RULES = ("equal-area", "60-percent")
+__all__ = ["dickinson_exact_tx_s", "dickinson_rise_K", "time_at_fraction_s"]
 
 
 def dickinson_rise_K(t_i_s: float, t_f_s: float, t_x_s: float, T_i_K: float, T_f_K: float,

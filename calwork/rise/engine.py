@@ -18,16 +18,9 @@ from calwork.core.errors import (
 from calwork.core.provenance import Provenance, calwork_version
 from calwork.core.thermogram import Thermogram
 from calwork.rise.diagnostics import format_times, sampling_gaps, warning
-from calwork.rise.dickinson import DICKINSON_RULES
 from calwork.rise.events import LogEvent, LogEvents, list_heat_events
-from calwork.rise.methods import (
-    METHODS,
-    newton_rise_only,
-    reduce_dickinson,
-    reduce_newton,
-    regnault_pfaundler_check,
-)
 from calwork.rise.periods import Periods, detect_periods
+from calwork.rise.registry import DICKINSON_RULES, METHODS, RiseMethod, rise_method
 from calwork.rise.result import RiseResult
 from calwork.rise.selection import MethodOutput, Selection, select
 from calwork.rise.tail import tail_correction, tail_model
@@ -72,7 +65,7 @@ def _apply_overrides(thermogram: Thermogram, periods: Periods | None, fire_time_
 
 
 def _boundary_component(thermogram: Thermogram, sel: Selection, out: MethodOutput,
-                        periods: Periods, reduce, warns: list[str]) -> float | None:
+                        periods: Periods, rerun, warns: list[str]) -> float | None:
     """Spread of ΔT_c over plausible boundaries when they were detected automatically.
 
     End of the main period: the method is repeated with the after period starting
@@ -90,8 +83,7 @@ def _boundary_component(thermogram: Thermogram, sel: Selection, out: MethodOutpu
                           after_period_s=(t_alt, periods.after_period_s[1]))
             try:
                 sub = select(thermogram, alt)
-                again = (newton_rise_only(sub, out.model) if reduce is reduce_newton
-                         else reduce(sub).rise_K)
+                again = rerun(sub, out)
                 parts.append(abs(again - out.rise_K))
             except CalworkError as exc:
                 warns.append(warning(
@@ -114,7 +106,7 @@ def _boundary_component(thermogram: Thermogram, sel: Selection, out: MethodOutpu
 
 
 def _tail_component(sel: Selection, out: MethodOutput, periods: Periods,
-                    reduce) -> float | None:
+                    rerun) -> float | None:
     """One-sided bias of ``ΔT_c`` from a slow transient still decaying after ``t_f``.
 
     The tail is fitted on the late main period (:func:`calwork.rise.tail.tail_model`), removed
@@ -129,8 +121,7 @@ def _tail_component(sel: Selection, out: MethodOutput, periods: Periods,
         return None
     sub = tail_correction(sel, *tail)
     try:
-        again = (newton_rise_only(sub, out.model) if reduce is reduce_newton
-                 else reduce(sub).rise_K)
+        again = rerun(sub, out)
     except CalworkError:
         return None
     b = abs(again - out.rise_K)
@@ -138,7 +129,7 @@ def _tail_component(sel: Selection, out: MethodOutput, periods: Periods,
 
 
 def _diagnostics(thermogram: Thermogram, sel: Selection, out: MethodOutput,
-                 u_rise: float, method: str) -> tuple[list[str], dict[str, float]]:
+                 u_rise: float, spec: RiseMethod) -> tuple[list[str], dict[str, float]]:
     warns: list[str] = []
     cross: dict[str, float] = {}
     gaps = sampling_gaps(sel.t)
@@ -163,19 +154,21 @@ def _diagnostics(thermogram: Thermogram, sel: Selection, out: MethodOutput,
     if rise != 0 and out.sigma_K / abs(rise) > NOISE_RELATIVE_LIMIT:
         warns.append(warning("noise-high", f"reading noise {out.sigma_K * 1e3:.3g} mK is "
                              f"{out.sigma_K / abs(rise):.2g} of the rise"))
-    if method == "newton-fit":
+    for name in spec.cross_checks:
+        check = METHODS[name]
         try:
-            rp, u_rp = regnault_pfaundler_check(sel)
-        except CalworkError:
-            rp = None
-        if rp is not None:
-            cross["regnault-pfaundler"] = rp
-            lim = 2.0 * math.hypot(u_rise, u_rp)
-            if abs(rp - rise) > lim:
-                warns.append(warning("methods-disagree", f"newton-fit {rise:.6f} K and "
-                                     f"Regnault–Pfaundler {rp:.6f} K differ by "
-                                     f"{(rp - rise) * 1e6:+.3g} µK (> {lim * 1e6:.3g} µK,"
-                                     " twice the combined uncertainty)"))
+            other, u_other = check.check_function()(sel)
+        except CalworkError as exc:
+            warns.append(warning("cross-check-failed", f"the {check.title} cross-check could "
+                                 f"not be computed ({exc.message})"))
+            continue
+        cross[name] = other
+        lim = 2.0 * math.hypot(u_rise, u_other)
+        if abs(other - rise) > lim:
+            warns.append(warning("methods-disagree", f"{spec.title} {rise:.6f} K and "
+                                 f"{check.title} {other:.6f} K differ by "
+                                 f"{(other - rise) * 1e6:+.3g} µK (> {lim * 1e6:.3g} µK,"
+                                 " twice the combined uncertainty)"))
     return warns, cross
 
 
@@ -235,7 +228,7 @@ def corrected_rise(thermogram: Thermogram, method: str = "newton-fit",
     >>> abs(res.corrected_rise_K / run.truth.adiabatic_rise_K - 1) < 1e-4
     True
     """
-    check_choice("method", method, METHODS)
+    spec = rise_method(method)
     check_choice("dickinson_rule", dickinson_rule, DICKINSON_RULES)
     whole = thermogram
     events: tuple = ()
@@ -253,37 +246,27 @@ def corrected_rise(thermogram: Thermogram, method: str = "newton-fit",
             events = tuple(_event_summary(e) for e in found.events)
     periods = _apply_overrides(thermogram, periods, fire_time_s, main_end_s)
     sel = select(thermogram, periods)
-    if method == "dickinson":
-        def reduce(s: Selection) -> MethodOutput:
-            return reduce_dickinson(s, dickinson_rule)
-    else:
-        reduce = METHODS[method]
-    out = reduce(sel)
+    options = {"dickinson_rule": dickinson_rule} if "dickinson_rule" in spec.options else {}
+    out = spec.reduce_function(**options)(sel)
+    rerun = spec.rerun_function(**options)
     budget = dict(out.budget)
     component_warnings: list[str] = []
-    boundary = _boundary_component(thermogram, sel, out, periods, reduce, component_warnings)
+    boundary = _boundary_component(thermogram, sel, out, periods, rerun, component_warnings)
     if boundary is not None:
         budget["boundary"] = boundary
-    tail = _tail_component(sel, out, periods, reduce)
+    tail = _tail_component(sel, out, periods, rerun)
     if tail is not None:
         budget["transient-tail"] = tail
     try:
         u = combine(budget)
     except CalworkError as exc:
         raise exc.with_context(path=thermogram.provenance.source_path) from None
-    warns, cross = _diagnostics(thermogram, sel, out, u, method)
+    warns, cross = _diagnostics(thermogram, sel, out, u, spec)
     warns.extend(component_warnings)
     if thermogram.metadata.get("time_unit_source") == "assumed":
         column = thermogram.metadata.get("time_column", "")
         warns.append(warning("time-unit-assumed", f"time column {column!r} names no unit, so "
                              "seconds were assumed; give the time unit if it is not s"))
-    conf = periods.fire_confidence
-    if (method == "dickinson" and dickinson_rule == "60-percent"
-            and periods.fire_source == "detected" and conf is not None and conf < 0.5):
-        warns.append(warning("boundary-uncertain", f"gradual onset (score {conf:.2f}): the "
-                             "heat release may start a reading or two before t_i = "
-                             f"{periods.fire_time_s:.6g} s, which moves the 60 % time; give "
-                             "the firing time"))
     all_warnings = [*periods.warnings, *out.warnings, *warns]
     if periods.spikes_s and not any(w.startswith("spikes-removed") for w in all_warnings):
         all_warnings.append(warning("spikes-removed", f"{len(periods.spikes_s)} reading(s) "
@@ -296,11 +279,10 @@ def corrected_rise(thermogram: Thermogram, method: str = "newton-fit",
         u_T_inf_K=out.u_T_inf_K, T_initial_K=out.T_initial_K, T_final_K=out.T_final_K,
         exchange_correction_K=out.exchange_K, fore_drift=out.fore_drift,
         after_drift=out.after_drift, t_x_s=out.t_x_s,
-        dickinson_rule=dickinson_rule if method == "dickinson" else None,
+        dickinson_rule=options.get("dickinson_rule"),
         noise_K=out.sigma_K, durbin_watson=out.durbin_watson, rho1=out.rho1,
         uncertainty_budget=budget, cross_check=cross, warnings=tuple(all_warnings),
-        provenance=Provenance(method=method if method != "dickinson" else
-                              f"dickinson ({dickinson_rule})",
+        provenance=Provenance(method=spec.label(**options),
                               importer="calwork.rise.corrected_rise",
                               parents=(whole.provenance,), calwork_version=_version()),
         events=events, event=chosen,

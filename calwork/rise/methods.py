@@ -28,7 +28,13 @@ from calwork.rise.result import DriftCurve
 from calwork.rise.selection import LineFit, MethodOutput, Selection, fit_line
 from calwork.rise.uncertainty import numeric_gradient, propagate
 
-__all__ = ["METHODS", "reduce_dickinson", "reduce_newton", "reduce_regnault_pfaundler"]
+__all__ = [
+    "newton_rise_only",
+    "reduce_dickinson",
+    "reduce_newton",
+    "reduce_regnault_pfaundler",
+    "regnault_pfaundler_check",
+]
 
 #: Longest straight drift line, in units of 1/k (the drift then changes by < 20 % along it).
 MAX_KL = 0.2
@@ -296,10 +302,12 @@ def regnault_pfaundler_check(sel: Selection) -> tuple[float, float]:
     return c["rise"], math.sqrt(c["fit_u"] ** 2 + c["curvature_u"] ** 2 + reading**2)
 
 
-def newton_rise_only(sel: Selection, start: Any) -> float:
-    """The newton-fit rise for other periods, warm-started from a fit of nearly the same."""
+def newton_rise_only(sel: Selection, previous: MethodOutput) -> float:
+    """The newton-fit rise for other periods, warm-started from the fit of ``previous`` (the
+    output for nearly the same periods)."""
     t, T = sel.t, sel.T
-    fit = fit_newton(t[sel.fore], T[sel.fore], t[sel.after], T[sel.after], start=start)
+    fit = fit_newton(t[sel.fore], T[sel.fore], t[sel.after], T[sel.after],
+                     start=previous.model)
     theta = T - fit.reference_temperature_K
     return newton_rise(fit, sel.t_i, sel.t_f, sel.integral(theta))[0]
 
@@ -319,12 +327,13 @@ def _dickinson_parts(sel: Selection, x: np.ndarray, T_ref: float, a: _Areas, rul
     return dickinson_rise_K(t_i, t_f, t_x, T_i, T_f, g_i, g_f), t_x, T_i, T_f
 
 
-def reduce_dickinson(sel: Selection, rule: str = "equal-area") -> MethodOutput:
+def reduce_dickinson(sel: Selection, dickinson_rule: str = "equal-area") -> MethodOutput:
     """Dickinson (1.6): drift lines extrapolated to ``t_x`` — the exact equal-area time (1.7)
     (end points as in :func:`reduce_regnault_pfaundler`; the result is the RP correction) or
     the 60 % time of the fuel standards (1.8), with the rates over the 5 min before firing and
     after the end of the main period and the temperatures at ``a`` and ``c`` from those lines.
     """
+    rule = dickinson_rule
     window = RATE_WINDOW_S if rule == "60-percent" else None
     sel, fl, al, sigma, rho, dw, f_ar, cov, x0 = _prepare_lines(sel, window)
     T_ref = fl.T_mean_K
@@ -358,13 +367,11 @@ def reduce_dickinson(sel: Selection, rule: str = "equal-area") -> MethodOutput:
         warns.append(warning("dickinson-60-percent", f"the 60 % time {t_x:.1f} s gives a rise "
                              f"{(rise - exact) * 1e3:+.4g} mK from the equal-area value "
                              "(the stated uncertainty includes it)"))
+        conf = sel.periods.fire_confidence
+        if sel.periods.fire_source == "detected" and conf is not None and conf < 0.5:
+            warns.append(warning(
+                "boundary-uncertain", f"gradual onset (score {conf:.2f}): the heat release may "
+                f"start a reading or two before t_i = {sel.periods.fire_time_s:.6g} s, which "
+                "moves the 60 % time; give the firing time"))
     return _linear_output(sel, fl, al, rise, propagate(grad, cov), sigma, rho, dw, f_ar, cov,
                           t_x, rise_at, T_i, T_f, rule == "equal-area", extra, warns)
-
-
-#: Registered methods: name → reducer.
-METHODS = {
-    "newton-fit": reduce_newton,
-    "regnault-pfaundler": reduce_regnault_pfaundler,
-    "dickinson": reduce_dickinson,
-}

@@ -28,16 +28,23 @@ import numpy as np
 from calwork.core.errors import CalworkError
 from calwork.core.text import format_table
 from calwork.rise.engine import corrected_rise
+from calwork.rise.registry import METHODS
 
 __all__ = ["MethodValidation", "ValidationResult", "validate_methods"]
 
-#: (label, method, dickinson rule) of the rows of the validation table.
-VARIANTS = (
-    ("newton-fit", "newton-fit", "equal-area"),
-    ("regnault-pfaundler", "regnault-pfaundler", "equal-area"),
-    ("dickinson", "dickinson", "equal-area"),
-    ("dickinson (60-percent)", "dickinson", "60-percent"),
-)
+def _variants() -> tuple[tuple[str, str, dict[str, str]], ...]:
+    """(label, method, options) of the rows of the validation table: every registered method
+    with its default options, then each other value of each of its options."""
+    rows = []
+    for spec in METHODS.values():
+        rows.append((spec.name, spec.name, {}))
+        for option, values in spec.options.items():
+            rows += [(spec.label(**{option: v}), spec.name, {option: v}) for v in values[1:]]
+    return tuple(rows)
+
+
+#: (label, method, options) of the rows of the validation table.
+VARIANTS = _variants()
 FIRE_TIME_S = 600.0
 
 
@@ -144,9 +151,9 @@ def validate_methods(params, runs: int = 20, seed: int = 0) -> ValidationResult:
         run = simulate_run(params, heat, duration_s=duration, seed=seed + i)
         truth = run.truth
         limit = truth.newtonian_rise_K or truth.adiabatic_rise_K
-        for label, method, rule in VARIANTS:
+        for label, method, options in VARIANTS:
             try:
-                res = corrected_rise(run.thermogram, method, dickinson_rule=rule)
+                res = corrected_rise(run.thermogram, method, **options)
             except CalworkError as exc:
                 failures[label].append(f"seed {seed + i}: {exc}")
                 continue
