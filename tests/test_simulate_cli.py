@@ -124,7 +124,7 @@ def test_simulate_scenario_rows_and_truth(tmp_path):
 def test_scenario_logs_read_back(tmp_path):
     # written through calwork.io.writers.write_log and read by calwork.io.read_log: the readings
     # survive to the 1e-6 °C (bomb) / 1e-8 °C (solution) of the written decimals
-    from calwork.io.logs import read_log
+    from calwork.io.readers import read_log
 
     params = CalorimeterParams.solution_preset()
     (w,) = build_scenario("solution", tmp_path, params=params, runs=1, seed=2)

@@ -15,7 +15,7 @@ from calwork.core.constants import CELSIUS_ZERO_K
 from calwork.core.errors import ChoiceError, ExportError
 from calwork.core.text import format_table
 from calwork.core.thermogram import Thermogram
-from calwork.io.logs import read_log
+from calwork.io.readers import read_log
 from calwork.io.sensors import SENSORS
 
 __all__ = ["inspect_summary", "register", "run"]

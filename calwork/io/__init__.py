@@ -6,7 +6,7 @@
 overrides. ``write_log`` / ``write_run_sheet`` write the same formats back.
 """
 
-from calwork.io.logs import read_log
+from calwork.io.readers import read_log
 from calwork.io.sensors import (
     cvd_resistance_ohm,
     cvd_temperature_C,

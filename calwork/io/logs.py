@@ -1,10 +1,13 @@
-"""``read_log``: a temperature log (delimited text or ``.xlsx``) → :class:`Thermogram`.
+"""The built-in log readers: delimited text and ``.xlsx`` → :class:`Thermogram`
+(:func:`calwork.io.read_log` offers each file to the registered readers first, see
+:mod:`calwork.io.readers`).
 
 The file is read once and hashed; the layout (encoding, separator, decimal mark, preamble,
 header, optional units row) is sniffed on the first few kilobytes; the readings are parsed by
-``pandas.read_csv`` on the decoded text and, if anything is off, again cell by cell so the
-error names the exact line and column. Workbooks are turned into the same tab-separated text
-(numbers as exact ``repr``) with spreadsheet row numbers, and go the same way.
+numpy (a plain numeric block) or ``pandas.read_csv`` on the decoded text and, if anything is
+off, again cell by cell so the error names the exact line and column. Workbooks are turned
+into the same tab-separated text (numbers as exact ``repr``) with spreadsheet row numbers, and
+go the same way.
 
 What was detected is kept in ``Thermogram.metadata`` next to the preamble entries:
 ``detected_encoding``, ``detected_separator``, ``detected_decimal``, ``header_line``,
@@ -18,6 +21,7 @@ import io
 import json
 import operator
 from collections.abc import Mapping
+from dataclasses import dataclass
 from datetime import date, datetime, time, timedelta
 from functools import cache
 from pathlib import Path
@@ -49,7 +53,6 @@ from calwork.io._text import (
     decode_bytes,
     is_comment,
     parse_preamble,
-    read_file_bytes,
     sniff_layout,
     split_cells,
     split_lines,
@@ -58,7 +61,13 @@ from calwork.io._xlsx import is_xlsx, read_xlsx_rows
 from calwork.io.sensors import SensorModel, resolve_sensor
 from calwork.plausibility import temperature_slip
 
-__all__ = ["MIN_READINGS", "PLAUSIBLE_RANGE_K", "read_log"]
+__all__ = [
+    "MIN_READINGS",
+    "PLAUSIBLE_RANGE_K",
+    "DelimitedTextReader",
+    "LogOptions",
+    "WorkbookReader",
+]
 
 #: Fewest readings a log must hold (fore, main and after period need several each).
 MIN_READINGS = 10
@@ -370,73 +379,54 @@ def _preamble_sensor(preamble: Mapping[str, str]) -> SensorModel | None:
     return None
 
 
-def read_log(
-    path: str | Path,
-    *,
-    time_column: str | None = None,
-    temperature_column: str | None = None,
-    time_unit: str | None = None,
-    temperature_unit: str | None = None,
-    sensor: str | None = None,
-    sensor_coefficients: Mapping[str, float] | None = None,
-    sheet: str | None = None,
-) -> Thermogram:
-    """Read a temperature log into a :class:`~calwork.core.thermogram.Thermogram`.
+@dataclass(frozen=True, kw_only=True)
+class LogOptions:
+    """What the caller of :func:`read_log` asked for (the run sheet's or the command's column
+    and unit overrides), as every log reader receives it."""
 
-    Parameters
-    ----------
-    path
-        Delimited text (comma, semicolon, tab or whitespace; decimal point or comma; UTF-8
-        with or without BOM, UTF-16 with BOM, or Latin-1) or an ``.xlsx`` workbook.
-    time_column, temperature_column
-        Header names to use instead of the automatic choice.
-    time_unit
-        ``'s'``, ``'min'``, ``'h'``, ``'ms'``, ``'mm:ss'``, ``'hh:mm:ss'`` or ``'iso'``;
-        overrides the unit in the header (default: from the header, else seconds, or the clock
-        / ISO 8601 form the cells show).
-    temperature_unit
-        ``'C'``, ``'K'`` or ``'ohm'``; overrides the header (default: from the header, else
-        inferred from the values).
-    sensor
-        ``'pt100'``, ``'pt1000'`` or ``'steinhart-hart'``: convert a resistance column (Ω).
-        Without it, a log with only a resistance column is converted when its preamble names
-        ``sensor: pt100`` or ``pt1000``.
-    sensor_coefficients
-        ``R0_ohm``, ``A``, ``B``, ``C`` overrides (platinum) or ``a``, ``b``, ``c``
-        (Steinhart–Hart, required).
-    sheet
-        Worksheet name for ``.xlsx`` (default: the first sheet).
-
-    Returns
-    -------
-    Thermogram
-        Time in s (ISO timestamps become seconds from the first reading), temperature in K,
-        channels ``jacket_K``, ``heater_V``, ``heater_A``, ``standard_resistor_V``,
-        ``resistance_ohm`` where present, ``rows`` = source line (or spreadsheet row) of every
-        reading, ``metadata`` = preamble plus what was detected.
-
-    Raises
-    ------
-    InputFileError, LogFormatError, ColumnError, AmbiguousColumnError, ValueCellError,
-    TimeAxisError, UnitError, SensorRangeError
-        Each naming the file, line and column, what was found and what was expected.
-    """
-    with np.errstate(all="ignore"):  # overflow → inf, caught by the finite-value checks
-        return _read_log(path, time_column=time_column, temperature_column=temperature_column,
-                         time_unit=time_unit, temperature_unit=temperature_unit, sensor=sensor,
-                         sensor_coefficients=sensor_coefficients, sheet=sheet)
+    time_column: str | None = None
+    temperature_column: str | None = None
+    time_unit: str | None = None
+    temperature_unit: str | None = None
+    sensor: str | None = None
+    sensor_coefficients: Mapping[str, float] | None = None
+    sheet: str | None = None
 
 
-def _read_log(path, *, time_column, temperature_column, time_unit, temperature_unit, sensor,
-              sensor_coefficients, sheet) -> Thermogram:
-    data, sha = read_file_bytes(path)
+class DelimitedTextReader:
+    """The built-in reader of delimited text logs (any separator, decimal mark, encoding)."""
+
+    name = "delimited text"
+
+    def sniff(self, path: Path, head: bytes) -> bool:
+        return True  # the reader of last resort: it says precisely what it cannot read
+
+    def read(self, path: Path, data: bytes, options: LogOptions, sha256: str) -> Thermogram:
+        return _thermogram(path, _text_table(data, path), options, sha256)
+
+
+class WorkbookReader:
+    """The built-in reader of ``.xlsx`` logs (first or named sheet)."""
+
+    name = "xlsx workbook"
+
+    def sniff(self, path: Path, head: bytes) -> bool:
+        return is_xlsx(path, head)
+
+    def read(self, path: Path, data: bytes, options: LogOptions, sha256: str) -> Thermogram:
+        return _thermogram(path, _xlsx_table(data, path, options.sheet), options, sha256)
+
+
+def _thermogram(path, table: _Table, options: LogOptions, sha: str) -> Thermogram:
+    """A table of text lines (from a text file or a workbook) → Thermogram."""
+    time_column, temperature_column = options.time_column, options.temperature_column
+    time_unit, temperature_unit = options.time_unit, options.temperature_unit
     model = None
-    if sensor is not None:
+    if options.sensor is not None:
         try:
-            model = resolve_sensor(sensor, sensor_coefficients)
+            model = resolve_sensor(options.sensor, options.sensor_coefficients)
         except CalworkError as err:
             raise err.with_context(path=path) from None
-    table = _xlsx_table(data, path, sheet) if is_xlsx(path, data) else _text_table(data, path)
     layout = sniff_layout(table.head, path)
     header = list(layout.header)
     units = list(layout.units) if layout.units is not None else None

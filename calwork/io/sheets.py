@@ -31,7 +31,7 @@ from calwork.core.units import parse_temperature_unit, parse_time_unit
 from calwork.data import parse_toml_text
 from calwork.io._text import decode_bytes, read_file_bytes
 from calwork.io._xlsx import is_xlsx, read_xlsx_rows
-from calwork.io.logs import read_log
+from calwork.io.readers import read_log
 from calwork.io.sensors import SENSORS
 from calwork.plausibility import PLAUSIBLE_COLUMNS, check_plausible
 
