@@ -56,15 +56,17 @@ def test_benzoic_acid_standard_bomb_conditions():
 def test_jessup_coefficients_from_first_principles():
     # Jessup's correction of the benzoic-acid value (recalled: +20 ppm/atm, +42 ppm per g/L of
     # sample, +30 ppm per g/L of water) is the change of the Washburn correction with the bomb
-    # conditions; the model must reproduce it (within 25 %, the coefficients being recalled).
+    # conditions; the model must reproduce it. The coefficients (recalled) were derived in 1942
+    # from the gas data of the time; with today's virial coefficients and CO2 solubility the
+    # model gives 17.4, 25.3 and 40.4 ppm: 20 % covers that difference of data.
     base = 26434.0e-6
     d_p = (per_gram(p=35 * STANDARD_ATMOSPHERE_Pa / 1e6) - per_gram(p=25 * STANDARD_ATMOSPHERE_Pa
                                                                     / 1e6)) / 10
     d_w = (per_gram(w=4.0) - per_gram(w=2.0)) / 2
     d_s = (per_gram(s=4.0) - per_gram(s=2.0)) / 2
-    assert d_p / base == pytest.approx(20.0, rel=0.25)
-    assert d_w / base == pytest.approx(30.0, rel=0.25)
-    assert d_s / base == pytest.approx(42.0, rel=0.25)
+    assert d_p / base == pytest.approx(20.0, rel=0.20)
+    assert d_w / base == pytest.approx(30.0, rel=0.20)
+    assert d_s / base == pytest.approx(42.0, rel=0.20)
 
 
 def test_term_signs_and_magnitudes():
@@ -119,14 +121,18 @@ def test_virial_coefficients_against_library_and_data():
         assert dB == pytest.approx(
             chem_virial.BVirial_Tsonopoulos(298.15, tc, pc, w, order=1), rel=1e-9)
     # measured B at 298 K (Dymond & Smith compilation, recalled): O2 −16, CO2 −124, N2 −4.5
-    # cm³/mol; docs/methods.md §3.6 T dB/dT ≈ +57 (O2), +290 (CO2), +55 (N2) cm³/mol
+    # cm³/mol; the tolerances are the correlation's known accuracy for simple gases, about
+    # 1 cm³/mol (see tests/test_bomb_virial_reference.py, which checks against GERG-2008)
     b = {g: virial_B_m3_per_mol(g, g, 298.15) for g in ("O2", "CO2", "N2")}
-    assert b["O2"][0] * 1e6 == pytest.approx(-16, abs=2)
-    assert b["CO2"][0] * 1e6 == pytest.approx(-124, abs=5)
-    assert b["N2"][0] * 1e6 == pytest.approx(-4.5, abs=2)
-    assert 298.15 * b["O2"][1] * 1e6 == pytest.approx(57, rel=0.15)
-    assert 298.15 * b["CO2"][1] * 1e6 == pytest.approx(290, rel=0.10)
-    assert 298.15 * b["N2"][1] * 1e6 == pytest.approx(55, rel=0.15)
+    assert b["O2"][0] * 1e6 == pytest.approx(-16, abs=1.0)
+    assert b["CO2"][0] * 1e6 == pytest.approx(-124, abs=1.5)
+    assert b["N2"][0] * 1e6 == pytest.approx(-4.5, abs=1.0)
+    # T dB/dT at 298.15 K from the reference equations of state (GERG-2008 pure-fluid limits,
+    # evaluated with CoolProp 8.0 for this test: O2 63.2, CO2 282.8, N2 57.9 cm³/mol); the
+    # correlation's accuracy in dB/dT is 1–2 %, hence 2.5 %
+    assert 298.15 * b["O2"][1] * 1e6 == pytest.approx(63.2, rel=0.025)
+    assert 298.15 * b["CO2"][1] * 1e6 == pytest.approx(282.8, rel=0.025)
+    assert 298.15 * b["N2"][1] * 1e6 == pytest.approx(57.9, rel=0.025)
     # cross coefficient O2–CO2 ≈ −45 cm³/mol (docs/methods.md §3.6, recalled)
     assert virial_B_m3_per_mol("O2", "CO2", 298.15)[0] * 1e6 == pytest.approx(-45, abs=6)
 
@@ -172,16 +178,22 @@ def test_contents_energy_equivalent():
     m = 1.0
     ini, fin = bomb_states([ba(m)], bomb_volume_L=0.342, o2_pressure_MPa=3.04, bomb_water_g=1.0)
     eps_i, eps_f = contents_energy_equivalents_J_per_K(ini, fin, [ba(m)])
-    # docs/methods.md §3.1: ε(cont) ≈ 15 J/K for a 0.3 L bomb
-    assert 10 < eps_i < 20
-    assert 10 < eps_f < 20
+    # by hand (docs/methods.md §3.1): ideal O2 in the free volume (0.342 L less 1 cm³ of water
+    # and 0.76 cm³ of sample) at 3.04 MPa, C_v(O2) = 29.38 − R (NIST-JANAF, recalled), 1 g of
+    # water at 4.1813 J/(g K) (IAPWS-95) and 1 g of benzoic acid at 146.8 J/(mol K) / 122.123
+    # g/mol; 1.5 %: the gas non-ideality (Z ≈ 0.98 at 3 MPa) left out of the hand value
+    n_o2 = 3.04e6 * (0.342 - 1.0 / 997.05 - 1.0 / 1.320 / 1000.0) * 1e-3 / (8.314462618 * 298.15)
+    by_hand = n_o2 * (29.38 - 8.314462618) + 4.1813 + 146.8 / M_BA
+    assert eps_i == pytest.approx(by_hand, rel=0.015)
     # ε^f − ε^i is Δ_rC_V of the combustion: 7 C_v(CO2) + 3 C_p(H2O, l) − 7.5 C_v(O2) − C_p(BA)
     # with NIST-JANAF gas heat capacities (recalled) and 146.8 J/(mol K) for benzoic acid
     n = m / M_BA
     drcv = n * (7 * (37.12 - 8.314) + 3 * 75.33 - 7.5 * (29.38 - 8.314) - 146.8)
     assert eps_f - eps_i == pytest.approx(drcv, rel=0.02)
-    # and Jessup's −45 ppm/K temperature term has the same origin (within 25 %, recalled)
-    assert -(eps_f - eps_i) / (m * 26434) * 1e6 == pytest.approx(-45, rel=0.25)
+    # and Jessup's −45 ppm/K temperature term (recalled, from 1942 heat capacities) has the
+    # same origin: the model gives −38 ppm/K with today's heat capacities; 20 % covers the
+    # difference between the two sets of data
+    assert -(eps_f - eps_i) / (m * 26434) * 1e6 == pytest.approx(-45, rel=0.20)
 
 
 def test_contents_referral_identities():

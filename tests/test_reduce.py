@@ -1,12 +1,14 @@
 """End to end: simulated bomb runs with known truth → run sheet → reduce_sheet.
 
 The simulated calorimeter is calwork's own simulator (two bodies, thermometer lag, noise);
-every number here is invented and labelled simulated. The heat of each simulated run is
-computed consistently with the chain (docs/methods.md (3.1)–(3.2)): benzoic acid releases
-mass × certified value × Jessup factor for the run's bomb conditions, the samples
-mass × |Δu_bomb|; plus ignition, fuse and nitric-acid energies; the bomb contents' energy
-equivalent is part of the simulated heat capacity, so the test measures the reduction and not
-a bookkeeping mismatch.
+every number here is invented and labelled simulated. The heat of each simulated run follows
+docs/methods.md (3.1)–(3.2): benzoic acid releases mass × certified value × Jessup factor for
+the run's bomb conditions, the samples mass × |Δu_bomb|; plus ignition, fuse and nitric-acid
+energies; the bomb contents' energy equivalent is part of the simulated heat capacity.
+
+The Jessup factor, the nitric-acid energy and the contents' energy equivalents that make the
+simulated heat are worked out here by hand (:func:`_by_hand`), from published values named
+beside them — not with calwork's own functions, so a bug in those shows as a wrong result.
 """
 
 from __future__ import annotations
@@ -16,10 +18,6 @@ import math
 import numpy as np
 import pytest
 
-from calwork.bomb.certificate import jessup_factor
-from calwork.bomb.contents import contents_energy_equivalents_J_per_K
-from calwork.bomb.corrections import nitric_acid_energy_J, nitric_acid_mol
-from calwork.bomb.washburn import Combustible, bomb_states
 from calwork.core.constants import T_REF_K
 from calwork.io import write_log, write_run_sheet
 from calwork.reduce import reduce_runs, reduce_sheet
@@ -32,13 +30,45 @@ SAMPLE_FORMULA, SAMPLE_RHO = "C10H8", 1.16
 FIRE_S, DURATION_S = 600.0, 2700.0
 
 
-def _contents(formula, mass, rho, cp, titre, conc):
-    c = Combustible.from_formula("sample", formula, mass, density_g_per_cm3=rho,
-                                 heat_capacity_J_per_g_K=cp)
-    n_hno3 = nitric_acid_mol(titre, conc)
-    ini, fin = bomb_states([c], bomb_volume_L=V_L, o2_pressure_MPa=P_MPa, bomb_water_g=W_G,
-                           nitric_acid_mol=n_hno3)
-    return contents_energy_equivalents_J_per_K(ini, fin, [c]), nitric_acid_energy_J(n_hno3)[0]
+# Hand-calculation inputs, each with its source:
+R = 8.314462618              # J/(mol K), CODATA 2018 (exact)
+ATM_PA = 101325.0            # Pa (exact)
+CV_O2 = 29.38 - R            # J/(mol K): Cp(O2, g, 298 K) 29.38, NIST-JANAF (recalled)
+CV_CO2 = 37.12 - R           # J/(mol K): Cp(CO2, g, 298 K) 37.12, NIST-JANAF (recalled)
+C_WATER = 4.1813             # J/(g K), liquid water at 25 °C, IAPWS-95
+M_WATER = 18.015             # g/mol, from IUPAC conventional atomic weights
+HNO3_KJ_PER_MOL = 59.7       # −ΔU of ½N2 + 5/4O2 + ½H2O(l) = HNO3(aq), the value of
+#                              thermochemical practice (recalled; older practice 59.0)
+# Jessup's correction of the benzoic-acid certificate to other bomb conditions, ppm per unit
+# of P/atm, m_s/V, m_w/V (g/L) and t/°C about 30 atm, 3 g/L, 3 g/L, 25 °C (as printed on SRM 39
+# certificates; recalled from memory)
+JESSUP_PPM = (20.0, 42.0, 30.0, -45.0)
+#: moles of O2 used and of CO2 and H2O(l) formed per mole burnt; molar mass g/mol (IUPAC
+#: conventional atomic weights C 12.011, H 1.008, O 15.999)
+COMBUSTION = {"C7H6O2": (7.5, 7.0, 3.0, 122.123), "C10H8": (12.0, 10.0, 4.0, 128.174)}
+
+
+def _by_hand(formula, mass, rho, cp, titre, conc):
+    """(ε^i, ε^f) of the bomb contents (J/K) and the nitric-acid energy (J), by hand: ideal
+    O2 in the free volume; all products gaseous CO2 and liquid water (the few parts in a
+    thousand of CO2 dissolved in 1 g of water and the non-ideality are left out — worth about
+    0.01 J/K, i.e. 1 ppm of ε)."""
+    o2_used, co2, h2o, molar_mass = COMBUSTION[formula]
+    n_sample = mass / molar_mass
+    # free gas volume: bomb less water (0.99705 g/cm³ at 25 °C, IAPWS-95) and sample
+    free_L = V_L - W_G / 997.05 - mass / rho / 1000.0
+    n_o2 = P_MPa * 1e6 * free_L * 1e-3 / (R * 298.15)
+    eps_i = n_o2 * CV_O2 + W_G * C_WATER + mass * cp
+    eps_f = ((n_o2 - o2_used * n_sample) * CV_O2 + co2 * n_sample * CV_CO2
+             + (W_G + h2o * n_sample * M_WATER) * C_WATER)
+    return eps_i, eps_f, titre * conc / 1000.0 * HNO3_KJ_PER_MOL * 1000.0
+
+
+def _jessup(mass):
+    a, b, c, d = JESSUP_PPM
+    t_C = 25.0  # the process is referred to 25 °C
+    return 1.0 + 1e-6 * (a * (P_MPa * 1e6 / ATM_PA - 30.0) + b * (mass / V_L - 3.0)
+                         + c * (W_G / V_L - 3.0) + d * (t_C - 25.0))
 
 
 def _simulate(tmp, name, *, heat_J, eps_i, eps_f, seed):
@@ -66,9 +96,8 @@ def dataset(tmp_path_factory):
     for i in range(6):
         m = 0.95 + 0.1 * rng.random()
         titre, conc, ign, fuse = 8.0 + rng.random(), 0.0866, 1.0, 12.0 + rng.random()
-        (eps_i, eps_f), e_hno3 = _contents("C7H6O2", m, 1.320, 1.202, titre, conc)
-        f = jessup_factor(P_MPa, m / V_L, W_G / V_L, T_REF_K)
-        heat = m * CERT * f + ign + fuse + e_hno3
+        eps_i, eps_f, e_hno3 = _by_hand("C7H6O2", m, 1.320, 1.202, titre, conc)
+        heat = m * CERT * _jessup(m) + ign + fuse + e_hno3
         log = _simulate(tmp, f"cal{i}", heat_J=heat, eps_i=eps_i, eps_f=eps_f, seed=100 + i)
         rows.append({"run": f"cal{i}", "kind": "calibration", "log": log.name,
                      "calorimeter": "A", "sample": "benzoic acid", "mass_g": round(m, 5),
@@ -82,7 +111,7 @@ def dataset(tmp_path_factory):
         # mass rounded first: the sheet's mass is the truth's mass
         m = round(m, 5)
         titre, fuse = round(titre, 4), round(fuse, 4)
-        (eps_i, eps_f), e_hno3 = _contents(SAMPLE_FORMULA, m, SAMPLE_RHO, 1.2, titre, conc)
+        eps_i, eps_f, e_hno3 = _by_hand(SAMPLE_FORMULA, m, SAMPLE_RHO, 1.2, titre, conc)
         heat = m * -SAMPLE_DU + ign + fuse + e_hno3
         log = _simulate(tmp, f"s{i}", heat_J=heat, eps_i=eps_i, eps_f=eps_f, seed=200 + i)
         rows.append({"run": f"s{i}", "kind": "combustion", "log": log.name, "calorimeter": "A",
@@ -118,13 +147,13 @@ def test_every_sample_within_150_ppm(reduction):
 
 
 def test_molar_quantities_by_hand(reduction):
-    from calwork.core.constants import R_J_per_mol_K
-    from calwork.formula import molar_mass_g_per_mol
-
+    R_J_per_mol_K = R
     (s,) = reduction.samples
-    M = molar_mass_g_per_mol(SAMPLE_FORMULA)
+    M = COMBUSTION[SAMPLE_FORMULA][3]  # 128.174 g/mol by hand
     # ΔcU° = M Δcu°; C10H8 + 12 O2 = 10 CO2 + 4 H2O(l): Δn(gas) = −2 (docs/methods.md (3.6), (3.8))
-    assert s.delta_c_U_kJ_per_mol == pytest.approx(M * s.standard_massic_energy_J_per_g / 1e3)
+    # (M to 1e-5 relative: the atomic weights' rounding)
+    assert s.delta_c_U_kJ_per_mol == pytest.approx(M * s.standard_massic_energy_J_per_g / 1e3,
+                                                   rel=1e-5)
     assert s.delta_c_H_kJ_per_mol == pytest.approx(
         s.delta_c_U_kJ_per_mol - 2 * R_J_per_mol_K * 298.15 / 1e3, abs=1e-9)
     # (3.9) with the CODATA key values CO2(g) −393.51, H2O(l) −285.830 kJ/mol

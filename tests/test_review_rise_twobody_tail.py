@@ -46,8 +46,10 @@ def test_two_body_coverage(sampling_s, duration_s, target):
 @pytest.mark.parametrize("t_f", [1400.0, 1600.0, 1800.0])
 def test_tail_component_matches_the_noise_free_bias(t_f):
     # noise-free: the bias of the rise is the tail's alone (−240, −40, −7 µK at these t_f);
-    # the component must match it within 10 % (it is fitted on the main period, independent
-    # of the after-period fit it predicts), and the rise itself is not corrected by it
+    # the component must match it within 2 % (it is fitted on the main period, independent
+    # of the after-period fit it predicts; the two-body transient is a sum of exponentials the
+    # tail model represents, so only the fit's end effects remain: measured ≤ 0.7 % from
+    # 1000 s to 1800 s), and the rise itself is not corrected by it
     params = replace(CalorimeterParams.bomb_preset(), noise_K=0.0, quantisation_K=0.0)
     run = simulate_run(params, PULSE, duration_s=2400.0, seed=0)
     # (at 1800 s, a 7 µK tail, only the joint fit's k and T_∞ are precise enough for the
@@ -57,7 +59,7 @@ def test_tail_component_matches_the_noise_free_bias(t_f):
         bias = res.corrected_rise_K - run.truth.newtonian_rise_K
         assert bias < 0   # heat still to come
         tail = res.uncertainty_budget["transient-tail"]
-        assert tail == pytest.approx(abs(bias), rel=0.10), (method, bias, tail)
+        assert tail == pytest.approx(abs(bias), rel=0.02), (method, bias, tail)
 
 
 @pytest.mark.parametrize("sampling_s", [1.0, 5.0])
@@ -82,4 +84,5 @@ def test_endothermic_tail_has_the_right_side():
     res = corrected_rise(run.thermogram, main_end_s=1400.0)
     bias = res.corrected_rise_K - run.truth.newtonian_rise_K
     assert bias > 0
-    assert res.uncertainty_budget["transient-tail"] == pytest.approx(bias, rel=0.10)
+    # (noise-free, as above: measured 0.2 %)
+    assert res.uncertainty_budget["transient-tail"] == pytest.approx(bias, rel=0.02)

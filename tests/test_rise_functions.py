@@ -201,8 +201,10 @@ def test_joint_fit_recovers_the_drift_model_and_its_covariance():
         rises.append(rise)
         sd_k.append(np.sqrt(f.covariance[3, 3]))
         sd_r.append(propagate(grad, f.covariance))
-    assert np.std(ks) == pytest.approx(np.mean(sd_k), rel=0.2)
-    assert np.std(rises) == pytest.approx(np.mean(sd_r), rel=0.2)
+    # 300 draws: the s.d. of the draws has relative s.e. 1/√(2·299) = 4.1 %; three of them
+    tol = 3 / np.sqrt(2 * 299)
+    assert np.std(ks) == pytest.approx(np.mean(sd_k), rel=tol)
+    assert np.std(rises) == pytest.approx(np.mean(sd_r), rel=tol)
     assert np.mean(rises) == pytest.approx(2.5, abs=3 * np.mean(sd_r) / np.sqrt(300))
 
 
