@@ -16,8 +16,8 @@ A propagation that cannot give a finite positive-semidefinite answer raises
 from __future__ import annotations
 
 import math
-from collections.abc import Callable, Sequence
-from dataclasses import dataclass
+from collections.abc import Callable, Iterable, Iterator, Mapping, Sequence
+from dataclasses import dataclass, field
 
 import numpy as np
 from scipy import stats
@@ -25,15 +25,20 @@ from scipy import stats
 from calwork.core.errors import UncertaintyError
 
 __all__ = [
+    "Budget",
+    "Component",
     "MonteCarloResult",
     "correlation_from_covariance",
     "covariance_from_correlation",
     "coverage_factor_t",
     "expanded_uncertainty",
     "monte_carlo",
+    "numeric_gradient",
     "numeric_jacobian",
     "propagate",
+    "propagate_gradient",
     "propagate_linear",
+    "root_sum_square",
     "standard_uncertainty",
     "variance_component",
     "welch_satterthwaite",
@@ -107,6 +112,177 @@ def variance_component(variance: float, *, magnitude: float, name: str = "compon
         return 0.0
     return v
 
+
+
+def root_sum_square(components: Mapping[str, float] | Iterable[float], *,
+                    name: str = "result", allow_zero: bool = True) -> float:
+    """``√Σ c²`` of uncorrelated uncertainty contributions (GUM eq. 10 with the sensitivities
+    already applied).
+
+    Raises
+    ------
+    UncertaintyError
+        A contribution is negative or not finite (it is never clamped or dropped), or, with
+        ``allow_zero=False``, the total is zero (an uncertainty is never reported as zero).
+    """
+    items = components.items() if isinstance(components, Mapping) else enumerate(components)
+    total = 0.0
+    for key, value in items:
+        v = float(value)
+        if not (math.isfinite(v) and v >= 0.0):
+            raise UncertaintyError(f"uncertainty component {key!r} of {name} could not be "
+                                   "evaluated", found=v, expected="a finite, non-negative value")
+        total += v * v
+    if not allow_zero and total <= 0.0:
+        raise UncertaintyError(f"the propagated uncertainty of {name} is zero",
+                               found=dict(components) if isinstance(components, Mapping)
+                               else list(components))
+    return math.sqrt(total)
+
+
+def propagate_gradient(gradient: Sequence[float] | np.ndarray, covariance: np.ndarray, *,
+                       name: str = "result") -> float:
+    """``√(gᵀ Σ g)`` for one output (GUM eq. 13), checked: a non-finite variance raises, a
+    negative one beyond rounding raises (:func:`variance_component`).
+
+    Examples
+    --------
+    >>> propagate_gradient([1.0, -1.0], np.array([[4.0, 0.0], [0.0, 9.0]]))
+    3.605551275463989
+    """
+    g = np.asarray(gradient, dtype=float)
+    cov = np.asarray(covariance, dtype=float)
+    var = float(g @ cov @ g)
+    if not math.isfinite(var):
+        raise UncertaintyError(f"the covariance behind {name} is not available (not finite)",
+                               found=var, expected="a finite variance")
+    magnitude = float(np.abs(g) @ np.abs(cov) @ np.abs(g))
+    return math.sqrt(variance_component(var, magnitude=magnitude, name=name))
+
+
+def numeric_gradient(f: Callable[[np.ndarray], float], x: Sequence[float],
+                     steps: Sequence[float]) -> np.ndarray:
+    """Central-difference gradient of a scalar function ``f`` at ``x`` with ``steps``."""
+    x = np.asarray(x, dtype=float)
+    out = np.empty(x.size)
+    for i, h in enumerate(steps):
+        e = np.zeros_like(x)
+        e[i] = h
+        out[i] = (f(x + e) - f(x - e)) / (2.0 * h)
+    return out
+
+
+@dataclass(frozen=True)
+class Component:
+    """One component of an uncertainty budget.
+
+    Attributes
+    ----------
+    name
+        What it is (``'scatter'``, ``'certificate'``, ``'fit'`` …).
+    value
+        Its contribution to the standard uncertainty of the budget's quantity (sensitivity
+        applied), in ``unit``; finite and ≥ 0.
+    unit
+        Unit of ``value`` (that of the quantity, or ``'1'`` for a relative contribution).
+    sensitivity
+        ``∂y/∂x`` of the quantity with respect to the input, where one applies.
+    correlation_key
+        Components of different results with the same key are fully correlated (a shared
+        calibration, a certificate, a key value); ``None``: independent.
+    """
+
+    name: str
+    value: float
+    unit: str
+    sensitivity: float | None = None
+    correlation_key: str | None = None
+
+    def __post_init__(self) -> None:
+        v = float(self.value)
+        if not (math.isfinite(v) and v >= 0.0):
+            raise UncertaintyError(f"budget component {self.name!r} is negative or not finite",
+                                   found=v, expected="a finite, non-negative contribution")
+        object.__setattr__(self, "value", v)
+
+    def to_dict(self) -> dict[str, object]:
+        return {"name": self.name, "value": self.value, "unit": self.unit,
+                "sensitivity": self.sensitivity, "correlation_key": self.correlation_key}
+
+
+@dataclass(frozen=True)
+class Budget(Mapping[str, float]):
+    """An uncertainty budget: the components of ``u(quantity)``, each with its unit.
+
+    Read as a mapping it gives each component's contribution by name (what the JSON output
+    and the older readers see); :meth:`total` combines them (uncorrelated, root sum of
+    squares); :meth:`unit_of` says what unit a component is in, so that reports never guess
+    it from a name.
+    """
+
+    quantity: str
+    unit: str
+    components: tuple[Component, ...] = field(default_factory=tuple)
+
+    def __post_init__(self) -> None:
+        comps = tuple(self.components)
+        names = [c.name for c in comps]
+        if len(set(names)) != len(names):
+            raise UncertaintyError(f"budget of {self.quantity} names a component twice",
+                                   found=names)
+        object.__setattr__(self, "components", comps)
+
+    @classmethod
+    def of(cls, quantity: str, unit: str, values: Mapping[str, float], *,
+           units: Mapping[str, str] | None = None,
+           keys: Mapping[str, str] | None = None) -> Budget:
+        """A budget from ``{name: contribution}`` in ``unit`` (``units`` for the exceptions,
+        ``keys`` for the correlation keys)."""
+        units, keys = units or {}, keys or {}
+        return cls(quantity=quantity, unit=unit, components=tuple(
+            Component(name=k, value=v, unit=units.get(k, unit), correlation_key=keys.get(k))
+            for k, v in values.items()))
+
+    def __getitem__(self, name: str) -> float:
+        return self.component(name).value
+
+    def __iter__(self) -> Iterator[str]:
+        return (c.name for c in self.components)
+
+    def __len__(self) -> int:
+        return len(self.components)
+
+    def component(self, name: str) -> Component:
+        for c in self.components:
+            if c.name == name:
+                return c
+        raise KeyError(name)
+
+    def unit_of(self, name: str) -> str:
+        """The unit of component ``name``."""
+        return self.component(name).unit
+
+    def total(self, *, allow_zero: bool = False) -> float:
+        """Root sum of squares of the components in the budget's unit (components in another
+        unit, e.g. relative ones, are reported but not summed here)."""
+        return root_sum_square({c.name: c.value for c in self.components if c.unit == self.unit},
+                               name=self.quantity, allow_zero=allow_zero)
+
+    def with_component(self, name: str, value: float, *, unit: str | None = None,
+                       correlation_key: str | None = None) -> Budget:
+        """A copy with one more component."""
+        extra = Component(name=name, value=value, unit=unit or self.unit,
+                          correlation_key=correlation_key)
+        return Budget(quantity=self.quantity, unit=self.unit,
+                      components=(*self.components, extra))
+
+    def to_dict(self) -> dict[str, float]:
+        """``{name: contribution}`` (the JSON form; units are in :meth:`describe`)."""
+        return {c.name: c.value for c in self.components}
+
+    def describe(self) -> list[dict[str, object]]:
+        """Every component with its unit, sensitivity and correlation key (reports)."""
+        return [c.to_dict() for c in self.components]
 
 def propagate_linear(jacobian: np.ndarray, covariance: np.ndarray) -> np.ndarray:
     """Output covariance ``J U_x Jᵀ`` (GUM §5.2, JCGM 102 for vector outputs).

@@ -20,8 +20,8 @@ from calwork.core.errors import ConvergenceError, RunError, UncertaintyError
 from calwork.core.runinfo import RunInfo
 from calwork.hess import wls
 from calwork.rise import engine
-from calwork.rise.uncertainty import propagate
 from calwork.simulation import CalorimeterParams, CombustionPulse, simulate_run
+from calwork.uncertainty import propagate_gradient as propagate
 from calwork.uncertainty import variance_component
 
 V_L, P_MPa, W_G, MASS = 0.342, 3.04, 1.0, 1.0012

@@ -34,7 +34,8 @@ from calwork.rise.drift import (
     trapezoid_weights_s,
 )
 from calwork.rise.newton import fit_newton, newton_rise
-from calwork.rise.uncertainty import combine, propagate
+from calwork.uncertainty import propagate_gradient as propagate
+from calwork.uncertainty import root_sum_square
 
 K_METHODS = 0.003 / 60.0  # 0.003 min⁻¹ (docs/methods.md §1.5 numerical check)
 
@@ -231,10 +232,10 @@ def test_fit_errors_and_uncertainty_guards():
     with pytest.raises(FitError, match="at least 2 fore"):
         fit_newton(t[:1], t[:1], t, t)
     with pytest.raises(UncertaintyError, match="zero"):
-        combine({"fit": 0.0, "main-period-readings": 0.0})
+        root_sum_square({"fit": 0.0, "main-period-readings": 0.0}, allow_zero=False)
     with pytest.raises(UncertaintyError, match="'fit'"):
-        combine({"fit": float("nan")})
-    assert combine({"a": 3e-6, "b": 4e-6}) == pytest.approx(5e-6)
+        root_sum_square({"fit": float("nan")})
+    assert root_sum_square({"a": 3e-6, "b": 4e-6}) == pytest.approx(5e-6)
 
 
 def test_joint_fit_agrees_with_lmfit():

@@ -32,7 +32,7 @@ from calwork.bomb.fuels import fuel_outputs
 from calwork.core.errors import CalworkError, UncertaintyError
 from calwork.core.results import CalibrationResult, RunResult, SampleResult
 from calwork.data import load_data
-from calwork.uncertainty import variance_component
+from calwork.uncertainty import root_sum_square, variance_component
 
 __all__ = [
     "SampleTerms",
@@ -81,7 +81,8 @@ def calibration_series(
     # the correction constants (fuse J/cm, ΔfU(HNO3), the ignition estimate…): a relative
     # error r_k moves every run's ε by r_k C_k/ΔT, so the mean by r_k·mean(C_k/ΔT) (systematic)
     rel = load_data("bomb_corrections.toml")["uncertainty_relative"]
-    u_corr = math.sqrt(sum((float(rel[k]) * per_rise[k]) ** 2 for k in names_k))
+    u_corr = root_sum_square({k: float(rel[k]) * abs(per_rise[k]) for k in names_k},
+                             name="the correction constants' share of u(ε)")
     materials = sorted({str(r.details.get("reference_material")) for r in ok})
     certs = sorted({float(r.details.get("certified_J_per_g", math.nan)) for r in ok})
     return CalibrationResult(
@@ -173,16 +174,14 @@ def sample_series(
             net = c_J - r.corrected_rise_K * per_rise.get(name, 0.0)
             k = ("correction", name)
             shared[k] = shared.get(k, 0.0) + u_rel * net / mass / n
-    bomb_budget = {
-        "scatter_J_per_g": scatter,
-        "calibration_J_per_g": math.sqrt(sum(v * v for k, v in shared.items()
-                                             if k[0] == "calibration")),
-        "certificate_J_per_g": math.sqrt(sum(v * v for k, v in shared.items()
-                                             if k[0] == "certificate")),
-        "corrections_J_per_g": math.sqrt(sum(v * v for k, v in shared.items()
-                                             if k[0] == "correction")),
-    }
-    u_bomb = math.sqrt(sum(v * v for v in bomb_budget.values()))
+    bomb_budget = {"scatter_J_per_g": scatter}
+    for kind, part in (("calibration_J_per_g", "calibration"),
+                       ("certificate_J_per_g", "certificate"),
+                       ("corrections_J_per_g", "correction")):
+        bomb_budget[kind] = root_sum_square(
+            [abs(v) for k, v in shared.items() if k[0] == part],
+            name=f"the {part} share of u(Δu) of {sample!r}")
+    u_bomb = root_sum_square(bomb_budget, name=f"Δu of {sample!r}")
     budget: dict[str, float] = dict(bomb_budget)
     standard = u_standard = None
     if all(r.standard_massic_energy_J_per_g is not None for r in runs):

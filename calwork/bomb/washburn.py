@@ -46,6 +46,7 @@ from calwork.core.errors import ConvergenceError, RunError, UncertaintyError
 from calwork.core.results import jsonable
 from calwork.data import load_data
 from calwork.formula import element_counts, molar_mass_g_per_mol
+from calwork.uncertainty import root_sum_square
 
 __all__ = [
     "BombState",
@@ -472,7 +473,7 @@ def washburn_correction(
         "pure_gas_virial": abs(gas_net) * float(rel["pure_gas_virial"]),
         "other_property_data": abs(other_net) * float(rel["other_terms"]),
     }
-    u = math.sqrt(sum(v * v for v in components.values()))
+    u = root_sum_square(components, name="the Washburn correction")
     return WashburnResult(
         correction_J=correction, u_correction_J=u, u_components_J=components, terms_J=terms,
         initial=initial, final=final, temperature_K=final.temperature_K, notes=NOTES,

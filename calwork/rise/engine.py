@@ -1,4 +1,25 @@
-"""``corrected_rise``: periods → method → uncertainty → diagnostics → :class:`RiseResult`."""
+"""``corrected_rise``: periods → method → uncertainty → diagnostics → :class:`RiseResult`.
+
+Uncertainty of the corrected rise: propagation helpers (GUM, JCGM 100:2008 §5.1).
+
+The standard uncertainty of ``ΔT_c`` combines, in quadrature,
+
+* ``fit`` — the drift-fit parameters (end-point temperatures, ``k``, ``T_∞`` or the drift
+  rates) through the sensitivities of docs/methods.md §1.4 (``∂ΔT_c/∂k = ∫(T − T_∞)dt``,
+  ``∂ΔT_c/∂T_∞ = −k(t_f − t_i)``, end points), with the covariance scaled by the AR(1)
+  variance-inflation factor of the residuals;
+* ``main-period-readings`` — reading noise entering through the exchange integral
+  (``k σ √Σw²``, trapezoid weights ``w``);
+* ``boundary`` — the spread of ``ΔT_c`` over plausible boundary choices when the periods were
+  detected automatically;
+* ``shortcut`` — for the 60 % Dickinson rule, its known deviation from the exact rule.
+* ``transient-tail`` — the one-sided bias of a slow transient (two-body calorimeter) still
+  decaying after ``t_f``, fitted on the late main period and propagated through the method
+  (:mod:`calwork.rise.tail`); present only when that tail is significant.
+
+The components are combined by :func:`calwork.uncertainty.root_sum_square` into a
+:class:`calwork.uncertainty.Budget` in kelvin (``RiseResult.uncertainty_budget``).
+"""
 
 from __future__ import annotations
 
@@ -24,7 +45,7 @@ from calwork.rise.registry import DICKINSON_RULES, METHODS, RiseMethod, rise_met
 from calwork.rise.result import RiseResult
 from calwork.rise.selection import MethodOutput, Selection, select
 from calwork.rise.tail import tail_correction, tail_model
-from calwork.rise.uncertainty import combine
+from calwork.uncertainty import Budget, root_sum_square
 
 __all__ = ["corrected_rise"]
 
@@ -102,7 +123,7 @@ def _boundary_component(thermogram: Thermogram, sel: Selection, out: MethodOutpu
                     "boundary uncertainty lacks that part: give fire_time_s"))
     if not parts:
         return None
-    return math.sqrt(sum(p * p for p in parts))
+    return root_sum_square(parts, name="the boundary component")
 
 
 def _tail_component(sel: Selection, out: MethodOutput, periods: Periods,
@@ -258,7 +279,7 @@ def corrected_rise(thermogram: Thermogram, method: str = "newton-fit",
     if tail is not None:
         budget["transient-tail"] = tail
     try:
-        u = combine(budget)
+        u = root_sum_square(budget, name="the corrected rise", allow_zero=False)
     except CalworkError as exc:
         raise exc.with_context(path=thermogram.provenance.source_path) from None
     warns, cross = _diagnostics(thermogram, sel, out, u, spec)
@@ -281,7 +302,8 @@ def corrected_rise(thermogram: Thermogram, method: str = "newton-fit",
         after_drift=out.after_drift, t_x_s=out.t_x_s,
         dickinson_rule=options.get("dickinson_rule"),
         noise_K=out.sigma_K, durbin_watson=out.durbin_watson, rho1=out.rho1,
-        uncertainty_budget=budget, cross_check=cross, warnings=tuple(all_warnings),
+        uncertainty_budget=Budget.of("corrected temperature rise", "K", budget),
+        cross_check=cross, warnings=tuple(all_warnings),
         provenance=Provenance(method=spec.label(**options),
                               importer="calwork.rise.corrected_rise",
                               parents=(whole.provenance,), calwork_version=_version()),

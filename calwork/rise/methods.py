@@ -26,7 +26,7 @@ from calwork.rise.newton import fit_newton, newton_rise
 from calwork.rise.regnault_pfaundler import regnault_pfaundler_rise_K
 from calwork.rise.result import DriftCurve
 from calwork.rise.selection import LineFit, MethodOutput, Selection, fit_line
-from calwork.rise.uncertainty import numeric_gradient, propagate
+from calwork.uncertainty import numeric_gradient, propagate_gradient
 
 __all__ = [
     "newton_rise_only",
@@ -79,7 +79,7 @@ def reduce_newton(sel: Selection, start: Any = None) -> MethodOutput:
     rise, grad, parts = newton_rise(fit, sel.t_i, sel.t_f, sel.integral(theta))
     k = fit.k_per_s
     budget = {
-        "fit": propagate(grad, cov),
+        "fit": propagate_gradient(grad, cov),
         "main-period-readings": abs(k) * fit.sigma_K * math.sqrt(f_ar * sel.main_weights_sq_s2()),
     }
     T_r = fit.reference_temperature_K
@@ -152,12 +152,12 @@ def _linear_output(sel: Selection, fl: LineFit, al: LineFit, rise: float, fit_u:
     dT = al.T_mean_K - fl.T_mean_K
     k, T_inf = newton_constants_from_drifts(g_i, g_f, fl.T_mean_K, al.T_mean_K)
     grad_k = np.array([(g_i - g_f) / dT**2, 1 / dT, -(g_i - g_f) / dT**2, -1 / dT])
-    u_k = propagate(grad_k, cov)
+    u_k = propagate_gradient(grad_k, cov)
     try:
         grad_T = numeric_gradient(
             lambda x: convergence_temperature_K(x[0], x[1], (x[1] - x[3]) / (x[2] - x[0])),
             [fl.T_mean_K, g_i, al.T_mean_K, g_f], _steps(fl, al, sigma))
-        u_T_inf = propagate(grad_T, cov)
+        u_T_inf = propagate_gradient(grad_T, cov)
     except UncertaintyError:
         u_T_inf = float("inf")
     budget = {"fit": fit_u,
@@ -290,7 +290,7 @@ def _rp_core(sel: Selection) -> dict[str, Any]:
     k = -(al.slope_K_per_s - fl.slope_K_per_s) / (al.T_mean_K - fl.T_mean_K)
     return {"sel": sel, "fl": fl, "al": al, "sigma": sigma, "rho": rho, "dw": dw, "f_ar": f_ar,
             "cov": cov, "x0": x0, "T_ref": T_ref, "u": u, "Cu": Cu, "rise": rise, "T_i": T_i,
-            "T_f": T_f, "main": main, "fit_u": propagate(grad, cov), "k": k,
+            "T_f": T_f, "main": main, "fit_u": propagate_gradient(grad, cov), "k": k,
             "curvature_u": _curvature_u(sel, fl, al, k, (T_f - T_i) - rise)}
 
 
@@ -373,5 +373,5 @@ def reduce_dickinson(sel: Selection, dickinson_rule: str = "equal-area") -> Meth
                 "boundary-uncertain", f"gradual onset (score {conf:.2f}): the heat release may "
                 f"start a reading or two before t_i = {sel.periods.fire_time_s:.6g} s, which "
                 "moves the 60 % time; give the firing time"))
-    return _linear_output(sel, fl, al, rise, propagate(grad, cov), sigma, rho, dw, f_ar, cov,
-                          t_x, rise_at, T_i, T_f, rule == "equal-area", extra, warns)
+    return _linear_output(sel, fl, al, rise, propagate_gradient(grad, cov), sigma, rho, dw, f_ar,
+                          cov, t_x, rise_at, T_i, T_f, rule == "equal-area", extra, warns)

@@ -13,6 +13,7 @@ from calwork.core.provenance import Provenance
 from calwork.core.results import jsonable
 from calwork.rise.drift import drift_curve_K
 from calwork.rise.periods import Periods
+from calwork.uncertainty import Budget
 
 __all__ = ["JSON_KEYS", "DriftCurve", "RiseResult"]
 
@@ -151,7 +152,8 @@ class RiseResult(NewtonianTerms):
     noise_K: float | None = None
     durbin_watson: float | None = None
     rho1: float | None = None
-    uncertainty_budget: Mapping[str, float] = field(default_factory=dict)
+    uncertainty_budget: Budget = field(
+        default_factory=lambda: Budget(quantity="corrected temperature rise", unit="K"))
     cross_check: Mapping[str, float] = field(default_factory=dict)
     warnings: tuple[str, ...] = ()
     provenance: Provenance = field(default_factory=Provenance)
@@ -162,8 +164,9 @@ class RiseResult(NewtonianTerms):
     event: int | None = None
 
     def __post_init__(self) -> None:
-        object.__setattr__(self, "uncertainty_budget",
-                           MappingProxyType(dict(self.uncertainty_budget)))
+        if not isinstance(self.uncertainty_budget, Budget):
+            object.__setattr__(self, "uncertainty_budget", Budget.of(
+                "corrected temperature rise", "K", self.uncertainty_budget))
         object.__setattr__(self, "cross_check", MappingProxyType(dict(self.cross_check)))
         object.__setattr__(self, "warnings", tuple(self.warnings))
         object.__setattr__(self, "fore_period_s", tuple(self.fore_period_s))

@@ -31,6 +31,7 @@ from calwork.solution.electrical import (
     heater_power_W,
 )
 from calwork.solution.reaction import CALIBRATION_BASES
+from calwork.uncertainty import root_sum_square
 
 __all__ = ["HeaterCalibration", "LogAnalysis", "SolutionOptions", "analyse_log", "event_periods"]
 
@@ -354,6 +355,6 @@ def _sheet_energy(power_W: float, on_s: float, off_s: float, u_on_s: float, u_of
     energy = power_W * (off_s - on_s)
     budget = {"timing": power_W * math.hypot(u_on_s, u_off_s), "power_noise": 0.0,
               "power_calibration": energy * rel}
-    u = math.sqrt(sum(v * v for v in budget.values()))
+    u = root_sum_square(budget, name="the heater energy")
     return ElectricalEnergy(energy_J=energy, u_energy_J=u, on_s=on_s, off_s=off_s,
                             mean_power_W=power_W, source="sheet", n_points=0, budget=budget)

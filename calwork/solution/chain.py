@@ -61,6 +61,7 @@ from calwork.solution.reaction import (
 )
 from calwork.solution.samples import solution_samples
 from calwork.solution.vaporisation import vaporisation_correction_J
+from calwork.uncertainty import root_sum_square
 
 __all__ = ["reduce_solution_runs"]
 
@@ -109,7 +110,7 @@ def _electrical_run(info: RunInfo, analysis: LogAnalysis, tg: Thermogram, method
     for c in cals[1:]:  # mean of several heatings in one log
         budget = combine_budgets(budget, c.budget)
     eps = float(np.mean(eps_values))
-    u = math.sqrt(sum(v * v for v in budget.values()))
+    u = root_sum_square(budget, name="ε of the run")
     first = cals[0]
     result = RunResult(
         run=info.run, kind=info.kind, sample=info.sample, calorimeter=info.calorimeter,

@@ -31,6 +31,7 @@ import numpy as np
 
 from calwork.core.errors import RunError, UncertaintyError, check_choice
 from calwork.data import load_data
+from calwork.uncertainty import root_sum_square
 
 __all__ = [
     "POTENTIAL_LEADS",
@@ -267,7 +268,7 @@ def electrical_energy_J(
         "power_noise": noise,
         "power_calibration": abs(energy) * rel,
     }
-    u = math.sqrt(sum(v * v for v in budget.values()))
+    u = root_sum_square(budget, name="the heater energy")
     if not math.isfinite(u) or u <= 0:
         raise UncertaintyError("the uncertainty of the heater energy could not be propagated",
                                column="heater_V", found=u)

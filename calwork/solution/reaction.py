@@ -36,6 +36,7 @@ from calwork.core.errors import CalibrationError, RunError, UncertaintyError, ch
 from calwork.core.results import jsonable
 from calwork.data import load_data
 from calwork.formula import molar_mass_g_per_mol
+from calwork.uncertainty import root_sum_square
 
 __all__ = [
     "CALIBRATION_BASES",
@@ -176,7 +177,7 @@ def refer_energy_equivalent(
             raise CalibrationError(f"no calibration {basis!r} the reaction is available",
                                    column="heater_V" if basis != "series" else "calorimeter")
         eps, budget = item[0], dict(item[1])
-    u = math.sqrt(sum(v * v for v in budget.values()))
+    u = root_sum_square(budget, name="the energy equivalent")
     if not math.isfinite(u) or u <= 0:
         raise UncertaintyError("the uncertainty of the energy equivalent could not be "
                                "propagated", column="calorimeter", found=u)
@@ -311,8 +312,8 @@ class SolutionEnthalpy:
     @property
     def u_independent_kJ_per_mol(self) -> float:
         """The part of u not shared with other runs of the same calorimeter, kJ/mol."""
-        return math.sqrt(sum(v * v for k, v in self.budget.items()
-                             if k not in SHARED_COMPONENTS))
+        return root_sum_square({k: v for k, v in self.budget.items()
+                                if k not in SHARED_COMPONENTS}, name="the independent part")
 
     def to_dict(self) -> dict[str, object]:
         return {f.name: jsonable(getattr(self, f.name)) for f in fields(self)}
@@ -365,7 +366,7 @@ def solution_enthalpy(
         budget[key] = abs(u_q / n) / 1000.0
     for key, u_q in (extra_uncertainties_J or {}).items():
         budget[key] = abs(u_q / n) / 1000.0
-    u = math.sqrt(sum(v * v for v in budget.values()))
+    u = root_sum_square(budget, name="the molar enthalpy")
     if not math.isfinite(u) or u <= 0:
         raise UncertaintyError("the uncertainty of the molar enthalpy could not be propagated",
                                column="amount_mol", found=u)

@@ -27,6 +27,7 @@ from calwork.solution.dilution import (
     electrolyte_by_name,
     extrapolate_to_infinite_dilution,
 )
+from calwork.uncertainty import root_sum_square
 
 __all__ = ["phi_L_model_for", "solution_samples"]
 
@@ -91,15 +92,16 @@ def _sample(name: str, formula: str | None, items: Sequence[RunResult], phi_L_mo
     H = np.array([r.molar_enthalpy_kJ_per_mol for r in items], dtype=float)
     n = H.size
     budgets = [dict(r.details.get("budget_kJ_per_mol", {})) for r in items]
-    u_ind = np.array([math.sqrt(sum(v * v for k, v in b.items() if k not in shared))
-                      for b in budgets])
+    u_ind = np.array([root_sum_square({k: v for k, v in b.items() if k not in shared},
+                                      name=f"run {r.run}")
+                      for b, r in zip(budgets, items, strict=True)])
     u_ind = np.where(u_ind > 0, u_ind, [r.u_molar_enthalpy_kJ_per_mol for r in items])
     propagated = math.sqrt(float(np.sum(u_ind**2))) / n
     sdm = float(H.std(ddof=1)) / math.sqrt(n) if n >= 2 else 0.0
     random = max(sdm, propagated)
     shared_parts = {k: float(np.mean([b.get(k, 0.0) for b in budgets]))
                     for k in sorted(shared) if any(k in b for b in budgets)}
-    u_mean = math.sqrt(random**2 + sum(v * v for v in shared_parts.values()))
+    u_mean = root_sum_square({"random": random, **shared_parts}, name=f"sample {name!r}")
     budget = {"random": random, **shared_parts}
     warnings: list[str] = []
     if n == 1:
