@@ -57,7 +57,7 @@ _export("calwork.solution", "reduce_solution_runs", "SolutionOptions", "electric
         "apparent_molar_enthalpy_pitzer", "extrapolate_to_infinite_dilution",
         "solution_determination", "determination_from_sample", "solve_cycle",
         "write_network_csv")
-_export("calwork.uncertainty", "propagate", "monte_carlo", "MonteCarloResult")
+_export("calwork.core.uncertainty", "propagate", "monte_carlo", "MonteCarloResult")
 _export("calwork.labbook", "Labbook", "open_labbook")
 _export("calwork.qa", "control_chart", "ControlChart", "plot_control_chart")
 _export("calwork.report", "write_workbook", "write_report", "safe_filename")

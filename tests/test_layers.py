@@ -16,7 +16,7 @@ SOURCES = {"calwork": ROOT / "calwork", "calwork.sample_runs": ROOT / "sample_ru
 LAYERS = {
     "core": 0,            # records shared by every stage
     "data": 1,            # cited data files and their loader
-    "formula": 2, "uncertainty": 2, "plausibility": 2,
+    "formula": 2, "plausibility": 2,
     "io": 3, "hess": 3, "qa": 3,  # importers; Hess's-law algebra and network; control charts
     "rise": 4,            # thermogram → corrected rise
     "bomb": 5, "solution": 5, "simulation": 5,  # energy chains; the simulator

@@ -18,11 +18,11 @@ from calwork.bomb.chain import reduce_calibration_run
 from calwork.bomb.washburn import Combustible, bomb_states
 from calwork.core.errors import ConvergenceError, RunError, UncertaintyError
 from calwork.core.runinfo import RunInfo
+from calwork.core.uncertainty import propagate_gradient as propagate
+from calwork.core.uncertainty import variance_component
 from calwork.hess import wls
 from calwork.rise import engine
 from calwork.simulation import CalorimeterParams, CombustionPulse, simulate_run
-from calwork.uncertainty import propagate_gradient as propagate
-from calwork.uncertainty import variance_component
 
 V_L, P_MPa, W_G, MASS = 0.342, 3.04, 1.0, 1.0012
 RISE = SimpleNamespace(corrected_rise_K=2.0, u_corrected_rise_K=2e-4, T_initial_K=298.15,

@@ -14,6 +14,8 @@ import pytest
 from test_rise_records import newtonian_record
 
 from calwork.core.errors import FitError, UncertaintyError
+from calwork.core.uncertainty import propagate_gradient as propagate
+from calwork.core.uncertainty import root_sum_square
 from calwork.rise import (
     Periods,
     corrected_rise,
@@ -34,8 +36,6 @@ from calwork.rise.drift import (
     trapezoid_weights_s,
 )
 from calwork.rise.newton import fit_newton, newton_rise
-from calwork.uncertainty import propagate_gradient as propagate
-from calwork.uncertainty import root_sum_square
 
 K_METHODS = 0.003 / 60.0  # 0.003 min⁻¹ (docs/methods.md §1.5 numerical check)
 

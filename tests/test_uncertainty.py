@@ -9,7 +9,7 @@ import pytest
 from scipy import stats
 
 from calwork.core.errors import UncertaintyError
-from calwork.uncertainty import (
+from calwork.core.uncertainty import (
     correlation_from_covariance,
     covariance_from_correlation,
     coverage_factor_t,

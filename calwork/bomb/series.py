@@ -31,8 +31,8 @@ from calwork.bomb.calibration import DEFAULT_RSD_LIMIT_PERCENT, series_statistic
 from calwork.bomb.fuels import fuel_outputs
 from calwork.core.errors import CalworkError, UncertaintyError
 from calwork.core.results import CalibrationResult, RunResult, SampleResult
+from calwork.core.uncertainty import root_sum_square, variance_component
 from calwork.data import load_data
-from calwork.uncertainty import root_sum_square, variance_component
 
 __all__ = [
     "SampleTerms",

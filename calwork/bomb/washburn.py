@@ -44,9 +44,9 @@ from calwork.bomb.gases import (
 from calwork.core.constants import T_REF_K, R_J_per_mol_K, STANDARD_PRESSURE_Pa
 from calwork.core.errors import ConvergenceError, RunError, UncertaintyError
 from calwork.core.results import jsonable
+from calwork.core.uncertainty import root_sum_square
 from calwork.data import load_data
 from calwork.formula import element_counts, molar_mass_g_per_mol
-from calwork.uncertainty import root_sum_square
 
 __all__ = [
     "BombState",

@@ -23,6 +23,7 @@ import scipy.sparse as sp
 
 from calwork.core.constants import T_REF_K
 from calwork.core.errors import NetworkError, check_choice
+from calwork.core.uncertainty import standard_uncertainty
 from calwork.hess.diagnostics import (
     Screening,
     anchor_conflicts,
@@ -38,7 +39,6 @@ from calwork.hess.network_result import NetworkResult, free_directions, monte_ca
 from calwork.hess.reactions import Reaction
 from calwork.hess.species import Species, reference_states, species_or_parse
 from calwork.hess.wls import solve_wls
-from calwork.uncertainty import standard_uncertainty
 
 __all__ = ["WORST_OFFENDER_MODES", "Network", "solve_network"]
 

@@ -17,8 +17,8 @@ The standard uncertainty of ``ΔT_c`` combines, in quadrature,
   decaying after ``t_f``, fitted on the late main period and propagated through the method
   (:mod:`calwork.rise.tail`); present only when that tail is significant.
 
-The components are combined by :func:`calwork.uncertainty.root_sum_square` into a
-:class:`calwork.uncertainty.Budget` in kelvin (``RiseResult.uncertainty_budget``).
+The components are combined by :func:`calwork.core.uncertainty.root_sum_square` into a
+:class:`calwork.core.uncertainty.Budget` in kelvin (``RiseResult.uncertainty_budget``).
 """
 
 from __future__ import annotations
@@ -38,6 +38,7 @@ from calwork.core.errors import (
 )
 from calwork.core.provenance import Provenance, calwork_version
 from calwork.core.thermogram import Thermogram
+from calwork.core.uncertainty import Budget, root_sum_square
 from calwork.rise.diagnostics import format_times, sampling_gaps, warning
 from calwork.rise.events import LogEvent, LogEvents, list_heat_events
 from calwork.rise.periods import Periods, detect_periods
@@ -45,7 +46,6 @@ from calwork.rise.registry import DICKINSON_RULES, METHODS, RiseMethod, rise_met
 from calwork.rise.result import RiseResult
 from calwork.rise.selection import MethodOutput, Selection, select
 from calwork.rise.tail import tail_correction, tail_model
-from calwork.uncertainty import Budget, root_sum_square
 
 __all__ = ["corrected_rise"]
 

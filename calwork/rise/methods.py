@@ -14,6 +14,7 @@ from typing import Any
 import numpy as np
 
 from calwork.core.errors import FitError, PeriodDetectionError, UncertaintyError
+from calwork.core.uncertainty import numeric_gradient, propagate_gradient
 from calwork.rise.diagnostics import ar1_inflation, warning
 from calwork.rise.dickinson import dickinson_exact_tx_s, dickinson_rise_K, time_at_fraction_s
 from calwork.rise.drift import (
@@ -26,7 +27,6 @@ from calwork.rise.newton import fit_newton, newton_rise
 from calwork.rise.regnault_pfaundler import regnault_pfaundler_rise_K
 from calwork.rise.result import DriftCurve
 from calwork.rise.selection import LineFit, MethodOutput, Selection, fit_line
-from calwork.uncertainty import numeric_gradient, propagate_gradient
 
 __all__ = [
     "newton_rise_only",

@@ -21,13 +21,13 @@ from dataclasses import dataclass
 import numpy as np
 
 from calwork.core.errors import FitError
+from calwork.core.uncertainty import standard_uncertainty
 from calwork.rise.drift import (
     convergence_temperature_K,
     corrected_rise_K,
     exchange_from_drift_K,
     relaxation_terms,
 )
-from calwork.uncertainty import standard_uncertainty
 
 __all__ = ["NewtonFit", "fit_newton", "newton_rise"]
 

@@ -11,9 +11,9 @@ import numpy as np
 
 from calwork.core.provenance import Provenance
 from calwork.core.results import jsonable
+from calwork.core.uncertainty import Budget
 from calwork.rise.drift import drift_curve_K
 from calwork.rise.periods import Periods
-from calwork.uncertainty import Budget
 
 __all__ = ["JSON_KEYS", "DriftCurve", "RiseResult"]
 

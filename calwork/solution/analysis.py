@@ -19,6 +19,7 @@ import numpy as np
 from calwork.core.errors import PeriodDetectionError, RunError, check_choice
 from calwork.core.numeric import median
 from calwork.core.thermogram import Thermogram
+from calwork.core.uncertainty import root_sum_square
 from calwork.rise import Periods, corrected_rise
 from calwork.rise.events import LogEvent, LogEvents, find_events
 from calwork.solution.electrical import (
@@ -31,7 +32,6 @@ from calwork.solution.electrical import (
     heater_power_W,
 )
 from calwork.solution.reaction import CALIBRATION_BASES
-from calwork.uncertainty import root_sum_square
 
 __all__ = ["HeaterCalibration", "LogAnalysis", "SolutionOptions", "analyse_log", "event_periods"]
 

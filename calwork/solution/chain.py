@@ -47,6 +47,7 @@ from calwork.core.provenance import Provenance
 from calwork.core.results import CalibrationResult, ChainResult, RunResult, failed_run
 from calwork.core.runinfo import SOLUTION_KINDS, RunInfo
 from calwork.core.thermogram import Thermogram
+from calwork.core.uncertainty import root_sum_square
 from calwork.io import load_run_log
 from calwork.solution.analysis import LogAnalysis, SolutionOptions, analyse_log
 from calwork.solution.blanks import BlankCorrection, blank_correction
@@ -61,7 +62,6 @@ from calwork.solution.reaction import (
 )
 from calwork.solution.samples import solution_samples
 from calwork.solution.vaporisation import vaporisation_correction_J
-from calwork.uncertainty import root_sum_square
 
 __all__ = ["reduce_solution_runs"]
 

@@ -30,8 +30,8 @@ from dataclasses import dataclass, fields
 import numpy as np
 
 from calwork.core.errors import RunError, UncertaintyError, check_choice
+from calwork.core.uncertainty import root_sum_square
 from calwork.data import load_data
-from calwork.uncertainty import root_sum_square
 
 __all__ = [
     "POTENTIAL_LEADS",

@@ -34,9 +34,9 @@ from dataclasses import dataclass, field, fields
 
 from calwork.core.errors import CalibrationError, RunError, UncertaintyError, check_choice
 from calwork.core.results import jsonable
+from calwork.core.uncertainty import root_sum_square
 from calwork.data import load_data
 from calwork.formula import molar_mass_g_per_mol
-from calwork.uncertainty import root_sum_square
 
 __all__ = [
     "CALIBRATION_BASES",

@@ -23,11 +23,11 @@ from calwork.core.constants import T_REF_K
 from calwork.core.errors import CalworkError
 from calwork.core.results import RunResult, SampleResult
 from calwork.core.runinfo import RunInfo
+from calwork.core.uncertainty import root_sum_square
 from calwork.solution.dilution import (
     electrolyte_by_name,
     extrapolate_to_infinite_dilution,
 )
-from calwork.uncertainty import root_sum_square
 
 __all__ = ["phi_L_model_for", "solution_samples"]
 

@@ -20,7 +20,6 @@ from collections.abc import Callable, Iterable, Iterator, Mapping, Sequence
 from dataclasses import dataclass, field
 
 import numpy as np
-from scipy import stats
 
 from calwork.core.errors import UncertaintyError
 
@@ -362,7 +361,11 @@ def coverage_factor_t(dof: float, coverage: float = 0.95) -> float:
     if not 0 < coverage < 1:
         raise UncertaintyError("coverage probability must be in (0, 1)", found=coverage)
     if math.isinf(dof):
+        from scipy import stats  # imported on first use: core stays light
+
         return float(stats.norm.ppf(0.5 + coverage / 2))
+    from scipy import stats
+
     return float(stats.t.ppf(0.5 + coverage / 2, dof))
 
 
