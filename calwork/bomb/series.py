@@ -31,7 +31,7 @@ from calwork.bomb.calibration import DEFAULT_RSD_LIMIT_PERCENT, series_statistic
 from calwork.bomb.fuels import fuel_outputs
 from calwork.core.errors import CalworkError, UncertaintyError
 from calwork.core.results import CalibrationResult, RunResult, SampleResult
-from calwork.core.uncertainty import root_sum_square, variance_component
+from calwork.core.uncertainty import Budget, root_sum_square, variance_component
 from calwork.data import load_data
 
 __all__ = [
@@ -92,12 +92,19 @@ def calibration_series(
         std_dev_J_per_K=math.nan if st.std_dev is None else st.std_dev,
         std_dev_of_mean_J_per_K=sdm, runs=names, values_J_per_K=values,
         method="reference-material: " + ", ".join(materials),
-        budget={"std_dev_of_mean_J_per_K": sdm, "certificate_J_per_K": u_cert,
-                "corrections_J_per_K": u_corr,
-                "certificate_relative": u_r_cert, "certified_J_per_g": certs[0]
-                if len(certs) == 1 else math.nan,
-                "rsd_limit_percent": math.nan if rsd_limit_percent is None
-                else rsd_limit_percent},
+        budget=Budget.of(
+            "energy equivalent ε", "J/K",
+            {"std_dev_of_mean_J_per_K": sdm, "certificate_J_per_K": u_cert,
+             "corrections_J_per_K": u_corr, "certificate_relative": u_r_cert},
+            units={"certificate_relative": "1"},
+            keys={"std_dev_of_mean_J_per_K": f"calibration {calorimeter}",
+                  "certificate_J_per_K": f"certificate {certs[0]:g} J/g"
+                  if len(certs) == 1 else "certificates",
+                  "certificate_relative": f"certificate {certs[0]:g} J/g"
+                  if len(certs) == 1 else "certificates",
+                  "corrections_J_per_K": "correction constants"}),
+        certified_J_per_g=certs[0] if len(certs) == 1 and math.isfinite(certs[0]) else None,
+        rsd_limit_percent=rsd_limit_percent,
         outlier_test=st.outlier_test, warnings=warnings,
         correction_per_rise_J_per_K=per_rise,
     )
@@ -160,7 +167,8 @@ def sample_series(
         sens = r.details["d_massic_energy_d_epsilon_K_per_g"] / n
         key = ("calibration", cal.calorimeter)
         shared[key] = shared.get(key, 0.0) + sens * cal.budget["std_dev_of_mean_J_per_K"]
-        ckey = ("certificate", cal.budget.get("certified_J_per_g"))
+        ckey = ("certificate", math.nan if cal.certified_J_per_g is None
+                else cal.certified_J_per_g)
         shared[ckey] = shared.get(ckey, 0.0) + sens * cal.budget["certificate_J_per_K"]
         # A correction constant (fuse J/cm, ΔfU(HNO3), the ignition estimate…) serves the
         # calibration and the sample runs alike: its relative error r moves Δu by
@@ -182,7 +190,7 @@ def sample_series(
             [abs(v) for k, v in shared.items() if k[0] == part],
             name=f"the {part} share of u(Δu) of {sample!r}")
     u_bomb = root_sum_square(bomb_budget, name=f"Δu of {sample!r}")
-    budget: dict[str, float] = dict(bomb_budget)
+    budget = dict(bomb_budget)
     standard = u_standard = None
     if all(r.standard_massic_energy_J_per_g is not None for r in runs):
         standard = float(np.mean([r.standard_massic_energy_J_per_g for r in runs]))
@@ -195,9 +203,6 @@ def sample_series(
     if u_bomb <= 0 or not math.isfinite(u_bomb):
         raise UncertaintyError(f"sample {sample!r}: the uncertainty could not be propagated",
                                found=u_bomb)
-    budget["u_massic_energy_J_per_g"] = u_bomb
-    if u_standard is not None:
-        budget["u_standard_massic_energy_J_per_g"] = u_standard
     fuel = _fuel(runs, info0)
     result = SampleResult(
         sample=sample, formula=info0.formula, n_runs=n, runs=[r.run for r in runs],
@@ -206,7 +211,13 @@ def sample_series(
         massic_energy_J_per_g=st.mean, u_massic_energy_J_per_g=u_bomb,
         standard_massic_energy_J_per_g=standard,
         u_standard_massic_energy_J_per_g=u_standard,
-        budget=budget, fuel=fuel, warnings=warnings, coverage_factor=2.0,
+        budget=Budget.of("standard massic energy Δu°" if u_standard is not None
+                         else "massic energy Δu", "J/g", budget,
+                         keys={"calibration_J_per_g": "calibration",
+                               "certificate_J_per_g": "certificate",
+                               "corrections_J_per_g": "correction constants",
+                               "washburn_J_per_g": "Washburn data"}),
+        fuel=fuel, warnings=warnings, coverage_factor=2.0,
     )
     return result, SampleTerms(sample=sample, scatter_J_per_g=scatter, shared=shared)
 
@@ -320,15 +331,17 @@ def formation_enthalpies(
                                      "unit": "(kJ/mol)^2",
                                      "matrix": links.covariance.tolist()})
             for i, link in zip(batch, links.links, strict=True):
-                budget = dict(out[i].budget)
                 # the key values' share of u(Δ_fH°): u_f² − u_c² (the two are independent)
-                budget["key_values_kJ_per_mol"] = math.sqrt(variance_component(
+                key_values = math.sqrt(variance_component(
                     link.u_delta_f_H_kJ_per_mol**2 - link.u_delta_c_H_kJ_per_mol**2,
                     magnitude=link.u_delta_f_H_kJ_per_mol**2, name="key-value component"))
-                budget["u_delta_c_H_kJ_per_mol"] = link.u_delta_c_H_kJ_per_mol
-                budget["u_delta_f_H_kJ_per_mol"] = link.u_delta_f_H_kJ_per_mol
+                formation = Budget.of(
+                    "standard enthalpy of formation Δ_fH°", "kJ/mol",
+                    {"combustion_kJ_per_mol": link.u_delta_c_H_kJ_per_mol,
+                     "key_values_kJ_per_mol": key_values},
+                    keys={"key_values_kJ_per_mol": "key values"})
                 out[i] = replace(
-                    out[i], budget=budget,
+                    out[i], derived_budgets={**out[i].derived_budgets, "delta_f_H": formation},
                     delta_c_U_kJ_per_mol=link.delta_c_U_kJ_per_mol,
                     u_delta_c_U_kJ_per_mol=link.u_delta_c_U_kJ_per_mol,
                     delta_c_H_kJ_per_mol=link.delta_c_H_kJ_per_mol,

@@ -258,10 +258,10 @@ def reduction_markdown(red: Reduction) -> str:
                 v = getattr(s, key, None)
                 if v is not None:
                     lines.append(f"- {key}: {_fmt(v, 3)}")
-            if s.budget:
-                lines.append("- budget: " + ", ".join(
-                    f"{k} {_fmt(v, 4) if isinstance(v, float) else v}"
-                    for k, v in s.budget.items()))
+            for budget in (s.budget, *s.derived_budgets.values()):
+                if budget:
+                    lines.append(f"- budget of {budget.quantity}: " + ", ".join(
+                        f"{c.name} {_fmt(c.value, 4)} {c.unit}" for c in budget.components))
             if s.fuel:
                 lines.append("- fuel: " + ", ".join(f"{k} {_fmt(v, 3)}"
                                                     for k, v in s.fuel.items()))

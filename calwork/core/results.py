@@ -14,6 +14,7 @@ from types import MappingProxyType
 from typing import Any
 
 from calwork.core.provenance import Provenance
+from calwork.core.uncertainty import Budget
 
 __all__ = ["CalibrationResult", "ChainResult", "Reduction", "RunResult", "SampleResult",
            "failed_run", "jsonable"]
@@ -32,6 +33,13 @@ def jsonable(value: Any) -> Any:
     if isinstance(value, float) and not math.isfinite(value):
         return None
     return value
+
+
+def _check_budget(*budgets: Any) -> None:
+    for budget in budgets:
+        if not isinstance(budget, Budget):
+            raise TypeError("a result's budget is a calwork.core.uncertainty.Budget (each "
+                            f"component with its unit), not {type(budget).__name__}")
 
 
 def _freeze(obj: Any, *names: str) -> None:
@@ -104,8 +112,13 @@ class CalibrationResult:
     runs: tuple[str, ...]
     values_J_per_K: tuple[float, ...] = ()
     method: str = "reference-material"
-    #: Budget components of u(ε), J/K.
-    budget: Mapping[str, float] = field(default_factory=dict)
+    #: The components of u(ε), each with its unit (J/K, or 1 for the certificate's relative u).
+    budget: Budget = field(default_factory=lambda: Budget(quantity="energy equivalent",
+                                                          unit="J/K"))
+    #: The reference material's certified massic energy, J/g (calibration with a material).
+    certified_J_per_g: float | None = None
+    #: The acceptance limit applied to the series' RSD, % (``None``: none applied).
+    rsd_limit_percent: float | None = None
     outlier_test: Mapping[str, Any] = field(default_factory=dict)
     warnings: tuple[str, ...] = ()
     #: Mean over the series of each correction energy divided by the corrected rise, J/K:
@@ -114,7 +127,8 @@ class CalibrationResult:
     correction_per_rise_J_per_K: Mapping[str, float] = field(default_factory=dict)
 
     def __post_init__(self) -> None:
-        _freeze(self, "budget", "outlier_test", "correction_per_rise_J_per_K")
+        _check_budget(self.budget)
+        _freeze(self, "outlier_test", "correction_per_rise_J_per_K")
         object.__setattr__(self, "runs", tuple(self.runs))
         object.__setattr__(self, "values_J_per_K", tuple(self.values_J_per_K))
         object.__setattr__(self, "warnings", tuple(self.warnings))
@@ -153,15 +167,19 @@ class SampleResult:
     final_molality_mol_per_kg: float | None = None
     infinite_dilution_enthalpy_kJ_per_mol: float | None = None
     u_infinite_dilution_enthalpy_kJ_per_mol: float | None = None
-    #: Uncertainty budget: component name -> contribution to u, in the unit of the quantity.
-    budget: Mapping[str, float] = field(default_factory=dict)
+    #: The components of u of the series' main quantity (Δu° or ΔH), each with its unit.
+    budget: Budget = field(default_factory=lambda: Budget(quantity="", unit=""))
+    #: Budgets of quantities derived from it: ``'delta_f_H'`` (bomb) or
+    #: ``'infinite_dilution'`` (solution).
+    derived_budgets: Mapping[str, Budget] = field(default_factory=dict)
     #: Fuel outputs (gross/net calorific values, positive, J/g) when asked for.
     fuel: Mapping[str, float] = field(default_factory=dict)
     key_values_used: Mapping[str, Any] = field(default_factory=dict)
     warnings: tuple[str, ...] = ()
 
     def __post_init__(self) -> None:
-        _freeze(self, "budget", "fuel", "key_values_used")
+        _check_budget(self.budget, *self.derived_budgets.values())
+        _freeze(self, "derived_budgets", "fuel", "key_values_used")
         object.__setattr__(self, "runs", tuple(self.runs))
         object.__setattr__(self, "warnings", tuple(self.warnings))
 

@@ -275,13 +275,22 @@ class Budget(Mapping[str, float]):
         return Budget(quantity=self.quantity, unit=self.unit,
                       components=(*self.components, extra))
 
-    def to_dict(self) -> dict[str, float]:
-        """``{name: contribution}`` (the JSON form; units are in :meth:`describe`)."""
-        return {c.name: c.value for c in self.components}
+    def to_dict(self) -> dict[str, object]:
+        """The JSON form: quantity, unit and every component with its unit (read back by
+        :meth:`from_dict`)."""
+        return {"quantity": self.quantity, "unit": self.unit,
+                "components": [c.to_dict() for c in self.components]}
 
-    def describe(self) -> list[dict[str, object]]:
-        """Every component with its unit, sensitivity and correlation key (reports)."""
-        return [c.to_dict() for c in self.components]
+    @classmethod
+    def from_dict(cls, data: Mapping[str, object]) -> Budget:
+        """The budget :meth:`to_dict` wrote. A flat ``{name: value}`` mapping (results
+        stored before budgets carried units) is read with the unit ``'(not recorded)'``."""
+        if "components" not in data:
+            return cls.of("(not recorded)", "(not recorded)",
+                          {str(k): float(v) for k, v in data.items()
+                           if isinstance(v, int | float) and math.isfinite(v)})
+        return cls(quantity=str(data["quantity"]), unit=str(data["unit"]), components=tuple(
+            Component(**c) for c in data["components"]))
 
 def propagate_linear(jacobian: np.ndarray, covariance: np.ndarray) -> np.ndarray:
     """Output covariance ``J U_x Jᵀ`` (GUM §5.2, JCGM 102 for vector outputs).

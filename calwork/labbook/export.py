@@ -14,6 +14,7 @@ from calwork.core.errors import CalworkError, LabbookError
 from calwork.core.provenance import Provenance
 from calwork.core.results import CalibrationResult, Reduction, RunResult, SampleResult
 from calwork.core.runinfo import RunInfo
+from calwork.core.uncertainty import Budget
 from calwork.labbook.blobs import get_blob, write_inside
 from calwork.labbook.queries import Filters, list_calibrations, list_runs, list_samples
 
@@ -47,6 +48,11 @@ def _build(cls: type, data: Mapping[str, Any]) -> Any:
     kwargs = {k: v for k, v in data.items() if k in names}
     if "provenance" in kwargs and kwargs["provenance"] is not None:
         kwargs["provenance"] = _provenance(kwargs["provenance"])
+    if isinstance(kwargs.get("budget"), Mapping):
+        kwargs["budget"] = Budget.from_dict(kwargs["budget"])
+    if isinstance(kwargs.get("derived_budgets"), Mapping):
+        kwargs["derived_budgets"] = {k: Budget.from_dict(v)
+                                     for k, v in kwargs["derived_budgets"].items()}
     return cls(**kwargs)
 
 

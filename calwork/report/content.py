@@ -27,7 +27,6 @@ from calwork.report.texts import (
     is_simulated,
     primary_rise,
     simulated_runs,
-    unit_of_budget_key,
 )
 
 __all__ = ["Document", "Figure", "Paragraph", "Section", "Table", "build_document", "fmt"]
@@ -98,17 +97,18 @@ def _png(draw: Callable[[Any], None], size: tuple[float, float]) -> bytes:
     return buf.getvalue()
 
 
-def _budget_table(budget: Any, default_unit: str = "") -> Table:
+def _budget_table(*budgets: Any) -> Table:
+    """The components of each budget with their units, and each budget's combined u."""
     rows = []
-    for key, value in budget.items():
-        if not isinstance(value, (int, float)) or isinstance(value, bool):
-            continue
-        unit = unit_of_budget_key(key) or default_unit
-        name = key
-        for suffix in ("_J_per_K", "_J_per_g", "_kJ_per_mol", "_percent"):
-            name = name.removesuffix(suffix)
-        kind = "combined" if key.startswith("u_") else "component"
-        rows.append([name.replace("_", " "), kind, fmt(value, 4, sig=True), unit])
+    for budget in budgets:
+        for c in budget.components:
+            name = c.name
+            for suffix in ("_J_per_K", "_J_per_g", "_kJ_per_mol", "_percent"):
+                name = name.removesuffix(suffix)
+            rows.append([name.replace("_", " "), "component", fmt(c.value, 4, sig=True),
+                         c.unit])
+        rows.append([f"u({budget.quantity})", "combined", fmt(budget.total(), 4, sig=True),
+                     budget.unit])
     return Table(["component", "", "standard uncertainty u (k = 1)", "unit"], rows,
                  "Uncertainty budget (standard uncertainties, k = 1; GUM propagation)")
 
@@ -217,8 +217,8 @@ def _solution_sample(s: Any, red: Any, sec: Section) -> Section:
                   s.u_infinite_dilution_enthalpy_kJ_per_mol, 3)
         lines.append(f"ΔH at infinite dilution = {inf} kJ/mol (u, k = 1).")
     sec.blocks.extend(Paragraph(t) for t in lines)
-    if s.budget:  # the solution chain's components are kJ/mol (calwork.solution.samples)
-        sec.blocks.append(_budget_table(s.budget, "kJ/mol"))
+    if s.budget:
+        sec.blocks.append(_budget_table(s.budget, *s.derived_budgets.values()))
     by_id = {r.run: r for r in red.runs}
     rows = [[rid, fmt(by_id[rid].final_molality_mol_per_kg, 5),
              fmt(by_id[rid].corrected_rise_K, 6), fmt(by_id[rid].energy_equivalent_J_per_K, 3),
@@ -250,7 +250,7 @@ def _sample(s: Any, red: Any, anchor: str) -> Section:
             f"U = {fmt(s.U_delta_f_H_kJ_per_mol, 2)} kJ/mol (k = {k:g}).")
     sec.blocks.extend(Paragraph(t) for t in lines)
     if s.budget:
-        sec.blocks.append(_budget_table(s.budget))
+        sec.blocks.append(_budget_table(s.budget, *s.derived_budgets.values()))
     values = s.key_values_used.get("values") if s.key_values_used else None
     if values:
         sec.blocks.append(Table(

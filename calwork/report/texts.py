@@ -11,7 +11,6 @@ __all__ = [
     "primary_rise",
     "rise_method",
     "simulated_runs",
-    "unit_of_budget_key",
 ]
 
 #: Label for anything that comes from simulated (invented) data.
@@ -51,12 +50,3 @@ def primary_rise(run: Any) -> Any:
 def rise_method(run: Any, default: str | None = None) -> str | None:
     """The corrected-rise method behind a run's numbers (``default``: the reduction's)."""
     return getattr(primary_rise(run), "method", None) or default
-
-
-def unit_of_budget_key(key: str) -> str:
-    """The unit a budget entry's name ends with (``'u_mass_J_per_g'`` → ``'J/g'``), or ``''``."""
-    for suffix, unit in (("_J_per_K", "J/K"), ("_J_per_g", "J/g"), ("_kJ_per_mol", "kJ/mol"),
-                         ("_percent", "%"), ("_relative", "1")):
-        if key.endswith(suffix):
-            return unit
-    return ""

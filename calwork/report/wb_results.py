@@ -19,7 +19,7 @@ from calwork.formula import ATOMIC_WEIGHT_SOURCE, element_counts
 from calwork.report.formulas import Const, Expr, Ref, average, count, func, quadrature, sqrt
 from calwork.report.formulas import stdev as stdev_of
 from calwork.report.plan import Plan, Table
-from calwork.report.texts import SIMULATED_NOTE, simulated_runs, unit_of_budget_key
+from calwork.report.texts import SIMULATED_NOTE, simulated_runs
 from calwork.report.wb_runs import runs_of
 
 __all__ = [
@@ -225,7 +225,7 @@ def _calibration_budget(plan: Plan, table: Table, row: int, c: Any) -> int:
         if isinstance(value, (int, float)) and math.isfinite(value):
             # components without a unit suffix are J/K, like u(ε) (calwork.solution.chain)
             _budget_row(table, row, name, q, f"(information) {key}", float(value),
-                        unit_of_budget_key(key) or "J/K")
+                        c.budget.unit_of(key))
             row += 1
     ref = _budget_row(table, row, name, q, "combined u(ε) = √(Σ u_i²)", total_content, "J/K",
                       "formula" if not isinstance(total_content, float) else "calwork")
@@ -262,7 +262,7 @@ def _sample_budget(plan: Plan, table: Table, row: int, s: Any) -> int:
             parts.append(_budget_row(table, row, name, q, _PART_NAMES[key], content, "J/g",
                                      how))
             row += 1
-        u_reported = b.pop("u_massic_energy_J_per_g", s.u_massic_energy_J_per_g)
+        u_reported = s.u_massic_energy_J_per_g
         u_du = _budget_row(table, row, name, q, "combined u(Δu) = √(Σ u_i²)",
                            plan.checked(quadrature(*parts), u_reported, f"u(Δu) of {name}"),
                            "J/g", "formula")
@@ -272,23 +272,20 @@ def _sample_budget(plan: Plan, table: Table, row: int, s: Any) -> int:
             q0 = "standard massic energy Δu°"
             w = _budget_row(table, row, name, q0, _PART_NAMES["washburn_J_per_g"],
                             b.pop("washburn_J_per_g"), "J/g", "calwork (GUM propagation)")
-            u0 = b.pop("u_standard_massic_energy_J_per_g", s.u_standard_massic_energy_J_per_g)
+            u0 = s.u_standard_massic_energy_J_per_g
             plan.refs[("u_du0", name)] = _budget_row(
                 table, row + 1, name, q0, "combined u(Δu°) = √(u²(Δu) + u²(Washburn))",
                 plan.checked(quadrature(u_du, w), u0, f"u(Δu°) of {name}"), "J/g", "formula")
             row += 2
-    for key, value in b.items():
-        if key in ("key_values_kJ_per_mol", "u_delta_c_H_kJ_per_mol", "u_delta_f_H_kJ_per_mol"):
-            continue  # these are written as formulas on the Formation sheet
-        if isinstance(value, (int, float)) and math.isfinite(value):
-            quantity, unit = "", unit_of_budget_key(key)
-            if s.kind != "combustion" and not unit:
-                # the solution chain's sample budget is in kJ/mol (calwork.solution.samples)
-                unit = "kJ/mol"
-                quantity = ("ΔH at infinite dilution" if key == "infinite_dilution_fit"
-                            else "molar enthalpy ΔH")
-            _budget_row(table, row, name, quantity, key, float(value), unit, "calwork")
-            row += 1
+    # the rest as calwork computed them (the formation budget is written as formulas on the
+    # Formation sheet)
+    rest = [(s.budget, key) for key in b]
+    rest += [(budget, c.name) for label, budget in s.derived_budgets.items()
+             if label != "delta_f_H" for c in budget.components]
+    for budget, key in rest:
+        _budget_row(table, row, name, budget.quantity, key, budget[key], budget.unit_of(key),
+                    "calwork")
+        row += 1
     for key, attr in (("u_du", "u_massic_energy_J_per_g"),
                       ("u_du0", "u_standard_massic_energy_J_per_g")):
         ref = plan.refs.get((key, name))
@@ -454,7 +451,9 @@ def _formation_row(plan: Plan, table: Table, row: int, s: Any, R: Ref, T: Ref,
     out["dfH"] = table.put(row, "dfH", plan.checked(
         n["C"] * co2 + n["H"] / 2.0 * h2o - dcH, s.delta_f_H_kJ_per_mol, f"ΔfH° of {name}"))
     u_kv = table.put(row, "u_kv", plan.checked(
-        quadrature(n["C"] * u_co2, n["H"] / 2.0 * u_h2o), s.budget.get("key_values_kJ_per_mol"),
+        quadrature(n["C"] * u_co2, n["H"] / 2.0 * u_h2o),
+        s.derived_budgets["delta_f_H"]["key_values_kJ_per_mol"]
+        if "delta_f_H" in s.derived_budgets else None,
         f"key-value part of u(ΔfH°) of {name}"))
     if u_dcH is not None and u_kv is not None:
         out["u_dfH"] = u_dfH = table.put(row, "u_dfH", plan.checked(

@@ -47,7 +47,7 @@ from calwork.core.provenance import Provenance
 from calwork.core.results import CalibrationResult, ChainResult, RunResult, failed_run
 from calwork.core.runinfo import SOLUTION_KINDS, RunInfo
 from calwork.core.thermogram import Thermogram
-from calwork.core.uncertainty import root_sum_square
+from calwork.core.uncertainty import Budget, root_sum_square
 from calwork.io import load_run_log
 from calwork.solution.analysis import LogAnalysis, SolutionOptions, analyse_log
 from calwork.solution.blanks import BlankCorrection, blank_correction
@@ -150,7 +150,9 @@ def _series(calorimeter: str, items: list[tuple[RunResult, dict[str, float]]]
         n_runs=n, rsd_percent=rsd, std_dev_J_per_K=s, std_dev_of_mean_J_per_K=sdm,
         runs=tuple(r.run for r, _ in items), values_J_per_K=tuple(values.tolist()),
         method="electrical",
-        budget={"std_dev_of_mean": 0.0 if n < 2 else sdm, "power_calibration": shared},
+        budget=Budget.of("energy equivalent ε", "J/K",
+                         {"std_dev_of_mean": 0.0 if n < 2 else sdm, "power_calibration": shared},
+                         keys={"power_calibration": "heater power calibration"}),
         warnings=tuple(warnings),
     )
 

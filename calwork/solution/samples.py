@@ -23,7 +23,7 @@ from calwork.core.constants import T_REF_K
 from calwork.core.errors import CalworkError
 from calwork.core.results import RunResult, SampleResult
 from calwork.core.runinfo import RunInfo
-from calwork.core.uncertainty import root_sum_square
+from calwork.core.uncertainty import Budget, root_sum_square
 from calwork.solution.dilution import (
     electrolyte_by_name,
     extrapolate_to_infinite_dilution,
@@ -103,6 +103,7 @@ def _sample(name: str, formula: str | None, items: Sequence[RunResult], phi_L_mo
                     for k in sorted(shared) if any(k in b for b in budgets)}
     u_mean = root_sum_square({"random": random, **shared_parts}, name=f"sample {name!r}")
     budget = {"random": random, **shared_parts}
+    derived: dict[str, Budget] = {}
     warnings: list[str] = []
     if n == 1:
         warnings.append("a single run: no repeatability estimate")
@@ -128,12 +129,14 @@ def _sample(name: str, formula: str | None, items: Sequence[RunResult], phi_L_mo
                 warnings.append(f"no extrapolation to infinite dilution: {exc}")
             else:
                 inf = ext.infinite_dilution_enthalpy_kJ_per_mol
-                u_inf = math.sqrt(ext.u_infinite_dilution_enthalpy_kJ_per_mol**2
-                                  + sum(v * v for v in shared_parts.values()))
+                derived["infinite_dilution"] = Budget.of(
+                    "ΔH at infinite dilution", "kJ/mol",
+                    {"infinite_dilution_fit": ext.u_infinite_dilution_enthalpy_kJ_per_mol,
+                     **shared_parts}, keys={k: k for k in shared_parts})
+                u_inf = derived["infinite_dilution"].total()
                 warnings.append(f"infinite dilution: {ext.method}, ΦL model {model!r}"
                                 + (f" ({electrolyte})" if electrolyte else ""))
                 warnings.extend(ext.warnings)
-                budget["infinite_dilution_fit"] = ext.u_infinite_dilution_enthalpy_kJ_per_mol
     else:
         warnings.append("final molality unknown for some runs: no extrapolation to infinite "
                         "dilution")
@@ -142,6 +145,9 @@ def _sample(name: str, formula: str | None, items: Sequence[RunResult], phi_L_mo
         kind="solution", calorimeter=calorimeters.pop() if len(calorimeters) == 1 else None,
         molar_enthalpy_kJ_per_mol=float(H.mean()), u_molar_enthalpy_kJ_per_mol=u_mean,
         final_molality_mol_per_kg=mean_m, infinite_dilution_enthalpy_kJ_per_mol=inf,
-        u_infinite_dilution_enthalpy_kJ_per_mol=u_inf, budget=budget,
+        u_infinite_dilution_enthalpy_kJ_per_mol=u_inf,
+        budget=Budget.of("molar enthalpy ΔH", "kJ/mol", budget,
+                         keys={k: k for k in shared_parts}),
+        derived_budgets=derived,
         warnings=tuple(warnings),
     )
