@@ -48,7 +48,7 @@ _export("calwork.hess", "parse_species", "Species", "parse_equation", "Reaction"
         "combustion_link", "combustion_link_many", "combustion_reaction", "read_network_file")
 _export("calwork.reduce", "reduce_runs", "reduce_sheet")
 _export("calwork.bomb", "jessup_factor", "buoyancy_factor", "mass_in_vacuum_g",
-        "washburn_correction", "calibration_series", "grubbs_test", "nitric_acid_energy_J",
+        "washburn_correction", "calibration_series", "nitric_acid_energy_J",
         "sulfuric_acid_energy_J", "gross_calorific_value_J_per_g",
         "net_calorific_value_J_per_g", "convert_basis", "convert_calorific_value",
         "fuel_outputs")
@@ -58,6 +58,7 @@ _export("calwork.solution", "reduce_solution_runs", "SolutionOptions", "electric
         "solution_determination", "determination_from_sample", "solve_cycle",
         "write_network_csv")
 _export("calwork.core.uncertainty", "propagate", "monte_carlo", "MonteCarloResult")
+_export("calwork.core.statistics", "grubbs_test", "series_statistics")
 _export("calwork.labbook", "Labbook", "open_labbook")
 _export("calwork.qa", "control_chart", "ControlChart", "plot_control_chart")
 _export("calwork.report", "write_workbook", "write_report", "safe_filename")

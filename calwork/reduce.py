@@ -22,12 +22,12 @@ from dataclasses import replace
 from pathlib import Path
 from typing import Any
 
-from calwork.bomb.calibration import DEFAULT_RSD_LIMIT_PERCENT
 from calwork.bomb.pipeline import reduce_bomb_runs
 from calwork.core.errors import DuplicateRunError, RunError, check_choice
 from calwork.core.provenance import Provenance
 from calwork.core.results import ChainResult, Reduction, RunResult, failed_run
 from calwork.core.runinfo import BOMB_KINDS, RUN_KINDS, SOLUTION_KINDS, RunInfo
+from calwork.core.statistics import DEFAULT_RSD_LIMIT_PERCENT
 from calwork.io import read_run_sheet, unknown_columns
 from calwork.rise import METHODS
 from calwork.solution.chain import reduce_solution_runs

@@ -9,7 +9,6 @@ import pytest
 from scipy import stats
 
 from calwork.bomb.buoyancy import buoyancy_factor, mass_in_vacuum_g
-from calwork.bomb.calibration import grubbs_critical_value, grubbs_test, series_statistics
 from calwork.bomb.certificate import (
     certified_massic_energy_J_per_g,
     jessup_factor,
@@ -32,6 +31,7 @@ from calwork.bomb.fuels import (
 )
 from calwork.core.constants import R_J_per_mol_K, STANDARD_ATMOSPHERE_Pa
 from calwork.core.errors import CalibrationError, ChoiceError, RunError
+from calwork.core.statistics import grubbs_critical_value, grubbs_test, series_statistics
 from calwork.core.units import CAL_IT_J, CAL_TH_J
 from calwork.data import load_data
 from calwork.formula import molar_mass_g_per_mol

@@ -279,3 +279,28 @@ def test_public_names_resolve():
         assert callable(getattr(solution, name))
     with pytest.raises(AttributeError):
         _ = solution.no_such_name
+
+
+def test_the_electrical_series_gets_the_same_statistics_as_a_bomb_series():
+    # one implementation for every calibration series: Grubbs' test (ASTM E178) reports a
+    # planted outlier of an electrical series exactly as it does for a bomb series
+    from calwork.core.results import RunResult
+    from calwork.core.statistics import grubbs_critical_value
+    from calwork.solution.chain import _series
+
+    values = [360.02, 359.98, 360.01, 359.99, 360.00, 361.50]
+    items = [(RunResult(run=f"E{i}", kind="electrical", energy_equivalent_J_per_K=v,
+                        u_energy_equivalent_J_per_K=0.05), {"power_calibration": 0.036})
+             for i, v in enumerate(values)]
+    cal = _series("SC-1", items)
+    test = cal.outlier_test
+    assert test["applied"]
+    assert test["outlier"]
+    assert test["suspect"] == "E5"
+    mean = sum(values) / 6
+    s = math.sqrt(sum((v - mean) ** 2 for v in values) / 5)   # by hand
+    assert test["G"] == pytest.approx((361.50 - mean) / s, rel=1e-12)
+    assert test["G_critical"] == pytest.approx(1.887, abs=1e-3)  # ASTM E178, n = 6 (recalled)
+    assert grubbs_critical_value(6) == test["G_critical"]
+    assert any("Grubbs" in w for w in cal.warnings)
+    assert cal.std_dev_of_mean_J_per_K == pytest.approx(s / math.sqrt(6), rel=1e-12)

@@ -1,17 +1,12 @@
 """Oxygen-bomb calorimetry: certificate and Jessup factor, buoyancy, corrections, bomb
-contents, Washburn reduction to standard states, calibration series, the run/series chain and
+contents, Washburn reduction to standard states, calibration series (statistics in
+:mod:`calwork.core.statistics`), the run/series chain and
 fuel outputs.
 
 Safety: see :data:`calwork.core.safety.SAFETY_NOTE`.
 """
 
 from calwork.bomb.buoyancy import buoyancy_factor, mass_in_vacuum_g
-from calwork.bomb.calibration import (
-    DEFAULT_RSD_LIMIT_PERCENT,
-    grubbs_critical_value,
-    grubbs_test,
-    series_statistics,
-)
 from calwork.bomb.certificate import (
     ReferenceMaterial,
     certified_massic_energy_J_per_g,
@@ -45,7 +40,6 @@ from calwork.bomb.series import (
 from calwork.bomb.washburn import Combustible, WashburnResult, bomb_states, washburn_correction
 
 __all__ = [
-    "DEFAULT_RSD_LIMIT_PERCENT",
     "Combustible",
     "ReferenceMaterial",
     "WashburnResult",
@@ -63,8 +57,6 @@ __all__ = [
     "fuel_outputs",
     "fuse_energy_J",
     "gross_calorific_value_J_per_g",
-    "grubbs_critical_value",
-    "grubbs_test",
     "jessup_factor",
     "load_reference_material",
     "mass_in_vacuum_g",
@@ -76,7 +68,6 @@ __all__ = [
     "reduce_combustion_run",
     "sample_covariance",
     "sample_series",
-    "series_statistics",
     "soot_energy_J",
     "sulfuric_acid_energy_J",
     "washburn_correction",

@@ -18,7 +18,6 @@ from __future__ import annotations
 from collections.abc import Callable, Sequence
 from typing import Any
 
-from calwork.bomb.calibration import DEFAULT_RSD_LIMIT_PERCENT
 from calwork.bomb.chain import reduce_calibration_run, reduce_combustion_run
 from calwork.bomb.series import calibration_series, formation_enthalpies, sample_series
 from calwork.core.errors import CalworkError, RunError
@@ -30,6 +29,7 @@ from calwork.core.results import (
     failed_run,
 )
 from calwork.core.runinfo import BOMB_KINDS, RunInfo
+from calwork.core.statistics import DEFAULT_RSD_LIMIT_PERCENT
 from calwork.io import load_run_log
 from calwork.rise import corrected_rise
 

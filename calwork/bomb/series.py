@@ -27,10 +27,10 @@ from typing import Any
 
 import numpy as np
 
-from calwork.bomb.calibration import DEFAULT_RSD_LIMIT_PERCENT, series_statistics
 from calwork.bomb.fuels import fuel_outputs
 from calwork.core.errors import CalworkError, UncertaintyError
 from calwork.core.results import CalibrationResult, RunResult, SampleResult
+from calwork.core.statistics import DEFAULT_RSD_LIMIT_PERCENT, series_statistics
 from calwork.core.uncertainty import Budget, root_sum_square, variance_component
 from calwork.data import load_data
 

@@ -64,7 +64,7 @@ def _report_function(name: str):
 
 
 def run(args: argparse.Namespace) -> int:
-    from calwork.bomb.calibration import DEFAULT_RSD_LIMIT_PERCENT
+    from calwork.core.statistics import DEFAULT_RSD_LIMIT_PERCENT
     from calwork.reduce import reduce_sheet
 
     limit = DEFAULT_RSD_LIMIT_PERCENT if args.rsd_limit is None else args.rsd_limit

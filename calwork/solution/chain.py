@@ -46,6 +46,7 @@ from calwork.core.errors import CalibrationError, CalworkError, RunError
 from calwork.core.provenance import Provenance
 from calwork.core.results import CalibrationResult, ChainResult, RunResult, failed_run
 from calwork.core.runinfo import SOLUTION_KINDS, RunInfo
+from calwork.core.statistics import series_statistics
 from calwork.core.thermogram import Thermogram
 from calwork.core.uncertainty import Budget, root_sum_square
 from calwork.io import load_run_log
@@ -129,15 +130,18 @@ def _electrical_run(info: RunInfo, analysis: LogAnalysis, tg: Thermogram, method
 
 def _series(calorimeter: str, items: list[tuple[RunResult, dict[str, float]]]
             ) -> CalibrationResult:
-    values = np.array([r.energy_equivalent_J_per_K for r, _ in items], dtype=float)
-    n = values.size
-    mean = float(values.mean())
+    """The calorimeter's electrical calibration series, with the statistics every calibration
+    series gets (:func:`calwork.core.statistics.series_statistics`: mean, s, s/√n, RSD and
+    Grubbs' test, reported and never acted on)."""
+    values = [float(r.energy_equivalent_J_per_K) for r, _ in items]
+    names = [r.run for r, _ in items]
+    st = series_statistics(values, names, rsd_limit_percent=None,
+                           label=f"electrical calibration of {calorimeter!r}")
     shared = float(np.mean([b.get("power_calibration", 0.0) for _, b in items]))
-    warnings = []
-    if n >= 2:
-        s = float(values.std(ddof=1))
-        sdm = s / math.sqrt(n)
-        rsd = 100.0 * s / mean
+    n = st.n
+    warnings = [w for w in st.warnings if "a single run" not in w]
+    if st.std_dev_of_mean is not None:
+        s, sdm, rsd = st.std_dev, st.std_dev_of_mean, st.rsd_percent
         u = math.hypot(sdm, shared)
         if n < 3:
             warnings.append(f"only {n} electrical calibrations")
@@ -146,14 +150,14 @@ def _series(calorimeter: str, items: list[tuple[RunResult, dict[str, float]]]
         u = float(items[0][0].u_energy_equivalent_J_per_K)
         warnings.append("a single electrical calibration: its own uncertainty is used")
     return CalibrationResult(
-        calorimeter=calorimeter, energy_equivalent_J_per_K=mean, u_energy_equivalent_J_per_K=u,
-        n_runs=n, rsd_percent=rsd, std_dev_J_per_K=s, std_dev_of_mean_J_per_K=sdm,
-        runs=tuple(r.run for r, _ in items), values_J_per_K=tuple(values.tolist()),
+        calorimeter=calorimeter, energy_equivalent_J_per_K=st.mean,
+        u_energy_equivalent_J_per_K=u, n_runs=n, rsd_percent=rsd, std_dev_J_per_K=s,
+        std_dev_of_mean_J_per_K=sdm, runs=tuple(names), values_J_per_K=tuple(values),
         method="electrical",
         budget=Budget.of("energy equivalent ε", "J/K",
                          {"std_dev_of_mean": 0.0 if n < 2 else sdm, "power_calibration": shared},
                          keys={"power_calibration": "heater power calibration"}),
-        warnings=tuple(warnings),
+        outlier_test=st.outlier_test, warnings=tuple(warnings),
     )
 
 

@@ -1,4 +1,5 @@
-"""Calibration series statistics: mean energy equivalent, scatter, acceptance, outliers.
+"""Statistics of a series of results — calibration series (bomb and solution calorimeters
+alike) and sample series: mean, scatter, acceptance, outliers.
 
 A calibration series (ASTM D240 §8.1: not less than six reference-material runs over at least
 three days) gives the mean energy equivalent ε̄, the standard deviation s of one run, the
@@ -22,7 +23,6 @@ from types import MappingProxyType
 from typing import Any
 
 import numpy as np
-from scipy import stats
 
 from calwork.core.errors import CalibrationError, UncertaintyError
 
@@ -49,6 +49,8 @@ def grubbs_critical_value(n: int, alpha: float = 0.05) -> float:
     """
     if n < 3:
         raise CalibrationError("Grubbs' test needs at least 3 values", found=n)
+    from scipy import stats  # imported on first use: core stays light
+
     t = stats.t.ppf(1.0 - alpha / (2.0 * n), n - 2)
     return (n - 1) / math.sqrt(n) * math.sqrt(t * t / (n - 2 + t * t))
 
