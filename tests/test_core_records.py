@@ -64,3 +64,21 @@ def test_thermogram_is_read_only_and_windows():
     with pytest.raises(ValueError):
         tg.time_s[0] = 5.0
     assert tg.window(2, 5).n_points == 4
+
+
+def test_run_info_checks_its_column_rules_once_however_it_is_made():
+    # a record made through the API (or an amendment) gets the sheet's rules: the broken value
+    # becomes a problem of the run (reported, never used), not a number the chain divides by
+    from dataclasses import replace
+
+    from calwork.core.runinfo import RunInfo, column_problem
+
+    good = RunInfo(run="r1", kind="combustion", mass_g=0.5, ignition_J=1.0)
+    assert good.problems == ()
+    for field_name, value in (("mass_g", 0.0), ("mass_g", -0.5), ("ignition_J", -1.0),
+                              ("o2_pressure_MPa", float("nan"))):
+        bad = replace(good, **{field_name: value})
+        (problem,) = bad.problems
+        assert problem.column == field_name
+        assert "run 'r1'" in str(problem)
+    assert column_problem("sulfur_mass_fraction", 1.5)[0].startswith("a mass fraction")

@@ -364,13 +364,18 @@ def test_sheet_certificate_and_buoyancy(dataset):
     # the same masses, weighed in air: the same energy equivalent (docs/references.md §2 densities)
     assert red.calibrations[0].energy_equivalent_J_per_K == pytest.approx(
         base.calibrations[0].energy_equivalent_J_per_K, rel=1e-9)
-    # a sheet's certified value replaces the bundled one (sign ignored)
-    rows = [replace(i, certified_J_per_g=-26444.0) if i.kind == "calibration" else i
+    # a sheet's certified value replaces the bundled one
+    rows = [replace(i, certified_J_per_g=26444.0) if i.kind == "calibration" else i
             for i in infos]
     red = reduce_runs(rows)
     ratio = red.calibrations[0].energy_equivalent_J_per_K / \
         base.calibrations[0].energy_equivalent_J_per_K
     assert ratio == pytest.approx(1 + 10 / 26434, rel=2e-6)
+    # a negative one (a sign slip: certified values are positive) fails that run, named
+    rows = [replace(i, certified_J_per_g=-26444.0) if i.run == "cal0" else i for i in infos]
+    bad = next(r for r in reduce_runs(rows).runs if r.run == "cal0")
+    assert "'certified_J_per_g'" in bad.error
+    assert "positive" in bad.error
 
 
 def test_solution_rows_are_handed_over(dataset):

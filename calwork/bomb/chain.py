@@ -67,32 +67,25 @@ class BombConditions:
         return self.bomb_volume_L is not None
 
 
-def _positive(value: Any, column: str, *, required: bool = True) -> float | None:
+def _required(value: Any, column: str) -> float:
+    """A sheet value this run needs (its rule — positive, non-negative — was checked when the
+    RunInfo was made, :func:`calwork.core.runinfo.column_problem`)."""
     if value is None:
-        if required:
-            raise RunError("is required", column=column, found=None, expected="a number > 0")
-        return None
-    v = float(value)
-    if not math.isfinite(v) or v <= 0:
-        raise RunError("must be a positive number", column=column, found=value,
-                       expected="a number > 0")
-    return v
+        raise RunError("is required", column=column, found=None, expected="a number > 0")
+    return float(value)
 
 
-def _nonneg(value: Any, column: str) -> float:
-    v = float(value or 0.0)
-    if not math.isfinite(v) or v < 0:
-        raise RunError("must not be negative", column=column, found=value,
-                       expected="a number ≥ 0")
-    return v
+def _given(value: Any) -> float:
+    """A non-negative sheet value that defaults to zero when not given."""
+    return float(value or 0.0)
 
 
 def bomb_conditions(info: Any) -> BombConditions:
     """The bomb conditions of a run, with the standard values filled in (and warned about)."""
     std = load_reference_material("benzoic acid").standard_conditions
     warnings = []
-    V = _positive(info.bomb_volume_L, "bomb_volume_L", required=False)
-    p = _positive(info.o2_pressure_MPa, "o2_pressure_MPa", required=False)
+    V = info.bomb_volume_L
+    p = info.o2_pressure_MPa
     if p is None:
         p = std["o2_pressure_atm"] * STANDARD_ATMOSPHERE_Pa / 1e6
         warnings.append(f"o2_pressure_MPa not given: {p:.4g} MPa (standard bomb condition) "
@@ -104,11 +97,11 @@ def bomb_conditions(info: Any) -> BombConditions:
             warnings.append(f"bomb_water_g not given: {w:.4g} g (3 g per litre, standard "
                             "bomb condition) assumed")
     return BombConditions(bomb_volume_L=V, o2_pressure_MPa=p,
-                          bomb_water_g=_nonneg(w, "bomb_water_g"), warnings=tuple(warnings))
+                          bomb_water_g=_given(w), warnings=tuple(warnings))
 
 
 def _vacuum_mass(info: Any, density: float | None, details: dict, warnings: list) -> float:
-    mass = _positive(info.mass_g, "mass_g")
+    mass = _required(info.mass_g, "mass_g")
     basis = (info.mass_basis or "vacuum").strip().lower()
     check_choice("mass_basis", basis, ["air", "vacuum"])
     details["mass_basis"] = basis
@@ -139,20 +132,20 @@ def _corrections(info: Any, *, sulfur_mol: float, convention: str,
     rel = load_data("bomb_corrections.toml")["uncertainty_relative"]
     const: dict[str, str] = {}
     corr: dict[str, float] = {}
-    corr["ignition"] = _nonneg(info.ignition_J, "ignition_J")
+    corr["ignition"] = _given(info.ignition_J)
     const["ignition"] = "ignition_J from the run sheet"
     fuse_mass = info.fuse_mass_g
     if fuse_mass is not None:
         mat = fuse_material(info.fuse_material)
-        fuse_mass = _nonneg(fuse_mass, "fuse_mass_g") * (
+        fuse_mass = _given(fuse_mass) * (
             _aux_density_factor(info, mat) if mat != "platinum" else 1.0)
     corr["fuse"], const["fuse"] = fuse_energy_J(
         fuse_J=info.fuse_J, fuse_burnt_cm=info.fuse_burnt_cm, fuse_J_per_cm=info.fuse_J_per_cm,
         fuse_mass_g=fuse_mass, material=info.fuse_material,
     )
-    cotton_g = _nonneg(info.cotton_g, "cotton_g") * _aux_density_factor(info, "cotton")
+    cotton_g = _given(info.cotton_g) * _aux_density_factor(info, "cotton")
     corr["cotton"], const["cotton"] = cotton_energy_J(cotton_g)
-    aux_g = _nonneg(info.aux_mass_g, "aux_mass_g") * _aux_density_factor(info, "auxiliary")
+    aux_g = _given(info.aux_mass_g) * _aux_density_factor(info, "auxiliary")
     if aux_g > 0 and info.aux_J_per_g is None:
         raise RunError("an auxiliary mass needs its massic energy", column="aux_J_per_g",
                        found=None, expected="the auxiliary's energy of combustion in J/g")
@@ -267,8 +260,7 @@ def calibration_material(info: Any, warnings: list[str]) -> ReferenceMaterial:
                 f"certificate-u-assumed: no u_certified_J_per_g; the relative standard "
                 f"uncertainty of the bundled {material.name} certificate "
                 f"({material.u_relative * 1e6:.0f} ppm) is used for the sheet's value")
-        return material.with_certified(_positive(abs(float(certified)), "certified_J_per_g"),
-                                       info.u_certified_J_per_g)
+        return material.with_certified(float(certified), info.u_certified_J_per_g)
     if certified is None:
         return load_reference_material(name)  # raises: unknown, with the known names
     if info.u_certified_J_per_g is None:
@@ -326,7 +318,7 @@ def reduce_calibration_run(info: Any, rise: Any, *,
     combustibles = [ba]
     _extras(details, combustibles)
     referral, T_ref, _ = _bomb_model(info, cond, combustibles, n_hno3=n_hno3,
-                                     soot_g=_nonneg(info.soot_g, "soot_g"), rise_dT=dT, T_i=Ti,
+                                     soot_g=_given(info.soot_g), rise_dT=dT, T_i=Ti,
                                      details=details, warnings=warnings, want_washburn=False)
     if cond.complete:
         V = cond.bomb_volume_L
@@ -424,7 +416,7 @@ def reduce_combustion_run(info: Any, rise: Any, calibration: CalibrationResult |
                         f"{info.formula!r}: only C, H, O, N, S compounds are reduced to "
                         "standard states); no standard-state values")
     referral, T_ref, wb = _bomb_model(
-        info, cond, combustibles, n_hno3=n_hno3, soot_g=_nonneg(info.soot_g, "soot_g"),
+        info, cond, combustibles, n_hno3=n_hno3, soot_g=_given(info.soot_g),
         rise_dT=dT, T_i=Ti, details=details, warnings=warnings,
         want_washburn=counts is not None and not others)
     eps = calibration.energy_equivalent_J_per_K

@@ -2,13 +2,25 @@
 
 from __future__ import annotations
 
+import math
 from collections.abc import Mapping
 from dataclasses import dataclass, field, fields
 from pathlib import Path
 from types import MappingProxyType
 
-__all__ = ["BOMB_KINDS", "EXTENSION_COLUMNS", "RUN_KINDS", "RUN_SHEET_COLUMNS", "SOLUTION_KINDS",
-           "RunInfo"]
+from calwork.core.errors import RunError
+
+__all__ = [
+    "BOMB_KINDS",
+    "EXTENSION_COLUMNS",
+    "NON_NEGATIVE_COLUMNS",
+    "POSITIVE_COLUMNS",
+    "RUN_KINDS",
+    "RUN_SHEET_COLUMNS",
+    "SOLUTION_KINDS",
+    "RunInfo",
+    "column_problem",
+]
 
 #: Run kinds of the oxygen-bomb chain (:func:`calwork.bomb.pipeline.reduce_bomb_runs`).
 BOMB_KINDS = ("calibration", "combustion")
@@ -78,6 +90,35 @@ EXTENSION_COLUMNS: dict[str, type] = {
     "ash_mass_fraction": float,
     "sulfur_convention": str,          # 'fuel' (SO2(g)) or 'thermochemical' (H2SO4·115H2O)
 }
+
+
+#: Quantities that must be > 0 where given.
+POSITIVE_COLUMNS = frozenset({
+    "mass_g", "cotton_g", "aux_mass_g", "bomb_water_g", "solvent_mass_g", "fuse_mass_g",
+    "bomb_volume_L", "ampoule_gas_volume_mL", "o2_pressure_MPa", "amount_mol",
+    "certified_J_per_g", "standard_resistor_ohm", "acid_titrant_mol_per_L",
+    "sample_density_g_per_cm3", "u_certified_J_per_g",
+})
+#: Quantities that must be ≥ 0 where given.
+NON_NEGATIVE_COLUMNS = frozenset({
+    "acid_titre_mL", "soot_g", "fuse_burnt_cm", "fuse_J_per_cm", "fuse_J", "ignition_J",
+    "heater_power_W",
+})
+
+
+def column_problem(name: str, value: float) -> tuple[str, str] | None:
+    """``(what is wrong, what was expected)`` if ``value`` breaks the rule of sheet column
+    ``name`` (finite; > 0, ≥ 0, or a mass fraction in [0, 1], as the column says), else
+    ``None``. The one definition of these rules: the sheet reader and :class:`RunInfo` both
+    apply it."""
+    v = float(value)
+    if name in POSITIVE_COLUMNS and not (math.isfinite(v) and v > 0.0):
+        return "must be a positive number", "a number > 0"
+    if name in NON_NEGATIVE_COLUMNS and not (math.isfinite(v) and v >= 0.0):
+        return "must not be negative", "a number ≥ 0"
+    if name.endswith("_mass_fraction") and not (math.isfinite(v) and 0.0 <= v <= 1.0):
+        return "a mass fraction must lie between 0 and 1", "0 ≤ value ≤ 1 (not percent)"
+    return None
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -154,7 +195,19 @@ class RunInfo:
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "extra", MappingProxyType(dict(self.extra)))
-        object.__setattr__(self, "problems", tuple(self.problems))
+        # the column rules are checked here, once, however the record was made (sheet, API,
+        # an amendment): a broken value becomes a problem of the run, reported, never used
+        problems = list(self.problems)
+        named = {getattr(p, "column", None) for p in problems}
+        for name in (*POSITIVE_COLUMNS, *NON_NEGATIVE_COLUMNS):
+            value = getattr(self, name, None)
+            if value is None or name in named or isinstance(value, bool):
+                continue
+            found = column_problem(name, value)
+            if found is not None:
+                problems.append(RunError(found[0], column=name, found=value,
+                                         expected=found[1], run=self.run))
+        object.__setattr__(self, "problems", tuple(problems))
 
     def given(self) -> dict[str, object]:
         """The sheet columns that were filled in (contract and extension columns)."""

@@ -25,7 +25,13 @@ from calwork.core.errors import (
     SheetError,
     UnitError,
 )
-from calwork.core.runinfo import EXTENSION_COLUMNS, RUN_KINDS, RUN_SHEET_COLUMNS, RunInfo
+from calwork.core.runinfo import (
+    EXTENSION_COLUMNS,
+    RUN_KINDS,
+    RUN_SHEET_COLUMNS,
+    RunInfo,
+    column_problem,
+)
 from calwork.core.thermogram import Thermogram
 from calwork.core.units import parse_temperature_unit, parse_time_unit
 from calwork.data import parse_toml_text
@@ -36,8 +42,6 @@ from calwork.io.sensors import SENSORS
 from calwork.plausibility import PLAUSIBLE_COLUMNS, check_plausible
 
 __all__ = [
-    "NON_NEGATIVE_COLUMNS",
-    "POSITIVE_COLUMNS",
     "SENSOR_COEFFICIENT_COLUMNS",
     "load_run_log",
     "read_run_sheet",
@@ -48,17 +52,6 @@ _TYPES: dict[str, type] = {**RUN_SHEET_COLUMNS, **EXTENSION_COLUMNS}
 _BY_KEY = {name.lower(): name for name in _TYPES}
 
 #: Quantities that must be > 0 where given (masses, volumes, pressures, amounts, ...).
-POSITIVE_COLUMNS = frozenset({
-    "mass_g", "cotton_g", "aux_mass_g", "bomb_water_g", "solvent_mass_g", "fuse_mass_g",
-    "bomb_volume_L", "ampoule_gas_volume_mL", "o2_pressure_MPa", "amount_mol",
-    "certified_J_per_g", "standard_resistor_ohm", "acid_titrant_mol_per_L",
-    "sample_density_g_per_cm3", "u_certified_J_per_g",
-})
-#: Quantities that must be ≥ 0 where given.
-NON_NEGATIVE_COLUMNS = frozenset({
-    "acid_titre_mL", "soot_g", "fuse_burnt_cm", "fuse_J_per_cm", "fuse_J", "ignition_J",
-    "heater_power_W",
-})
 _FRACTIONS = frozenset(name for name in _TYPES if name.endswith("_mass_fraction"))
 #: Optional sheet columns with thermometer coefficients for ``sensor`` (kept in ``extra``).
 SENSOR_COEFFICIENT_COLUMNS = {
@@ -91,15 +84,9 @@ def _typed(name: str, raw: Any, where: dict[str, Any]) -> Any:
         return None
     if _TYPES[name] is float:
         value = _number(raw, where)
-        if name in POSITIVE_COLUMNS and value <= 0.0:
-            raise SheetError("must be a positive number", found=raw,
-                             expected="a number > 0", **where)
-        if name in NON_NEGATIVE_COLUMNS and value < 0.0:
-            raise SheetError("must not be negative", found=raw, expected="a number ≥ 0",
-                             **where)
-        if name in _FRACTIONS and not 0.0 <= value <= 1.0:
-            raise SheetError("a mass fraction must lie between 0 and 1", found=raw,
-                             expected="0 ≤ value ≤ 1 (not percent)", **where)
+        broken = column_problem(name, value)
+        if broken is not None:
+            raise SheetError(broken[0], found=raw, expected=broken[1], **where)
         if name in PLAUSIBLE_COLUMNS:
             try:
                 check_plausible(name, value)
