@@ -3,7 +3,8 @@
 from __future__ import annotations
 
 import hashlib
-from dataclasses import dataclass, field
+from collections.abc import Mapping
+from dataclasses import dataclass, field, fields
 from functools import cache
 from pathlib import Path
 from typing import Any
@@ -85,3 +86,12 @@ class Provenance:
         if self.parents:
             out["parents"] = [p.to_dict() for p in self.parents]
         return out
+
+    @classmethod
+    def from_dict(cls, data: Mapping[str, Any]) -> Provenance:
+        """The record :meth:`to_dict` wrote (unknown keys are ignored)."""
+        names = {f.name for f in fields(cls)}
+        kwargs = {k: v for k, v in data.items() if k in names}
+        kwargs["parents"] = tuple(cls.from_dict(p) for p in data.get("parents") or ())
+        kwargs["constants"] = dict(data.get("constants") or {})
+        return cls(**kwargs)

@@ -13,7 +13,9 @@ from dataclasses import dataclass, field, fields
 from types import MappingProxyType
 from typing import Any
 
+from calwork.core.errors import UncertaintyError
 from calwork.core.provenance import Provenance
+from calwork.core.runinfo import RUN_KINDS
 from calwork.core.uncertainty import Budget
 
 __all__ = ["CalibrationResult", "ChainResult", "Reduction", "RunResult", "SampleResult",
@@ -42,13 +44,61 @@ def _check_budget(*budgets: Any) -> None:
                             f"component with its unit), not {type(budget).__name__}")
 
 
+def _check_values(obj: Any) -> None:
+    """Validation on construction: a known run kind, and every standard (``u_…``) or expanded
+    (``U_…``) uncertainty either absent or a finite, non-negative number."""
+    kind = getattr(obj, "kind", None)
+    allowed = (*RUN_KINDS, "combustion", "solution")
+    if kind is not None and kind not in allowed:
+        raise ValueError(f"unknown run kind {kind!r}: one of {sorted(set(allowed))}")
+    for f in fields(obj):
+        if f.name.startswith(("u_", "U_")):
+            value = getattr(obj, f.name)
+            if value is None:
+                continue
+            if isinstance(value, bool) or not isinstance(value, int | float) or not (
+                    math.isfinite(value) and value >= 0.0):
+                raise UncertaintyError(f"{type(obj).__name__}.{f.name} must be a finite, "
+                                       "non-negative uncertainty", found=value)
+
+
+def _from_dict(cls: type, data: Mapping[str, Any]) -> Any:
+    """The record ``to_dict`` wrote (unknown keys are ignored; the provenance and the
+    budgets are rebuilt as records)."""
+    names = {f.name for f in fields(cls)}
+    kwargs = {k: v for k, v in data.items() if k in names}
+    if isinstance(kwargs.get("provenance"), Mapping):
+        kwargs["provenance"] = Provenance.from_dict(kwargs["provenance"])
+    if isinstance(kwargs.get("budget"), Mapping):
+        kwargs["budget"] = Budget.from_dict(kwargs["budget"])
+    if isinstance(kwargs.get("derived_budgets"), Mapping):
+        kwargs["derived_budgets"] = {k: Budget.from_dict(v)
+                                     for k, v in kwargs["derived_budgets"].items()}
+    for name in ("runs", "values_J_per_K", "warnings"):
+        if isinstance(kwargs.get(name), list):
+            kwargs[name] = tuple(kwargs[name])
+    return cls(**kwargs)
+
+
+class _Record:
+    """JSON form of a result record: :meth:`to_dict` and :meth:`from_dict` read each other."""
+
+    def to_dict(self) -> dict[str, Any]:
+        return {f.name: jsonable(getattr(self, f.name)) for f in fields(self)}  # type: ignore
+
+    @classmethod
+    def from_dict(cls, data: Mapping[str, Any]) -> Any:
+        """The record :meth:`to_dict` wrote (``RunResult.rise`` is not serialised)."""
+        return _from_dict(cls, data)
+
+
 def _freeze(obj: Any, *names: str) -> None:
     for name in names:
         object.__setattr__(obj, name, MappingProxyType(dict(getattr(obj, name))))
 
 
 @dataclass(frozen=True, kw_only=True)
-class RunResult:
+class RunResult(_Record):
     """The reduced result of one run (any kind). Failed runs carry ``error`` and no numbers."""
 
     run: str
@@ -82,8 +132,10 @@ class RunResult:
     provenance: Provenance | None = None
 
     def __post_init__(self) -> None:
+        _check_values(self)
         _freeze(self, "corrections_J", "details")
         object.__setattr__(self, "warnings", tuple(self.warnings))
+
 
     def to_dict(self) -> dict[str, Any]:
         """JSON-ready dictionary with the contract keys."""
@@ -97,7 +149,7 @@ class RunResult:
 
 
 @dataclass(frozen=True, kw_only=True)
-class CalibrationResult:
+class CalibrationResult(_Record):
     """Energy equivalent of one calorimeter from a calibration series."""
 
     calorimeter: str
@@ -127,18 +179,16 @@ class CalibrationResult:
     correction_per_rise_J_per_K: Mapping[str, float] = field(default_factory=dict)
 
     def __post_init__(self) -> None:
+        _check_values(self)
         _check_budget(self.budget)
         _freeze(self, "outlier_test", "correction_per_rise_J_per_K")
         object.__setattr__(self, "runs", tuple(self.runs))
         object.__setattr__(self, "values_J_per_K", tuple(self.values_J_per_K))
         object.__setattr__(self, "warnings", tuple(self.warnings))
 
-    def to_dict(self) -> dict[str, Any]:
-        return {f.name: jsonable(getattr(self, f.name)) for f in fields(self)}
-
 
 @dataclass(frozen=True, kw_only=True)
-class SampleResult:
+class SampleResult(_Record):
     """A sample series: the mean over its runs and the derived molar quantities."""
 
     sample: str
@@ -178,13 +228,11 @@ class SampleResult:
     warnings: tuple[str, ...] = ()
 
     def __post_init__(self) -> None:
+        _check_values(self)
         _check_budget(self.budget, *self.derived_budgets.values())
         _freeze(self, "derived_budgets", "fuel", "key_values_used")
         object.__setattr__(self, "runs", tuple(self.runs))
         object.__setattr__(self, "warnings", tuple(self.warnings))
-
-    def to_dict(self) -> dict[str, Any]:
-        return {f.name: jsonable(getattr(self, f.name)) for f in fields(self)}
 
 
 @dataclass(frozen=True, kw_only=True)

@@ -11,10 +11,8 @@ from pathlib import Path
 from typing import Any
 
 from calwork.core.errors import CalworkError, LabbookError
-from calwork.core.provenance import Provenance
 from calwork.core.results import CalibrationResult, Reduction, RunResult, SampleResult
 from calwork.core.runinfo import RunInfo
-from calwork.core.uncertainty import Budget
 from calwork.labbook.blobs import get_blob, write_inside
 from calwork.labbook.queries import Filters, list_calibrations, list_runs, list_samples
 
@@ -44,22 +42,7 @@ def export_raw(conn: sqlite3.Connection, run: str, dest: str | Path) -> list[Pat
 
 
 def _build(cls: type, data: Mapping[str, Any]) -> Any:
-    names = {f.name for f in fields(cls)}
-    kwargs = {k: v for k, v in data.items() if k in names}
-    if "provenance" in kwargs and kwargs["provenance"] is not None:
-        kwargs["provenance"] = _provenance(kwargs["provenance"])
-    if isinstance(kwargs.get("budget"), Mapping):
-        kwargs["budget"] = Budget.from_dict(kwargs["budget"])
-    if isinstance(kwargs.get("derived_budgets"), Mapping):
-        kwargs["derived_budgets"] = {k: Budget.from_dict(v)
-                                     for k, v in kwargs["derived_budgets"].items()}
-    return cls(**kwargs)
-
-
-def _provenance(data: Mapping[str, Any]) -> Provenance:
-    kwargs = {k: v for k, v in data.items() if k in {f.name for f in fields(Provenance)}}
-    kwargs["parents"] = tuple(_provenance(p) for p in data.get("parents") or ())
-    return Provenance(**kwargs)
+    return cls.from_dict(data)
 
 
 def _info(row: Mapping[str, Any], sheet_path: str | None) -> RunInfo:

@@ -1,0 +1,87 @@
+"""Result records: validated on construction, and read back from their JSON form unchanged
+(property-based, and on the bundled simulated sample runs)."""
+
+from __future__ import annotations
+
+import json
+import math
+
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from calwork.core.errors import UncertaintyError
+from calwork.core.provenance import Provenance
+from calwork.core.results import CalibrationResult, RunResult, SampleResult
+from calwork.core.runinfo import RUN_KINDS
+from calwork.core.uncertainty import Budget
+
+finite = st.floats(min_value=-1e9, max_value=1e9, allow_nan=False, allow_infinity=False)
+positive = st.floats(min_value=0.0, max_value=1e9, allow_nan=False, allow_infinity=False)
+text = st.text(alphabet="abcdefghijklmnopqrstuvwxyz0123456789-_ ", min_size=1, max_size=12)
+optional = st.none() | finite
+optional_u = st.none() | positive
+
+
+def _json(record):
+    return json.loads(json.dumps(record.to_dict()))
+
+
+@settings(max_examples=150, deadline=None)
+@given(run=text, kind=st.sampled_from(RUN_KINDS), sample=st.none() | text,
+       rise=optional, u_rise=optional_u, eps=optional, u_eps=optional_u, du=optional,
+       corrections=st.dictionaries(text, finite, max_size=4),
+       details=st.dictionaries(text, finite | text, max_size=4),
+       warnings=st.lists(text, max_size=3), error=st.none() | text)
+def test_run_result_round_trip(run, kind, sample, rise, u_rise, eps, u_eps, du, corrections,
+                               details, warnings, error):
+    r = RunResult(run=run, kind=kind, sample=sample, corrected_rise_K=rise,
+                  u_corrected_rise_K=u_rise, energy_equivalent_J_per_K=eps,
+                  u_energy_equivalent_J_per_K=u_eps, massic_energy_J_per_g=du,
+                  corrections_J=corrections, details=details, warnings=warnings, error=error,
+                  provenance=Provenance(source_path="log.csv", sha256="0" * 64,
+                                        importer="test", calwork_version="x"))
+    again = RunResult.from_dict(_json(r))
+    assert again.to_dict() == r.to_dict()
+
+
+@settings(max_examples=100, deadline=None)
+@given(eps=positive, u=positive, parts=st.dictionaries(text, positive, min_size=1, max_size=4),
+       values=st.lists(positive, min_size=1, max_size=6))
+def test_calibration_and_sample_round_trip(eps, u, parts, values):
+    cal = CalibrationResult(
+        calorimeter="A", energy_equivalent_J_per_K=eps, u_energy_equivalent_J_per_K=u,
+        n_runs=len(values), rsd_percent=0.01, std_dev_J_per_K=0.1, std_dev_of_mean_J_per_K=0.05,
+        runs=[f"r{i}" for i in range(len(values))], values_J_per_K=values,
+        budget=Budget.of("ε", "J/K", parts), certified_J_per_g=26434.0)
+    assert CalibrationResult.from_dict(_json(cal)) == cal
+    s = SampleResult(sample="s", formula="C7H6O2", n_runs=2, runs=["a", "b"],
+                     massic_energy_J_per_g=-eps, u_massic_energy_J_per_g=u,
+                     budget=Budget.of("Δu°", "J/g", parts),
+                     derived_budgets={"delta_f_H": Budget.of("ΔfH°", "kJ/mol", parts)})
+    assert SampleResult.from_dict(_json(s)) == s
+
+
+@pytest.mark.parametrize("bad", [math.nan, -1e-9, math.inf])
+def test_a_bad_uncertainty_is_refused(bad):
+    with pytest.raises(UncertaintyError, match="u_corrected_rise_K"):
+        RunResult(run="r", kind="calibration", corrected_rise_K=2.0, u_corrected_rise_K=bad)
+    with pytest.raises(UncertaintyError, match="u_massic_energy_J_per_g"):
+        SampleResult(sample="s", formula=None, n_runs=1, runs=["r"],
+                     u_massic_energy_J_per_g=bad)
+
+
+def test_an_unknown_kind_is_refused():
+    with pytest.raises(ValueError, match="unknown run kind"):
+        RunResult(run="r", kind="combustoin")
+
+
+def test_the_sample_runs_round_trip(tmp_path):
+    from conftest import copy_sample_runs
+
+    from calwork.reduce import reduce_sheet
+
+    red = reduce_sheet(copy_sample_runs(tmp_path) / "runs.csv")
+    for record in (*red.runs, *red.calibrations, *red.samples):
+        again = type(record).from_dict(_json(record))
+        assert _json(again) == _json(record)
