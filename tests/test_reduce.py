@@ -288,7 +288,7 @@ def test_cli_out_writes_plots(reduction, tmp_path):
     pytest.importorskip("calwork.rise.plot")
     from dataclasses import replace
 
-    from calwork.cli.reduce import write_outputs
+    from calwork.report.folder import write_outputs
 
     three = replace(reduction, runs=reduction.runs[4:7])   # plots are slow: three runs
     files = write_outputs(three, tmp_path, plots=True)

@@ -141,7 +141,7 @@ def test_reduce_plots_the_reaction_of_a_solution_log(tmp_path, monkeypatch):
     import csv
 
     import calwork.rise
-    from calwork.cli import reduce as cli_reduce
+    from calwork.report import folder as report_folder
 
     copy_sample_runs(tmp_path / "runs")
     sheet = tmp_path / "runs" / "runs.csv"
@@ -156,7 +156,7 @@ def test_reduce_plots_the_reaction_of_a_solution_log(tmp_path, monkeypatch):
 
     monkeypatch.setattr(calwork.rise, "plot_rise", capture)
     red = reduce_sheet(sheet)
-    cli_reduce._plots(red, tmp_path)
+    report_folder._plots(red, tmp_path, None)
     k01 = next(r for r in red.runs if r.run == "K01")
     reaction = k01.rise[k01.details["reaction_event_index"]]
     assert drawn["K01"] is reaction

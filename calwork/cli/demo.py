@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import argparse
+import sys
 from importlib import resources
 from pathlib import Path
 
@@ -42,21 +43,26 @@ def register(subparsers: argparse._SubParsersAction) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
-    from calwork.cli.reduce import _report_function, _tables, write_outputs
     from calwork.reduce import reduce_sheet
+    from calwork.report import write_report, write_workbook
+    from calwork.report.folder import write_outputs
+    from calwork.report.plain import render_text
+    from calwork.report.summary import summary_document
 
     red = reduce_sheet(sample_sheet(), method=args.method)
     out = Path(args.out)
-    written = write_outputs(red, out, plots=not args.no_plots)
+    written = write_outputs(red, out, plots=not args.no_plots,
+                            on_problem=lambda text: print(f"calwork demo: {text}",
+                                                          file=sys.stderr))
     workbook = out / "calwork-demo.xlsx"
-    _report_function("write_workbook")(red, workbook)
+    write_workbook(red, workbook)
     html = out / "report.html"
-    _report_function("write_report")(red, html)
+    write_report(red, html)
     written += [workbook, html]
     if args.json:
         print_json(red.to_dict())
     else:
         print("calwork demo: SIMULATED sample runs of a fictional laboratory\n")
-        print(_tables(red))
+        print(render_text(summary_document(red)), end="")
         print(f"\nwrote {len(written)} files to {out}/ (report: {html}, workbook: {workbook})")
     return 1 if any(r.error for r in red.runs) else 0

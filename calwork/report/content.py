@@ -14,13 +14,13 @@ import io
 import math
 import tempfile
 from collections.abc import Callable
-from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
 from calwork.core.errors import CalworkError
 from calwork.core.provenance import calwork_version
 from calwork.core.safety import SAFETY_NOTE
+from calwork.report.model import Document, Figure, Paragraph, Section, Table
 from calwork.report.plots import plot_style, simulated_stamp
 from calwork.report.texts import (
     SIMULATED_NOTE,
@@ -29,44 +29,7 @@ from calwork.report.texts import (
     simulated_runs,
 )
 
-__all__ = ["Document", "Figure", "Paragraph", "Section", "Table", "build_document", "fmt"]
-
-
-@dataclass
-class Paragraph:
-    text: str
-    kind: str = "text"  # 'text', 'note', 'warning', 'error', 'safety', 'simulated'
-
-
-@dataclass
-class Table:
-    headers: list[str]
-    rows: list[list[str]]
-    caption: str = ""
-
-
-@dataclass
-class Figure:
-    png: bytes
-    alt: str
-    caption: str = ""
-    simulated: bool = False
-
-
-@dataclass
-class Section:
-    title: str
-    anchor: str
-    blocks: list[Paragraph | Table | Figure] = field(default_factory=list)
-    simulated: bool = False
-
-
-@dataclass
-class Document:
-    title: str
-    subtitle: str
-    sections: list[Section]
-    simulated: bool
+__all__ = ["build_document", "fmt"]
 
 
 def fmt(value: Any, digits: int = 4, *, sig: bool = False) -> str:

@@ -13,7 +13,7 @@ import base64
 from html import escape
 from typing import Any
 
-from calwork.report.content import Document, Figure, Paragraph, Section, Table
+from calwork.report.model import Document, Figure, Paragraph, Section, Table
 
 __all__ = ["render_html"]
 

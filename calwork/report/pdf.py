@@ -13,7 +13,7 @@ import textwrap
 from pathlib import Path
 from typing import Any
 
-from calwork.report.content import Document, Figure, Paragraph, Section, Table
+from calwork.report.model import Document, Figure, Paragraph, Section, Table
 from calwork.report.plots import plot_style, simulated_stamp
 
 __all__ = ["render_pdf"]

@@ -55,8 +55,8 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--quick", action="store_true", help="50 runs instead of 500")
     args = parser.parse_args(argv)
     n = 50 if args.quick else 500
-    from calwork.cli.reduce import write_outputs
     from calwork.reduce import reduce_sheet
+    from calwork.report.folder import write_outputs
 
     with tempfile.TemporaryDirectory() as tmp:
         folder = Path(tmp)
