@@ -27,14 +27,30 @@ def _json(record):
     return json.loads(json.dumps(record.to_dict()))
 
 
+_DETAIL_FIELDS = {
+    "calibration": ("mass_vacuum_g", "nitric_acid_mol", "jessup_factor", "heat_released_J"),
+    "combustion": ("mass_vacuum_g", "washburn_u_J", "heat_measured_J", "sulfur_mol"),
+    "electrical": ("measured_heat_J",),
+    "blank": ("measured_heat_J", "u_reaction_heat_J"),
+    "solution": ("amount_mol", "u_amount_mol", "measured_heat_J"),
+}
+
+
+@st.composite
+def _kind_and_details(draw):
+    kind = draw(st.sampled_from(RUN_KINDS))
+    return kind, draw(st.dictionaries(st.sampled_from(_DETAIL_FIELDS[kind]), finite,
+                                      max_size=3))
+
+
 @settings(max_examples=150, deadline=None)
-@given(run=text, kind=st.sampled_from(RUN_KINDS), sample=st.none() | text,
+@given(run=text, kind_details=_kind_and_details(), sample=st.none() | text,
        rise=optional, u_rise=optional_u, eps=optional, u_eps=optional_u, du=optional,
        corrections=st.dictionaries(text, finite, max_size=4),
-       details=st.dictionaries(text, finite | text, max_size=4),
        warnings=st.lists(text, max_size=3), error=st.none() | text)
-def test_run_result_round_trip(run, kind, sample, rise, u_rise, eps, u_eps, du, corrections,
-                               details, warnings, error):
+def test_run_result_round_trip(run, kind_details, sample, rise, u_rise, eps, u_eps, du,
+                               corrections, warnings, error):
+    kind, details = kind_details
     r = RunResult(run=run, kind=kind, sample=sample, corrected_rise_K=rise,
                   u_corrected_rise_K=u_rise, energy_equivalent_J_per_K=eps,
                   u_energy_equivalent_J_per_K=u_eps, massic_energy_J_per_g=du,
@@ -74,6 +90,19 @@ def test_a_bad_uncertainty_is_refused(bad):
 def test_an_unknown_kind_is_refused():
     with pytest.raises(ValueError, match="unknown run kind"):
         RunResult(run="r", kind="combustoin")
+
+
+def test_details_are_typed_per_kind_and_unknown_keys_are_refused():
+    from calwork.core.results import BombRunDetails, SolutionRunDetails
+
+    r = RunResult(run="r", kind="combustion", details={"mass_vacuum_g": 0.5})
+    assert isinstance(r.details, BombRunDetails)
+    assert r.details.mass_vacuum_g == 0.5
+    assert dict(r.details) == {"mass_vacuum_g": 0.5}
+    s = RunResult(run="s", kind="solution", details={"amount_mol": 0.01})
+    assert isinstance(s.details, SolutionRunDetails)
+    with pytest.raises(ValueError, match="no field"):
+        RunResult(run="r", kind="combustion", details={"mass_g_typo": 0.5})
 
 
 def test_the_sample_runs_round_trip(tmp_path):

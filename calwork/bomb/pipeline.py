@@ -158,7 +158,7 @@ def _samples(runs: Sequence[RunInfo], rises: dict[str, Any], results: dict[str, 
             continue
         samples.append(s)
         terms.append(t)
-        conventions.append(members[0][0].details["sulfur_convention"])
+        conventions.append(members[0][0].details.sulfur_convention)
     if not samples:
         return samples, {}
     return formation_enthalpies(samples, terms, conventions)

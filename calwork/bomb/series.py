@@ -73,7 +73,7 @@ def calibration_series(
     if not sdm or not math.isfinite(sdm) or sdm <= 0:
         raise UncertaintyError(f"calorimeter {calorimeter!r}: the scatter of ε is zero",
                                found=sdm, expected="a positive standard deviation")
-    u_r_cert = float(np.mean([r.details["u_certificate_relative"] for r in ok]))
+    u_r_cert = float(np.mean([r.details.u_certificate_relative for r in ok]))
     u_cert = st.mean * u_r_cert
     names_k = sorted({k for r in ok for k in r.corrections_J})
     per_rise = {k: float(np.mean([r.corrections_J.get(k, 0.0) / r.corrected_rise_K
@@ -83,8 +83,9 @@ def calibration_series(
     rel = load_data("bomb_corrections.toml")["uncertainty_relative"]
     u_corr = root_sum_square({k: float(rel[k]) * abs(per_rise[k]) for k in names_k},
                              name="the correction constants' share of u(ε)")
-    materials = sorted({str(r.details.get("reference_material")) for r in ok})
-    certs = sorted({float(r.details.get("certified_J_per_g", math.nan)) for r in ok})
+    materials = sorted({str(r.details.reference_material) for r in ok})
+    certs = sorted({math.nan if r.details.certified_J_per_g is None
+                    else float(r.details.certified_J_per_g) for r in ok})
     return CalibrationResult(
         calorimeter=calorimeter, energy_equivalent_J_per_K=st.mean,
         u_energy_equivalent_J_per_K=math.sqrt(sdm**2 + u_cert**2 + u_corr**2), n_runs=st.n,
@@ -125,7 +126,7 @@ class SampleTerms:
 
 
 def _mean_details(runs: Sequence[RunResult], key: str) -> float | None:
-    vals = [r.details.get(key) for r in runs]
+    vals = [getattr(r.details, key) for r in runs]
     if any(v is None for v in vals):
         return None
     return float(np.mean(vals))
@@ -156,7 +157,7 @@ def sample_series(
                            label=f"sample {sample!r}")
     warnings = [w for w in st.warnings if "single run" not in w]
     if st.std_dev_of_mean is None:
-        scatter = runs[0].details["u_massic_energy_rise_J_per_g"]
+        scatter = runs[0].details.u_massic_energy_rise_J_per_g
         warnings.append("a single run: the propagated rise uncertainty is used in place of "
                         "the scatter of the series")
     else:
@@ -164,7 +165,7 @@ def sample_series(
     shared: dict[tuple, float] = {}
     for r in runs:
         cal = calibrations[r.calorimeter]
-        sens = r.details["d_massic_energy_d_epsilon_K_per_g"] / n
+        sens = r.details.d_massic_energy_d_epsilon_K_per_g / n
         key = ("calibration", cal.calorimeter)
         shared[key] = shared.get(key, 0.0) + sens * cal.budget["std_dev_of_mean_J_per_K"]
         ckey = ("certificate", math.nan if cal.certified_J_per_g is None
@@ -176,7 +177,7 @@ def sample_series(
         # it contributed. Treated as systematic (fully correlated); per-run random parts
         # show in the scatter.
         per_rise = cal.correction_per_rise_J_per_K
-        mass = r.details["mass_vacuum_g"]
+        mass = r.details.mass_vacuum_g
         for name, c_J in r.corrections_J.items():
             u_rel = float(rel[name])
             net = c_J - r.corrected_rise_K * per_rise.get(name, 0.0)
@@ -196,7 +197,7 @@ def sample_series(
         standard = float(np.mean([r.standard_massic_energy_J_per_g for r in runs]))
         # the correction's own u (cross-virial model spread, virial and property data):
         # systematic, the same for every run of the series, so averaged, not reduced by √n
-        w = sum(r.details["washburn_u_J"] / r.details["mass_vacuum_g"] for r in runs) / n
+        w = sum(r.details.washburn_u_J / r.details.mass_vacuum_g for r in runs) / n
         shared[("washburn",)] = w
         budget["washburn_J_per_g"] = w
         u_standard = math.sqrt(u_bomb**2 + w * w)
@@ -226,7 +227,7 @@ def _fuel(runs: Sequence[RunResult], info: Any) -> dict[str, float]:
     if info.hydrogen_mass_fraction is None and info.moisture_mass_fraction is None \
             and info.ash_mass_fraction is None:
         return {}
-    fuel_du = float(np.mean([r.details["massic_energy_fuel_convention_J_per_g"]
+    fuel_du = float(np.mean([r.details.massic_energy_fuel_convention_J_per_g
                              for r in runs]))
     return fuel_outputs(fuel_du, hydrogen=info.hydrogen_mass_fraction,
                         oxygen=info.oxygen_mass_fraction, nitrogen=info.nitrogen_mass_fraction,

@@ -8,7 +8,7 @@ apply to a run's kind are ``None`` and are emitted as ``null``.
 from __future__ import annotations
 
 import math
-from collections.abc import Mapping
+from collections.abc import Iterator, Mapping
 from dataclasses import dataclass, field, fields
 from types import MappingProxyType
 from typing import Any
@@ -18,8 +18,18 @@ from calwork.core.provenance import Provenance
 from calwork.core.runinfo import RUN_KINDS
 from calwork.core.uncertainty import Budget
 
-__all__ = ["CalibrationResult", "ChainResult", "Reduction", "RunResult", "SampleResult",
-           "failed_run", "jsonable"]
+__all__ = [
+    "BombRunDetails",
+    "CalibrationResult",
+    "ChainResult",
+    "Reduction",
+    "RunDetails",
+    "RunResult",
+    "SampleResult",
+    "SolutionRunDetails",
+    "failed_run",
+    "jsonable",
+]
 
 
 def jsonable(value: Any) -> Any:
@@ -97,6 +107,112 @@ def _freeze(obj: Any, *names: str) -> None:
         object.__setattr__(obj, name, MappingProxyType(dict(getattr(obj, name))))
 
 
+
+@dataclass(frozen=True, kw_only=True)
+class RunDetails(Mapping[str, Any]):
+    """The numbers behind one run's result, beyond the contract fields; each run kind has its
+    record (:class:`BombRunDetails`, :class:`SolutionRunDetails`) with typed, named fields.
+
+    Reports read the attributes. The record also reads as a mapping of the fields that are
+    given (what the JSON holds), and a mapping with an unknown key is refused — so a writer
+    cannot add a number no reader knows about.
+    """
+
+    def __getitem__(self, key: str) -> Any:
+        if key not in self._names():
+            raise KeyError(key)
+        value = getattr(self, key)
+        if value is None:
+            raise KeyError(key)
+        return value
+
+    def __iter__(self) -> Iterator[str]:
+        return (k for k in self._names() if getattr(self, k) is not None)
+
+    def __len__(self) -> int:
+        return sum(1 for _ in self)
+
+    @classmethod
+    def _names(cls) -> tuple[str, ...]:
+        return tuple(f.name for f in fields(cls))
+
+    @classmethod
+    def from_mapping(cls, data: Mapping[str, Any]) -> RunDetails:
+        unknown = sorted(set(data) - set(cls._names()))
+        if unknown:
+            raise ValueError(f"{cls.__name__} has no field {unknown}: add it to the record "
+                             "(with its unit in the name) before a stage writes it")
+        return cls(**dict(data))
+
+    def to_dict(self) -> dict[str, Any]:
+        return {k: jsonable(getattr(self, k)) for k in self}
+
+
+@dataclass(frozen=True, kw_only=True)
+class BombRunDetails(RunDetails):
+    """Details of a calibration or combustion run of the oxygen-bomb chain."""
+
+    mass_basis: str | None = None
+    buoyancy_factor: float | None = None
+    mass_vacuum_g: float | None = None
+    correction_constants: Mapping[str, Any] | None = None
+    u_corrections_J: Mapping[str, float] | None = None
+    u_corrections_J_per_g: Mapping[str, float] | None = None
+    nitric_acid_mol: float | None = None
+    sulfur_mol: float | None = None
+    sulfur_convention: str | None = None
+    cotton_g_vacuum: float | None = None
+    aux_mass_g_vacuum: float | None = None
+    contents_included: bool | None = None
+    eps_initial_contents_J_per_K: float | None = None
+    eps_final_contents_J_per_K: float | None = None
+    contents_referral_J: float | None = None
+    washburn_terms_J: Mapping[str, float] | None = None
+    washburn_u_J: float | None = None
+    washburn_u_components_J: Mapping[str, float] | None = None
+    reference_material: str | None = None
+    certified_J_per_g: float | None = None
+    u_certificate_relative: float | None = None
+    certificate_source: str | None = None
+    certificate_condition_factor: bool | None = None
+    jessup_factor: float | None = None
+    jessup_temperature_C: float | None = None
+    reference_material_energy_J: float | None = None
+    heat_released_J: float | None = None
+    heat_measured_J: float | None = None
+    calibration_runs: tuple[str, ...] | None = None
+    d_massic_energy_d_epsilon_K_per_g: float | None = None
+    u_massic_energy_rise_J_per_g: float | None = None
+    massic_energy_fuel_convention_J_per_g: float | None = None
+
+
+@dataclass(frozen=True, kw_only=True)
+class SolutionRunDetails(RunDetails):
+    """Details of an electrical, blank or solution run of the solution chain."""
+
+    calibrations: tuple[Any, ...] | None = None
+    events: tuple[Any, ...] | None = None
+    budget_J_per_K: Mapping[str, float] | None = None
+    calibration_basis: str | None = None
+    measured_heat_J: float | None = None
+    u_reaction_heat_J: float | None = None
+    amount_mol: float | None = None
+    u_amount_mol: float | None = None
+    amount_source: str | None = None
+    budget_kJ_per_mol: Mapping[str, float] | None = None
+    u_independent_kJ_per_mol: float | None = None
+    energy_equivalent_budget_J_per_K: Mapping[str, float] | None = None
+    reaction_event_index: int | None = None
+    blank: Mapping[str, Any] | None = None
+    vaporisation: Mapping[str, Any] | None = None
+
+
+def _details_for(kind: str, data: Any) -> RunDetails:
+    if isinstance(data, RunDetails):
+        return data
+    record = BombRunDetails if kind in ("calibration", "combustion") else SolutionRunDetails
+    return record.from_mapping(data or {})
+
 @dataclass(frozen=True, kw_only=True)
 class RunResult(_Record):
     """The reduced result of one run (any kind). Failed runs carry ``error`` and no numbers."""
@@ -127,13 +243,15 @@ class RunResult(_Record):
     error: str | None = None
     #: The RiseResult (or results, for multi-event logs) behind the numbers.
     rise: Any = None
-    #: Further numbers with units in their names (mass in vacuum, certificate factor, ...).
-    details: Mapping[str, Any] = field(default_factory=dict)
+    #: The numbers behind the result (mass in vacuum, certificate factor, ...), a typed record
+    #: per run kind (:class:`BombRunDetails`, :class:`SolutionRunDetails`).
+    details: RunDetails = field(default_factory=dict)  # type: ignore[assignment]
     provenance: Provenance | None = None
 
     def __post_init__(self) -> None:
         _check_values(self)
-        _freeze(self, "corrections_J", "details")
+        object.__setattr__(self, "details", _details_for(self.kind, self.details))
+        _freeze(self, "corrections_J")
         object.__setattr__(self, "warnings", tuple(self.warnings))
 
 

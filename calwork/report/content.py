@@ -147,7 +147,7 @@ def _calibration(cal: Any, red: Any, anchor: str) -> Section:
             continue
         d = r.details
         rows.append([rid, getattr(infos.get(rid), "date", None) or "—",
-                     fmt(d.get("mass_vacuum_g"), 5), fmt(r.corrected_rise_K, 6),
+                     fmt(getattr(d, "mass_vacuum_g", None), 5), fmt(r.corrected_rise_K, 6),
                      fmt(r.u_corrected_rise_K, 2, sig=True), fmt(r.energy_equivalent_J_per_K, 3),
                      str(len(r.warnings))])
     sec.blocks.append(Table(["run", "date", "m (g)", "ΔT_c (K)", "u(ΔT_c) (K)", "ε (J/K)",
@@ -223,7 +223,7 @@ def _sample(s: Any, red: Any, anchor: str) -> Section:
               str(v.get("source", ""))] for v in values],
             f"Key values used ({s.key_values_used.get('reaction', '')})"))
     by_id = {r.run: r for r in red.runs}
-    rows = [[rid, fmt(by_id[rid].details.get("mass_vacuum_g"), 5),
+    rows = [[rid, fmt(getattr(by_id[rid].details, "mass_vacuum_g", None), 5),
              fmt(by_id[rid].corrected_rise_K, 6), fmt(by_id[rid].massic_energy_J_per_g, 2),
              fmt(by_id[rid].standard_massic_energy_J_per_g, 2)]
             for rid in s.runs if rid in by_id]

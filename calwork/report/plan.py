@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 import math
-from collections.abc import Mapping, Sequence
+from collections.abc import Sequence
 from typing import Any
 
 from calwork.report.formulas import Expr, Pinned, Ref
@@ -20,10 +20,11 @@ def _close(a: float, b: float) -> bool:
     return abs(a - b) <= REL_TOL * max(abs(a), abs(b)) or abs(a - b) <= 1e-300
 
 
-def detail(details: Mapping[str, Any], *names: str) -> float | None:
-    """The first of ``names`` present in a run's ``details`` as a finite number."""
+def detail(details: Any, *names: str) -> float | None:
+    """The first of the attributes ``names`` of a run's details record that is a finite
+    number."""
     for name in names:
-        value = details.get(name)
+        value = getattr(details, name, None)
         if isinstance(value, (int, float)) and not isinstance(value, bool) and math.isfinite(
             value
         ):

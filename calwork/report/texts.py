@@ -40,7 +40,7 @@ def primary_rise(run: Any) -> Any:
     if isinstance(rise, (tuple, list)):
         if not rise:
             return None
-        index = run.details.get("reaction_event_index")
+        index = getattr(run.details, "reaction_event_index", None)
         if isinstance(index, int) and 0 <= index < len(rise):
             return rise[index]
         return rise[0]

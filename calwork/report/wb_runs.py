@@ -106,7 +106,7 @@ def plan_corrections(plan: Plan, runs: list[Any]) -> None:
         table.put(row, "kind", run.kind)
         refs = [ref for name, value in run.corrections_J.items()
                 if (ref := table.put(row, f"c:{name}", float(value))) is not None]
-        constants = run.details.get("correction_constants") or {}
+        constants = getattr(run.details, "correction_constants", None) or {}
         table.put(row, "constants", "; ".join(f"{k}: {v}" for k, v in constants.items())
                   or None)
         if not refs:
@@ -150,7 +150,7 @@ def _referral(plan: Plan, table: Table, row: int, run: Any) -> tuple[Ref | None,
     rise = table.put(row, "rise", run.corrected_rise_K)
     table.put(row, "u_rise", run.u_corrected_rise_K)
     table.put(row, "method", rise_method(run, plan.reduction.method))
-    if not d.get("contents_included"):
+    if not d.contents_included:
         referral = table.put(row, "referral", 0.0 if run.error is None else None)
         return rise, referral
     eps_i = table.put(row, "eps_i", detail(d, "eps_initial_contents_J_per_K"))
@@ -177,7 +177,7 @@ def _jessup(plan: Plan, table: Table, row: int, run: Any, info: Any, m: Ref | No
         from calwork.bomb.chain import bomb_conditions
 
         cond = bomb_conditions(info)
-        material = load_reference_material(str(d.get("reference_material", "benzoic acid")))
+        material = load_reference_material(str(d.reference_material or "benzoic acid"))
     except (CalworkError, AttributeError, TypeError):
         return table.put(row, "factor", reported)
     p = table.put(row, "p", cond.o2_pressure_MPa)
@@ -226,7 +226,7 @@ def plan_calibration_runs(plan: Plan, runs: list[Any]) -> None:
     ]
     table, rows = _run_rows(plan, grid, cols, runs)
     for row, run, info in rows:
-        table.put(row, "material", run.details.get("reference_material") or run.sample)
+        table.put(row, "material", run.details.reference_material or run.sample)
         m = _mass(plan, table, row, run, info)
         q = table.put(row, "cert", detail(run.details, "certified_J_per_g"))
         f = _jessup(plan, table, row, run, info, m)

@@ -370,7 +370,7 @@ def reduce_solution_runs(
     for name, items in blank_items.items():
         blanks[name] = blank_correction(
             [r.reaction_heat_J for r in items], runs=[r.run for r in items],
-            u_values_J=[r.details["u_reaction_heat_J"] for r in items], calorimeter=name)
+            u_values_J=[r.details.u_reaction_heat_J for r in items], calorimeter=name)
     # 3. reaction runs
     for info in (i for i in pending if i.kind == "solution"):
         analysis, tg = analyses[info.run]

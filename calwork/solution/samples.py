@@ -91,7 +91,7 @@ def _sample(name: str, formula: str | None, items: Sequence[RunResult], phi_L_mo
             shared: frozenset[str]) -> SampleResult:
     H = np.array([r.molar_enthalpy_kJ_per_mol for r in items], dtype=float)
     n = H.size
-    budgets = [dict(r.details.get("budget_kJ_per_mol", {})) for r in items]
+    budgets = [dict(r.details.budget_kJ_per_mol or {}) for r in items]
     u_ind = np.array([root_sum_square({k: v for k, v in b.items() if k not in shared},
                                       name=f"run {r.run}")
                       for b, r in zip(budgets, items, strict=True)])
