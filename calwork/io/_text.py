@@ -153,10 +153,16 @@ class Layout:
     units: tuple[str, ...] | None
 
 
-def _find_block(lines: list[str], sep: str | None, dec: str) -> tuple[int, int, int] | None:
-    """(start index, field count, run length up to 12) of the first block of readings."""
+def _find_block(lines: list[str], sep: str | None, dec: str,
+                stop_after: int | None = None) -> tuple[int, int, int] | None:
+    """(start index, field count, run length up to 12) of the first block of readings.
+
+    ``stop_after``: a block found by another separator already starts at this index with a
+    full run, so a block starting later cannot win — the scan stops there."""
     run_start, run_len, run_n = -1, 0, 0
     for i, line in enumerate(lines):
+        if stop_after is not None and i > stop_after and run_len == 0:
+            return None
         if is_comment(line):
             continue
         if sep is not None and sep not in line:
@@ -225,7 +231,8 @@ def sniff_layout(lines: list[str], path: str | Path) -> Layout:
         for dec in (".", ","):
             if sep == "," and dec == ",":
                 continue
-            found = _find_block(sample, sep, dec)
+            full = best is not None and best[0][0] == -12
+            found = _find_block(sample, sep, dec, best[3] if full else None)
             if found is None:
                 continue
             start, n, run = found

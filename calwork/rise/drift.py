@@ -13,6 +13,8 @@ then runs off to infinity while ``g_r`` and ``k`` remain finite). The solution o
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 
 __all__ = [
@@ -92,15 +94,20 @@ def relaxation_terms(tau_s, rate_constant_per_s: float):
     >>> float(e), float(phi), float(dphi)
     (1.0, 100.0, -5000.0)
     """
-    tau = np.asarray(tau_s, dtype=float)
     k = float(rate_constant_per_s)
+    scalar = isinstance(tau_s, float | int)
+    tau = float(tau_s) if scalar else np.asarray(tau_s, dtype=float)
     x = k * tau
-    e = np.exp(-x)
-    if k == 0.0 or abs(k) * float(np.max(np.abs(tau), initial=0.0)) < _SERIES_LIMIT:
+    # a Python number takes the math functions (the joint fit evaluates its curves at single
+    # times many times per run); arrays take numpy's — the same formulas either way
+    exp, expm1 = (math.exp, math.expm1) if scalar else (np.exp, np.expm1)
+    e = exp(-x)
+    largest = abs(tau) if scalar else float(np.max(np.abs(tau), initial=0.0))
+    if k == 0.0 or abs(k) * largest < _SERIES_LIMIT:
         phi = tau * (1.0 - x * (0.5 - x * (1.0 / 6.0 - x / 24.0)))
         dphi = tau * tau * (-0.5 + x * (1.0 / 3.0 - x * (0.125 - x / 30.0)))
         return e, phi, dphi
-    phi = -np.expm1(-x) / k
+    phi = -expm1(-x) / k
     return e, phi, (tau * e - phi) / k
 
 

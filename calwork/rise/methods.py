@@ -14,6 +14,7 @@ from typing import Any
 import numpy as np
 
 from calwork.core.errors import FitError, PeriodDetectionError, UncertaintyError
+from calwork.core.numeric import mean
 from calwork.core.uncertainty import numeric_gradient, propagate_gradient
 from calwork.rise.diagnostics import ar1_inflation, warning
 from calwork.rise.dickinson import dickinson_exact_tx_s, dickinson_rise_K, time_at_fraction_s
@@ -195,10 +196,10 @@ class _Areas:
 def _areas(sel: Selection, u: np.ndarray, Cu: np.ndarray, t_i: float, t_f: float) -> _Areas:
     C_i = sel.integral(u, float(sel.t[0]), t_i)
     C_f = sel.integral(u, float(sel.t[0]), t_f)
-    tf_mean = float(sel.t[sel.fore].mean())
-    ta_mean = float(sel.t[sel.after].mean())
-    return _Areas(main=C_f - C_i, fore=C_i - float(Cu[sel.fore].mean()),
-                  after=float(Cu[sel.after].mean()) - C_f, span=t_f - t_i,
+    tf_mean = mean(sel.t[sel.fore])
+    ta_mean = mean(sel.t[sel.after])
+    return _Areas(main=C_f - C_i, fore=C_i - mean(Cu[sel.fore]),
+                  after=mean(Cu[sel.after]) - C_f, span=t_f - t_i,
                   d_fore=t_i - tf_mean, d_after=ta_mean - t_f)
 
 

@@ -21,6 +21,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from calwork.core.errors import FitError
+from calwork.core.numeric import mean
 from calwork.core.uncertainty import standard_uncertainty
 from calwork.rise.drift import (
     convergence_temperature_K,
@@ -37,8 +38,8 @@ PARAMETERS = ("theta_fore_K", "theta_after_K", "drift_ref_K_per_s", "k_per_s")
 
 def _line(t: np.ndarray, y: np.ndarray) -> tuple[float, float, float]:
     """Mean time, mean value and OLS slope."""
-    tm = float(t.mean())
-    ym = float(y.mean())
+    tm = mean(t)
+    ym = mean(y)
     dt = t - tm
     stt = float(dt @ dt)
     slope = float(dt @ (y - ym)) / stt if stt > 0 else 0.0
@@ -113,14 +114,18 @@ class NewtonFit:
         c = self.after_t0_s if after else self.fore_t0_s
         th0 = float(self.params[1] if after else self.params[0])
         g, k = self.drift_ref_K_per_s, self.k_per_s
-        scalar = isinstance(t_s, float | int)
+        if isinstance(t_s, float | int):  # one time: scalar arithmetic (called often)
+            tau = float(t_s) - c
+            e, phi, dphi = relaxation_terms(tau, k)
+            grad = np.array([0.0 if after else e, e if after else 0.0, phi,
+                             -th0 * tau * e + g * dphi])
+            return th0 * e + g * phi, grad
         tau = np.asarray(t_s, dtype=float) - c
         e, phi, dphi = relaxation_terms(tau, k)
-        value = th0 * e + g * phi
         zero = np.zeros_like(e)
         grad = np.stack([zero if after else e, e if after else zero, phi,
                          -th0 * tau * e + g * dphi])
-        return (float(value), grad) if scalar else (value, grad)
+        return th0 * e + g * phi, grad
 
     def temperature_K(self, t_s, which: str) -> np.ndarray:
         """Temperature of the fitted fore or after curve at ``t_s``, K."""
@@ -173,7 +178,7 @@ def fit_newton(t_fore: np.ndarray, T_fore: np.ndarray, t_after: np.ndarray,
         p = np.array([y_f, y_a, g_f + k * y_f, k])
     else:
         T_r = start.reference_temperature_K
-        c_f, c_a = float(t_fore.mean()), float(t_after.mean())
+        c_f, c_a = mean(t_fore), mean(t_after)
         p = start.params.copy()
         # move the integration constants to the new period means along the fitted curves
         p[0] = float(start.theta(c_f, "fore")[0])

@@ -14,6 +14,7 @@ from typing import Any
 import numpy as np
 
 from calwork.core.errors import PeriodDetectionError
+from calwork.core.numeric import mean
 from calwork.core.thermogram import Thermogram
 from calwork.rise.drift import trapezoid_K_s, trapezoid_weights_s
 from calwork.rise.periods import Periods
@@ -108,8 +109,8 @@ def fit_line(t: np.ndarray, T: np.ndarray) -> LineFit:
     a straight line would count that smooth curvature as noise. The line's slope is the drift
     at mid-period to second order either way (exactly so for a parabola).
     """
-    tm = float(t.mean())
-    Tm = float(T.mean())
+    tm = mean(t)
+    Tm = mean(T)
     dt = t - tm
     stt = float(dt @ dt)
     g = float(dt @ (T - Tm)) / stt
