@@ -304,3 +304,18 @@ def test_the_electrical_series_gets_the_same_statistics_as_a_bomb_series():
     assert grubbs_critical_value(6) == test["G_critical"]
     assert any("Grubbs" in w for w in cal.warnings)
     assert cal.std_dev_of_mean_J_per_K == pytest.approx(s / math.sqrt(6), rel=1e-12)
+
+
+def test_a_run_without_an_independent_component_is_named_not_silently_filled_in():
+    from calwork.core.results import RunResult
+    from calwork.solution.reaction import SHARED_COMPONENTS
+    from calwork.solution.samples import _sample
+
+    runs = [RunResult(run=f"K{i}", kind="solution", molar_enthalpy_kJ_per_mol=17.5 + 0.01 * i,
+                      u_molar_enthalpy_kJ_per_mol=0.02,
+                      details={"budget_kJ_per_mol": {"power_calibration": 0.02}})
+            for i in range(3)]
+    s = _sample("KCl", "KCl", runs, "none", SHARED_COMPONENTS)
+    flagged = [w for w in s.warnings if w.startswith("independent-u-assumed")]
+    assert len(flagged) == 1
+    assert "K0, K1, K2" in flagged[0]

@@ -95,6 +95,7 @@ def _sample(name: str, formula: str | None, items: Sequence[RunResult], phi_L_mo
     u_ind = np.array([root_sum_square({k: v for k, v in b.items() if k not in shared},
                                       name=f"run {r.run}")
                       for b, r in zip(budgets, items, strict=True)])
+    no_independent = [r.run for r, u in zip(items, u_ind, strict=True) if not u > 0]
     u_ind = np.where(u_ind > 0, u_ind, [r.u_molar_enthalpy_kJ_per_mol for r in items])
     propagated = math.sqrt(float(np.sum(u_ind**2))) / n
     sdm = float(H.std(ddof=1)) / math.sqrt(n) if n >= 2 else 0.0
@@ -105,6 +106,10 @@ def _sample(name: str, formula: str | None, items: Sequence[RunResult], phi_L_mo
     budget = {"random": random, **shared_parts}
     derived: dict[str, Budget] = {}
     warnings: list[str] = []
+    if no_independent:
+        warnings.append(f"independent-u-assumed: run(s) {', '.join(no_independent)} carry no "
+                        "independent uncertainty component; their whole u is used as the "
+                        "independent part (conservative)")
     if n == 1:
         warnings.append("a single run: no repeatability estimate")
     calorimeters = {r.calorimeter for r in items}
