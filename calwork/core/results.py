@@ -15,7 +15,7 @@ from typing import Any
 
 from calwork.core.errors import UncertaintyError
 from calwork.core.provenance import Provenance
-from calwork.core.runinfo import RUN_KINDS
+from calwork.core.runinfo import BOMB_KINDS, RUN_KINDS
 from calwork.core.uncertainty import Budget
 
 __all__ = [
@@ -58,9 +58,8 @@ def _check_values(obj: Any) -> None:
     """Validation on construction: a known run kind, and every standard (``u_…``) or expanded
     (``U_…``) uncertainty either absent or a finite, non-negative number."""
     kind = getattr(obj, "kind", None)
-    allowed = (*RUN_KINDS, "combustion", "solution")
-    if kind is not None and kind not in allowed:
-        raise ValueError(f"unknown run kind {kind!r}: one of {sorted(set(allowed))}")
+    if kind is not None and kind not in RUN_KINDS:
+        raise ValueError(f"unknown run kind {kind!r}: one of {sorted(RUN_KINDS)}")
     for f in fields(obj):
         if f.name.startswith(("u_", "U_")):
             value = getattr(obj, f.name)
@@ -84,10 +83,7 @@ def _from_dict(cls: type, data: Mapping[str, Any]) -> Any:
     if isinstance(kwargs.get("derived_budgets"), Mapping):
         kwargs["derived_budgets"] = {k: Budget.from_dict(v)
                                      for k, v in kwargs["derived_budgets"].items()}
-    for name in ("runs", "values_J_per_K", "warnings"):
-        if isinstance(kwargs.get(name), list):
-            kwargs[name] = tuple(kwargs[name])
-    return cls(**kwargs)
+    return cls(**kwargs)  # the records turn JSON lists back into tuples themselves
 
 
 class _Record:
@@ -210,7 +206,7 @@ class SolutionRunDetails(RunDetails):
 def _details_for(kind: str, data: Any) -> RunDetails:
     if isinstance(data, RunDetails):
         return data
-    record = BombRunDetails if kind in ("calibration", "combustion") else SolutionRunDetails
+    record = BombRunDetails if kind in BOMB_KINDS else SolutionRunDetails
     return record.from_mapping(data or {})
 
 @dataclass(frozen=True, kw_only=True)
