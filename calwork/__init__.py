@@ -31,7 +31,8 @@ def _export(module: str, *names: str) -> None:
 _export("calwork.core.errors", "CalworkError")
 _export("calwork.formula", "element_counts", "molar_mass_g_per_mol")
 _export("calwork.core.provenance", "Provenance")
-_export("calwork.core.results", "CalibrationResult", "Reduction", "RunResult", "SampleResult")
+_export("calwork.core.results", "BombRunResult", "CalibrationResult", "Reduction", "RunResult",
+        "SampleResult", "SolutionRunResult")
 _export("calwork.core.runinfo", "RunInfo")
 _export("calwork.core.thermogram", "Thermogram")
 _export("calwork.io", "read_log", "read_run_sheet", "load_run_log", "write_log",

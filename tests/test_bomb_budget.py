@@ -10,7 +10,7 @@ from __future__ import annotations
 import pytest
 
 from calwork.bomb.series import calibration_series, sample_series
-from calwork.core.results import RunResult
+from calwork.core.results import BombRunResult
 from calwork.core.runinfo import RunInfo
 from calwork.data import load_data
 
@@ -18,7 +18,7 @@ FUSE_J, DT_CAL, EPS = 80.0, 2.6, 10_000.0
 
 
 def _cal(run, dT=DT_CAL, fuse=FUSE_J):
-    return RunResult(run=run, kind="calibration", calorimeter="A", corrected_rise_K=dT,
+    return BombRunResult(run=run, kind="calibration", calorimeter="A", corrected_rise_K=dT,
                      u_corrected_rise_K=5e-5, corrections_J={"fuse": fuse},
                      energy_equivalent_J_per_K=EPS + (0.2 if run.endswith("1") else -0.2),
                      details={"u_certificate_relative": 5.7e-5, "reference_material":
@@ -27,7 +27,7 @@ def _cal(run, dT=DT_CAL, fuse=FUSE_J):
 
 def _sample(run, dT, fuse, mass=1.0):
     du = -(EPS * dT - fuse) / mass
-    return RunResult(run=run, kind="combustion", sample="x", calorimeter="A",
+    return BombRunResult(run=run, kind="combustion", sample="x", calorimeter="A",
                      corrected_rise_K=dT, u_corrected_rise_K=5e-5,
                      corrections_J={"fuse": fuse}, massic_energy_J_per_g=du,
                      details={"mass_vacuum_g": mass, "d_massic_energy_d_epsilon_K_per_g":

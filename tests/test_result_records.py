@@ -12,8 +12,15 @@ from hypothesis import strategies as st
 
 from calwork.core.errors import UncertaintyError
 from calwork.core.provenance import Provenance
-from calwork.core.results import CalibrationResult, RunResult, SampleResult
-from calwork.core.runinfo import RUN_KINDS
+from calwork.core.results import (
+    BombRunResult,
+    CalibrationResult,
+    RunResult,
+    SampleResult,
+    SolutionRunResult,
+    run_result,
+)
+from calwork.core.runinfo import BOMB_KINDS, RUN_KINDS
 from calwork.core.uncertainty import Budget
 
 finite = st.floats(min_value=-1e9, max_value=1e9, allow_nan=False, allow_infinity=False)
@@ -45,19 +52,23 @@ def _kind_and_details(draw):
 
 @settings(max_examples=150, deadline=None)
 @given(run=text, kind_details=_kind_and_details(), sample=st.none() | text,
-       rise=optional, u_rise=optional_u, eps=optional, u_eps=optional_u, du=optional,
-       corrections=st.dictionaries(text, finite, max_size=4),
+       rise=optional, u_rise=optional_u, eps=optional, u_eps=optional_u, value=optional,
+       u_value=optional_u, corrections=st.dictionaries(text, finite, max_size=4),
        warnings=st.lists(text, max_size=3), error=st.none() | text)
-def test_run_result_round_trip(run, kind_details, sample, rise, u_rise, eps, u_eps, du,
-                               corrections, warnings, error):
+def test_run_result_round_trip(run, kind_details, sample, rise, u_rise, eps, u_eps, value,
+                               u_value, corrections, warnings, error):
     kind, details = kind_details
-    r = RunResult(run=run, kind=kind, sample=sample, corrected_rise_K=rise,
-                  u_corrected_rise_K=u_rise, energy_equivalent_J_per_K=eps,
-                  u_energy_equivalent_J_per_K=u_eps, massic_energy_J_per_g=du,
-                  corrections_J=corrections, details=details, warnings=warnings, error=error,
-                  provenance=Provenance(source_path="log.csv", sha256="0" * 64,
-                                        importer="test", calwork_version="x"))
+    own = ({"massic_energy_J_per_g": value, "washburn_J": u_value} if kind in BOMB_KINDS else
+           {"molar_enthalpy_kJ_per_mol": value, "u_molar_enthalpy_kJ_per_mol": u_value})
+    r = run_result(kind, run=run, sample=sample, corrected_rise_K=rise,
+                   u_corrected_rise_K=u_rise, energy_equivalent_J_per_K=eps,
+                   u_energy_equivalent_J_per_K=u_eps, corrections_J=corrections,
+                   details=details, warnings=warnings, error=error,
+                   provenance=Provenance(source_path="log.csv", sha256="0" * 64,
+                                         importer="test", calwork_version="x"), **own)
+    assert isinstance(r, BombRunResult if kind in BOMB_KINDS else SolutionRunResult)
     again = RunResult.from_dict(_json(r))
+    assert type(again) is type(r)
     assert again.to_dict() == r.to_dict()
 
 
@@ -81,7 +92,10 @@ def test_calibration_and_sample_round_trip(eps, u, parts, values):
 @pytest.mark.parametrize("bad", [math.nan, -1e-9, math.inf])
 def test_a_bad_uncertainty_is_refused(bad):
     with pytest.raises(UncertaintyError, match="u_corrected_rise_K"):
-        RunResult(run="r", kind="calibration", corrected_rise_K=2.0, u_corrected_rise_K=bad)
+        BombRunResult(run="r", kind="calibration", corrected_rise_K=2.0,
+                      u_corrected_rise_K=bad)
+    with pytest.raises(UncertaintyError, match="u_molar_enthalpy_kJ_per_mol"):
+        SolutionRunResult(run="r", kind="solution", u_molar_enthalpy_kJ_per_mol=bad)
     with pytest.raises(UncertaintyError, match="u_massic_energy_J_per_g"):
         SampleResult(sample="s", formula=None, n_runs=1, runs=["r"],
                      u_massic_energy_J_per_g=bad)
@@ -89,20 +103,51 @@ def test_a_bad_uncertainty_is_refused(bad):
 
 def test_an_unknown_kind_is_refused():
     with pytest.raises(ValueError, match="unknown run kind"):
-        RunResult(run="r", kind="combustoin")
+        BombRunResult(run="r", kind="combustoin")
+    with pytest.raises(ValueError, match="unknown run kind"):
+        run_result("combustoin", run="r")
+    with pytest.raises(ValueError, match="unknown run kind"):
+        RunResult.from_dict({"run": "r", "kind": "combustoin"})
+
+
+def test_each_run_kind_has_its_record():
+    """A record serves its own kinds only and has no field of the other kinds; the shared
+    part is not built on its own; the rise is a corrected-rise record."""
+    with pytest.raises(ValueError, match="serves the run kinds"):
+        BombRunResult(run="r", kind="solution")
+    with pytest.raises(ValueError, match="serves the run kinds"):
+        SolutionRunResult(run="r", kind="combustion")
+    with pytest.raises(TypeError, match="shares"):
+        RunResult(run="r", kind="combustion")
+    with pytest.raises(TypeError):
+        BombRunResult(run="r", kind="combustion", molar_enthalpy_kJ_per_mol=1.0)
+    with pytest.raises(TypeError, match="corrected-rise records"):
+        BombRunResult(run="r", kind="combustion", rise="2.1 K")
+    from calwork.core.results import BombRunDetails
+
+    with pytest.raises(TypeError, match="SolutionRunDetails"):
+        SolutionRunResult(run="r", kind="solution", details=BombRunDetails())
+    bomb = BombRunResult(run="r", kind="combustion", massic_energy_J_per_g=-26400.0)
+    assert not hasattr(bomb, "molar_enthalpy_kJ_per_mol")
+    assert bomb.to_dict()["molar_enthalpy_kJ_per_mol"] is None  # every run has every key
+    with pytest.raises(ValueError, match="is a BombRunResult"):
+        SolutionRunResult.from_dict(bomb.to_dict())
+    assert BombRunResult.from_dict(bomb.to_dict()) == bomb
+    with pytest.raises(ValueError, match="no field"):
+        RunResult.from_dict({**bomb.to_dict(), "heater_energy_J": 10.0})
 
 
 def test_details_are_typed_per_kind_and_unknown_keys_are_refused():
     from calwork.core.results import BombRunDetails, SolutionRunDetails
 
-    r = RunResult(run="r", kind="combustion", details={"mass_vacuum_g": 0.5})
+    r = BombRunResult(run="r", kind="combustion", details={"mass_vacuum_g": 0.5})
     assert isinstance(r.details, BombRunDetails)
     assert r.details.mass_vacuum_g == 0.5
     assert dict(r.details) == {"mass_vacuum_g": 0.5}
-    s = RunResult(run="s", kind="solution", details={"amount_mol": 0.01})
+    s = SolutionRunResult(run="s", kind="solution", details={"amount_mol": 0.01})
     assert isinstance(s.details, SolutionRunDetails)
     with pytest.raises(ValueError, match="no field"):
-        RunResult(run="r", kind="combustion", details={"mass_g_typo": 0.5})
+        BombRunResult(run="r", kind="combustion", details={"mass_g_typo": 0.5})
 
 
 def test_the_sample_runs_round_trip(tmp_path):

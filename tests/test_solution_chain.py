@@ -284,12 +284,12 @@ def test_public_names_resolve():
 def test_the_electrical_series_gets_the_same_statistics_as_a_bomb_series():
     # one implementation for every calibration series: Grubbs' test (ASTM E178) reports a
     # planted outlier of an electrical series exactly as it does for a bomb series
-    from calwork.core.results import RunResult
+    from calwork.core.results import SolutionRunResult
     from calwork.core.statistics import grubbs_critical_value
     from calwork.solution.chain import _series
 
     values = [360.02, 359.98, 360.01, 359.99, 360.00, 361.50]
-    items = [(RunResult(run=f"E{i}", kind="electrical", energy_equivalent_J_per_K=v,
+    items = [(SolutionRunResult(run=f"E{i}", kind="electrical", energy_equivalent_J_per_K=v,
                         u_energy_equivalent_J_per_K=0.05), {"power_calibration": 0.036})
              for i, v in enumerate(values)]
     cal = _series("SC-1", items)
@@ -307,11 +307,11 @@ def test_the_electrical_series_gets_the_same_statistics_as_a_bomb_series():
 
 
 def test_a_run_without_an_independent_component_is_named_not_silently_filled_in():
-    from calwork.core.results import RunResult
+    from calwork.core.results import SolutionRunResult
     from calwork.solution.reaction import SHARED_COMPONENTS
     from calwork.solution.samples import _sample
 
-    runs = [RunResult(run=f"K{i}", kind="solution", molar_enthalpy_kJ_per_mol=17.5 + 0.01 * i,
+    runs = [SolutionRunResult(run=f"K{i}", kind="solution", molar_enthalpy_kJ_per_mol=17.5 + 0.01 * i,
                       u_molar_enthalpy_kJ_per_mol=0.02,
                       details={"budget_kJ_per_mol": {"power_calibration": 0.02}})
             for i in range(3)]

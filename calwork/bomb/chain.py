@@ -1,4 +1,4 @@
-"""The bomb-calorimetry energy chain for one run: RunInfo + RiseResult → RunResult.
+"""The bomb-calorimetry energy chain for one run: RunInfo + RiseResult → BombRunResult.
 
 Calibration run (reference material, docs/methods.md (3.2)):
 
@@ -43,7 +43,7 @@ from calwork.bomb.corrections import (
 from calwork.bomb.washburn import Combustible, bomb_states, washburn_correction
 from calwork.core.constants import CELSIUS_ZERO_K, T_REF_K, STANDARD_ATMOSPHERE_Pa
 from calwork.core.errors import CalibrationError, CalworkError, RunError, check_choice
-from calwork.core.results import CalibrationResult, RunResult
+from calwork.core.results import BombRunResult, CalibrationResult
 from calwork.data import load_data
 from calwork.formula import element_counts, molar_mass_g_per_mol
 
@@ -296,7 +296,7 @@ def _key_known(name: str) -> bool:
 
 
 def reduce_calibration_run(info: Any, rise: Any, *,
-                           material: ReferenceMaterial | None = None) -> RunResult:
+                           material: ReferenceMaterial | None = None) -> BombRunResult:
     """Energy equivalent ε(calor) from one reference-material run (errors raised)."""
     warnings: list[str] = []
     if material is None:
@@ -339,7 +339,7 @@ def reduce_calibration_run(info: Any, rise: Any, *,
     heat = mass * certified + sum(corr.values())
     eps = (heat + referral) / dT
     details["heat_released_J"] = heat
-    return RunResult(
+    return BombRunResult(
         run=info.run, kind=info.kind, sample=info.sample or material.name,
         calorimeter=info.calorimeter, corrected_rise_K=dT, u_corrected_rise_K=u_dT,
         corrections_J=corr, energy_equivalent_J_per_K=eps,
@@ -365,7 +365,7 @@ def _sulfur(info: Any, counts: dict[str, float] | None, mass: float) -> float:
 
 
 def reduce_combustion_run(info: Any, rise: Any, calibration: CalibrationResult | None
-                          ) -> RunResult:
+                          ) -> BombRunResult:
     """Massic energy of the bomb process (and the standard one) of a sample run."""
     if calibration is None:
         raise RunError("no calibration for this calorimeter (no successful calibration run)",
@@ -433,7 +433,7 @@ def reduce_combustion_run(info: Any, rise: Any, calibration: CalibrationResult |
     if wb is not None:
         washburn_J = wb.correction_J
         standard = du + washburn_J / mass
-    return RunResult(
+    return BombRunResult(
         run=info.run, kind=info.kind, sample=info.sample, calorimeter=info.calorimeter,
         corrected_rise_K=dT, u_corrected_rise_K=u_dT, corrections_J=corr,
         massic_energy_J_per_g=du, standard_massic_energy_J_per_g=standard,

@@ -22,9 +22,9 @@ from calwork.bomb.chain import reduce_calibration_run, reduce_combustion_run
 from calwork.bomb.series import calibration_series, formation_enthalpies, sample_series
 from calwork.core.errors import CalworkError, RunError
 from calwork.core.results import (
+    BombRunResult,
     CalibrationResult,
     ChainResult,
-    RunResult,
     SampleResult,
     failed_run,
 )
@@ -73,11 +73,11 @@ def reduce_bomb_runs(
     Returns
     -------
     ChainResult
-        One RunResult per row (same order; failures carry ``error``), the calibration of each
+        One BombRunResult per row (same order; failures carry ``error``), the calibration of each
         calorimeter, the samples with their covariance, warnings of the series, and the
         thermograms read.
     """
-    results: dict[str, RunResult] = {}
+    results: dict[str, BombRunResult] = {}
     rises: dict[str, Any] = {}
     thermograms: dict[str, Any] = {}
     for info in runs:
@@ -107,10 +107,10 @@ def reduce_bomb_runs(
 
 
 def _calibrations(runs: Sequence[RunInfo], rises: dict[str, Any],
-                  results: dict[str, RunResult], rsd_limit_percent: float | None,
+                  results: dict[str, BombRunResult], rsd_limit_percent: float | None,
                   warnings: list[str]) -> dict[str, CalibrationResult]:
     """Reduce the calibration runs; one series per calorimeter."""
-    by_cal: dict[str, list[RunResult]] = {}
+    by_cal: dict[str, list[BombRunResult]] = {}
     for info in runs:
         if info.kind == "calibration" and info.run in rises:
             try:
@@ -130,11 +130,11 @@ def _calibrations(runs: Sequence[RunInfo], rises: dict[str, Any],
     return calibrations
 
 
-def _samples(runs: Sequence[RunInfo], rises: dict[str, Any], results: dict[str, RunResult],
+def _samples(runs: Sequence[RunInfo], rises: dict[str, Any], results: dict[str, BombRunResult],
              calibrations: dict[str, CalibrationResult], warnings: list[str]
              ) -> tuple[list[SampleResult], dict[str, Any]]:
     """Reduce the combustion runs; one series per sample, then the formation enthalpies."""
-    series: dict[str, list[tuple[RunResult, RunInfo]]] = {}
+    series: dict[str, list[tuple[BombRunResult, RunInfo]]] = {}
     for info in runs:
         if info.kind == "combustion" and info.run in rises:
             try:

@@ -29,7 +29,7 @@ import numpy as np
 
 from calwork.bomb.fuels import fuel_outputs
 from calwork.core.errors import CalworkError, UncertaintyError
-from calwork.core.results import CalibrationResult, RunResult, SampleResult
+from calwork.core.results import BombRunResult, CalibrationResult, SampleResult
 from calwork.core.statistics import DEFAULT_RSD_LIMIT_PERCENT, series_statistics
 from calwork.core.uncertainty import Budget, root_sum_square, variance_component
 from calwork.data import load_data
@@ -44,7 +44,7 @@ __all__ = [
 
 
 def calibration_series(
-    calorimeter: str, runs: Sequence[RunResult], *,
+    calorimeter: str, runs: Sequence[BombRunResult], *,
     rsd_limit_percent: float | None = DEFAULT_RSD_LIMIT_PERCENT,
 ) -> CalibrationResult:
     """The energy equivalent of ``calorimeter`` from its successful calibration runs.
@@ -125,7 +125,7 @@ class SampleTerms:
         object.__setattr__(self, "shared", MappingProxyType(dict(self.shared)))
 
 
-def _mean_details(runs: Sequence[RunResult], key: str) -> float | None:
+def _mean_details(runs: Sequence[BombRunResult], key: str) -> float | None:
     vals = [getattr(r.details, key) for r in runs]
     if any(v is None for v in vals):
         return None
@@ -133,7 +133,7 @@ def _mean_details(runs: Sequence[RunResult], key: str) -> float | None:
 
 
 def sample_series(
-    sample: str, runs: Sequence[RunResult], infos: Sequence[Any],
+    sample: str, runs: Sequence[BombRunResult], infos: Sequence[Any],
     calibrations: Mapping[str, CalibrationResult],
 ) -> tuple[SampleResult, SampleTerms]:
     """Mean and budget of a sample's successful combustion runs.
@@ -223,7 +223,7 @@ def sample_series(
     return result, SampleTerms(sample=sample, scatter_J_per_g=scatter, shared=shared)
 
 
-def _fuel(runs: Sequence[RunResult], info: Any) -> dict[str, float]:
+def _fuel(runs: Sequence[BombRunResult], info: Any) -> dict[str, float]:
     if info.hydrogen_mass_fraction is None and info.moisture_mass_fraction is None \
             and info.ash_mass_fraction is None:
         return {}

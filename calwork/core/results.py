@@ -2,7 +2,9 @@
 
 These are shared by the bomb and solution chains, the lab book and the reports. JSON keys of
 ``to_dict()`` are part of the command-line contract (see DEVELOPERS.md); fields that do not
-apply to a run's kind are ``None`` and are emitted as ``null``.
+apply to a run's kind are not in its record (:class:`BombRunResult`,
+:class:`SolutionRunResult`) and not in its JSON; the ones that apply but have no value are
+``null``.
 """
 
 from __future__ import annotations
@@ -11,15 +13,16 @@ import math
 from collections.abc import Iterator, Mapping
 from dataclasses import dataclass, field, fields
 from types import MappingProxyType
-from typing import Any
+from typing import Any, ClassVar
 
 from calwork.core.errors import UncertaintyError
 from calwork.core.provenance import Provenance
-from calwork.core.runinfo import BOMB_KINDS, RUN_KINDS
+from calwork.core.runinfo import BOMB_KINDS, RUN_KINDS, SOLUTION_KINDS
 from calwork.core.uncertainty import Budget
 
 __all__ = [
     "BombRunDetails",
+    "BombRunResult",
     "CalibrationResult",
     "ChainResult",
     "Reduction",
@@ -27,8 +30,10 @@ __all__ = [
     "RunResult",
     "SampleResult",
     "SolutionRunDetails",
+    "SolutionRunResult",
     "failed_run",
     "jsonable",
+    "run_result",
 ]
 
 
@@ -204,14 +209,35 @@ class SolutionRunDetails(RunDetails):
 
 
 def _details_for(kind: str, data: Any) -> RunDetails:
-    if isinstance(data, RunDetails):
-        return data
     record = BombRunDetails if kind in BOMB_KINDS else SolutionRunDetails
+    if isinstance(data, RunDetails):
+        if not isinstance(data, record):
+            raise TypeError(f"the details of a {kind} run are a {record.__name__}, not a "
+                            f"{type(data).__name__}")
+        return data
     return record.from_mapping(data or {})
+
+
+def _check_rise(obj: Any, rise: Any) -> None:
+    """A rise record has a corrected rise; anything else in ``rise`` is a writer's slip."""
+    if rise is not None and not hasattr(rise, "corrected_rise_K"):
+        raise TypeError(f"{type(obj).__name__}.rise holds corrected-rise records "
+                        f"(calwork.rise.RiseResult), not {type(rise).__name__}")
+
 
 @dataclass(frozen=True, kw_only=True)
 class RunResult(_Record):
-    """The reduced result of one run (any kind). Failed runs carry ``error`` and no numbers."""
+    """The reduced result of one run: the part every run kind has.
+
+    Each run kind has its own record: :class:`BombRunResult` (calibration and combustion runs
+    of the oxygen-bomb chain) and :class:`SolutionRunResult` (electrical, solution and blank
+    runs); build one with :func:`run_result` when the kind is only known at run time.
+    ``RunResult`` itself is not built. Failed runs carry ``error`` and no numbers beyond the
+    rise, if one was computed.
+    """
+
+    #: The run kinds this record serves.
+    KINDS: ClassVar[tuple[str, ...]] = RUN_KINDS
 
     run: str
     kind: str
@@ -220,46 +246,131 @@ class RunResult(_Record):
     corrected_rise_K: float | None = None
     u_corrected_rise_K: float | None = None
     #: Correction energies in J, positive when the process releases heat into the calorimeter
-    #: (ignition, fuse, cotton, aux, nitric acid...), each with the name of its constant.
+    #: (ignition, fuse, cotton, aux, nitric acid, vaporisation...), each with the name of its
+    #: constant.
     corrections_J: Mapping[str, float] = field(default_factory=dict)
     energy_equivalent_J_per_K: float | None = None
     u_energy_equivalent_J_per_K: float | None = None
-    #: Massic energy of the bomb process, J/g (ΔU/m; negative for a combustion).
-    massic_energy_J_per_g: float | None = None
-    standard_massic_energy_J_per_g: float | None = None
-    washburn_J: float | None = None
-    heater_energy_J: float | None = None
-    reaction_heat_J: float | None = None
-    molar_enthalpy_kJ_per_mol: float | None = None
-    u_molar_enthalpy_kJ_per_mol: float | None = None
-    final_molality_mol_per_kg: float | None = None
-    dilution_ratio: float | None = None
     reference_temperature_K: float | None = None
     warnings: tuple[str, ...] = ()
     error: str | None = None
-    #: The RiseResult (or results, for multi-event logs) behind the numbers.
-    rise: Any = None
     #: The numbers behind the result (mass in vacuum, certificate factor, ...), a typed record
     #: per run kind (:class:`BombRunDetails`, :class:`SolutionRunDetails`).
     details: RunDetails = field(default_factory=dict)  # type: ignore[assignment]
     provenance: Provenance | None = None
 
     def __post_init__(self) -> None:
+        if type(self) is RunResult:
+            raise TypeError("RunResult is the part every run kind shares: build a "
+                            "BombRunResult or a SolutionRunResult (or run_result(kind, ...))")
         _check_values(self)
+        if self.kind not in self.KINDS:
+            raise ValueError(f"{type(self).__name__} serves the run kinds {list(self.KINDS)}, "
+                             f"not {self.kind!r}")
         object.__setattr__(self, "details", _details_for(self.kind, self.details))
         _freeze(self, "corrections_J")
         object.__setattr__(self, "warnings", tuple(self.warnings))
 
-
     def to_dict(self) -> dict[str, Any]:
-        """JSON-ready dictionary with the contract keys."""
-        out = {
-            f.name: jsonable(getattr(self, f.name))
-            for f in fields(self)
-            if f.name not in ("rise", "provenance")
-        }
+        """JSON-ready dictionary with the contract keys: every run carries the same keys
+        (the other kinds' fields as ``null``, as the JSON contract allows), in one order;
+        ``rise`` is not serialised."""
+        own = {f.name for f in fields(self)}
+        out = {name: jsonable(getattr(self, name)) if name in own else None
+               for name in _RUN_JSON_KEYS}
         out["provenance"] = None if self.provenance is None else self.provenance.to_dict()
         return out
+
+    @classmethod
+    def from_dict(cls, data: Mapping[str, Any]) -> RunResult:
+        """The record :meth:`to_dict` wrote, of the class its ``kind`` calls for (a null
+        field of another run kind, as older lab books stored them, is ignored)."""
+        record = _RUN_RECORDS.get(data.get("kind"), RunResult)
+        if record is RunResult:
+            raise ValueError(f"unknown run kind {data.get('kind')!r}: one of "
+                             f"{sorted(RUN_KINDS)}")
+        if not issubclass(record, cls):
+            raise ValueError(f"a {data.get('kind')} run is a {record.__name__}, not a "
+                             f"{cls.__name__}")
+        names = {f.name for f in fields(record)}
+        foreign = sorted(k for k, v in data.items() if k not in names and v is not None
+                         and k in _ALL_RUN_FIELDS)
+        if foreign:
+            raise ValueError(f"a {data.get('kind')} run has no field {foreign}")
+        return _from_dict(record, data)
+
+
+@dataclass(frozen=True, kw_only=True)
+class BombRunResult(RunResult):
+    """A calibration or combustion run of the oxygen-bomb chain."""
+
+    KINDS: ClassVar[tuple[str, ...]] = BOMB_KINDS
+
+    #: Massic energy of the bomb process, J/g (ΔU/m; negative for a combustion).
+    massic_energy_J_per_g: float | None = None
+    #: The same reduced to the standard state (Washburn corrections), J/g.
+    standard_massic_energy_J_per_g: float | None = None
+    washburn_J: float | None = None
+    #: The corrected-rise record (:class:`calwork.rise.RiseResult`) behind the numbers.
+    rise: Any = None
+    details: BombRunDetails = field(  # type: ignore[assignment]
+        default_factory=BombRunDetails)
+
+    def __post_init__(self) -> None:
+        super().__post_init__()
+        _check_rise(self, self.rise)
+
+
+@dataclass(frozen=True, kw_only=True)
+class SolutionRunResult(RunResult):
+    """An electrical calibration, a solution (reaction) or a blank run."""
+
+    KINDS: ClassVar[tuple[str, ...]] = SOLUTION_KINDS
+
+    heater_energy_J: float | None = None
+    reaction_heat_J: float | None = None
+    molar_enthalpy_kJ_per_mol: float | None = None
+    u_molar_enthalpy_kJ_per_mol: float | None = None
+    final_molality_mol_per_kg: float | None = None
+    dilution_ratio: float | None = None
+    #: The corrected-rise records of the log's heat events, in time order.
+    rise: tuple[Any, ...] | None = None
+    details: SolutionRunDetails = field(  # type: ignore[assignment]
+        default_factory=SolutionRunDetails)
+
+    def __post_init__(self) -> None:
+        super().__post_init__()
+        if self.rise is not None:
+            rises = (self.rise,) if hasattr(self.rise, "corrected_rise_K") else tuple(self.rise)
+            for rise in rises:
+                _check_rise(self, rise)
+            object.__setattr__(self, "rise", rises)
+
+
+_RUN_RECORDS: dict[Any, type[RunResult]] = {
+    **dict.fromkeys(BOMB_KINDS, BombRunResult), **dict.fromkeys(SOLUTION_KINDS,
+                                                                SolutionRunResult)}
+_ALL_RUN_FIELDS = frozenset(f.name for record in (BombRunResult, SolutionRunResult)
+                            for f in fields(record))
+#: The keys of a run's JSON, in their order (the contract keys first).
+_RUN_JSON_KEYS = (
+    "run", "kind", "sample", "calorimeter", "corrected_rise_K", "u_corrected_rise_K",
+    "corrections_J", "energy_equivalent_J_per_K", "u_energy_equivalent_J_per_K",
+    "massic_energy_J_per_g", "standard_massic_energy_J_per_g", "washburn_J",
+    "heater_energy_J", "reaction_heat_J", "molar_enthalpy_kJ_per_mol",
+    "u_molar_enthalpy_kJ_per_mol", "final_molality_mol_per_kg", "dilution_ratio",
+    "reference_temperature_K", "warnings", "error", "details", "provenance")
+assert set(_RUN_JSON_KEYS) == _ALL_RUN_FIELDS - {"rise"}, "a run field is missing from its JSON"
+
+
+def run_result(kind: str, **values: Any) -> RunResult:
+    """The record of a run of ``kind`` (:class:`BombRunResult` or
+    :class:`SolutionRunResult`) built from ``values``."""
+    try:
+        record = _RUN_RECORDS[kind]
+    except KeyError:
+        raise ValueError(f"unknown run kind {kind!r}: one of {sorted(RUN_KINDS)}") from None
+    return record(kind=kind, **values)
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -413,7 +524,7 @@ def failed_run(info: Any, exc: Any, *, rise: Any = None) -> RunResult:
     beyond the rise, if one was computed. A failing run is reported, never dropped."""
     err = exc.with_context(run=info.run, path=getattr(info, "sheet_path", None),
                            line=getattr(info, "line", None))
-    return RunResult(run=info.run, kind=info.kind, sample=info.sample,
-                     calorimeter=info.calorimeter, error=str(err), rise=rise,
-                     corrected_rise_K=getattr(rise, "corrected_rise_K", None),
-                     u_corrected_rise_K=getattr(rise, "u_corrected_rise_K", None))
+    return run_result(info.kind, run=info.run, sample=info.sample,
+                      calorimeter=info.calorimeter, error=str(err), rise=rise,
+                      corrected_rise_K=getattr(rise, "corrected_rise_K", None),
+                      u_corrected_rise_K=getattr(rise, "u_corrected_rise_K", None))

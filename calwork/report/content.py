@@ -19,6 +19,7 @@ from typing import Any
 
 from calwork.core.errors import CalworkError
 from calwork.core.provenance import calwork_version
+from calwork.core.results import BombRunResult
 from calwork.core.safety import SAFETY_NOTE
 from calwork.report.model import Document, Figure, Paragraph, Section, Table
 from calwork.report.plots import plot_style, simulated_stamp
@@ -291,12 +292,13 @@ def _run(run: Any, red: Any, anchor: str, tmp: Path) -> Section:
     ]
     if run.energy_equivalent_J_per_K is not None:
         pairs.append(("energy equivalent ε (J/K)", fmt(run.energy_equivalent_J_per_K, 3)))
-    if run.massic_energy_J_per_g is not None:
-        pairs.append(("massic energy Δu (J/g)", fmt(run.massic_energy_J_per_g, 2)))
-    if run.standard_massic_energy_J_per_g is not None:
-        pairs.append(("standard massic energy Δu° (J/g)",
-                      fmt(run.standard_massic_energy_J_per_g, 2)))
-    if run.molar_enthalpy_kJ_per_mol is not None:
+    if isinstance(run, BombRunResult):
+        if run.massic_energy_J_per_g is not None:
+            pairs.append(("massic energy Δu (J/g)", fmt(run.massic_energy_J_per_g, 2)))
+        if run.standard_massic_energy_J_per_g is not None:
+            pairs.append(("standard massic energy Δu° (J/g)",
+                          fmt(run.standard_massic_energy_J_per_g, 2)))
+    elif run.molar_enthalpy_kJ_per_mol is not None:
         pairs.append(("molar enthalpy (kJ/mol)", _pm(run.molar_enthalpy_kJ_per_mol,
                                                      run.u_molar_enthalpy_kJ_per_mol, 3)))
     sec.blocks.append(Table(["quantity", "value"], [[k, str(v)] for k, v in pairs]))

@@ -56,7 +56,8 @@ def write_outputs(red: Any, out_dir: str | Path, *, plots: bool = True,
     try:
         out.mkdir(parents=True, exist_ok=True)
         written = [out / "summary.csv", out / "samples.csv", out / "report.md"]
-        runs = [{c: getattr(r, c) for c in _RUN_COLUMNS} for r in red.runs]
+        # one table for every kind: a column of another run kind's record is left empty
+        runs = [{c: getattr(r, c, None) for c in _RUN_COLUMNS} for r in red.runs]
         _write_csv(written[0], _RUN_COLUMNS, runs)
         _write_csv(written[1], _SAMPLE_COLUMNS, [s.to_dict() for s in red.samples])
         written[2].write_text(render_markdown(summary_document(red)), encoding="utf-8")

@@ -55,8 +55,9 @@ def summary_document(red: Any) -> Document:
         ["run", "kind", "sample", "ΔT_c / K", "ε / J K⁻¹", "Δu / J g⁻¹", "ΔH / kJ mol⁻¹",
          "corrections / J", "error"],
         [[r.run, r.kind, r.sample or "", _fmt(r.corrected_rise_K, 5),
-          _fmt(r.energy_equivalent_J_per_K, 2), _fmt(r.massic_energy_J_per_g, 2),
-          _fmt(r.molar_enthalpy_kJ_per_mol, 4),
+          _fmt(r.energy_equivalent_J_per_K, 2),
+          _fmt(getattr(r, "massic_energy_J_per_g", None), 2),  # bomb runs only
+          _fmt(getattr(r, "molar_enthalpy_kJ_per_mol", None), 4),  # solution runs only
           ", ".join(f"{k} {v:.2f}" for k, v in r.corrections_J.items() if v),
           r.error or ""] for r in red.runs])]))
     if red.samples:

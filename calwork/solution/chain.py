@@ -16,7 +16,7 @@ Inputs (how the pipeline hands them over)
     ``None`` (the default, and what ``reduce`` passes): every event's corrected rise is
     computed here on that event's window of the log. Otherwise ``Mapping[run_id,
     Sequence[RiseResult]]`` with one RiseResult per event in time order (as stored in
-    ``RunResult.rise`` of an earlier reduction), used instead of recomputing.
+    ``SolutionRunResult.rise`` of an earlier reduction), used instead of recomputing.
 ``method``
     The temperature-rise method name (``calwork.rise.METHODS``).
 ``options``
@@ -27,10 +27,10 @@ Order of work: electrical runs → a calibration series (ε) per calorimeter; bl
 the ampoule-breaking correction per calorimeter; solution runs → molar enthalpies with the
 in-log calibrations (or the series), the blank and the vaporisation corrections; then a
 :class:`~calwork.core.results.SampleResult` per sample with the series mean and, where it can be
-computed, the enthalpy at infinite dilution. A failing run comes back as a RunResult with
+computed, the enthalpy at infinite dilution. A failing run comes back as a SolutionRunResult with
 ``error`` set (the calwork error's message, naming run and column); it is never dropped.
 
-``RunResult.rise`` holds the tuple of RiseResults of the log's events in time order;
+``SolutionRunResult.rise`` holds the tuple of RiseResults of the log's events in time order;
 ``details['events']`` says which is which.
 """
 
@@ -44,7 +44,12 @@ import numpy as np
 
 from calwork.core.errors import CalibrationError, CalworkError, RunError
 from calwork.core.provenance import Provenance
-from calwork.core.results import CalibrationResult, ChainResult, RunResult, failed_run
+from calwork.core.results import (
+    CalibrationResult,
+    ChainResult,
+    SolutionRunResult,
+    failed_run,
+)
 from calwork.core.runinfo import SOLUTION_KINDS, RunInfo
 from calwork.core.statistics import series_statistics
 from calwork.core.thermogram import Thermogram
@@ -113,7 +118,7 @@ def _electrical_run(info: RunInfo, analysis: LogAnalysis, tg: Thermogram, method
     eps = float(np.mean(eps_values))
     u = root_sum_square(budget, name="ε of the run")
     first = cals[0]
-    result = RunResult(
+    result = SolutionRunResult(
         run=info.run, kind=info.kind, sample=info.sample, calorimeter=info.calorimeter,
         corrected_rise_K=first.rise.corrected_rise_K,
         u_corrected_rise_K=first.rise.u_corrected_rise_K,
@@ -128,7 +133,7 @@ def _electrical_run(info: RunInfo, analysis: LogAnalysis, tg: Thermogram, method
     return result, budget
 
 
-def _series(calorimeter: str, items: list[tuple[RunResult, dict[str, float]]]
+def _series(calorimeter: str, items: list[tuple[SolutionRunResult, dict[str, float]]]
             ) -> CalibrationResult:
     """The calorimeter's electrical calibration series, with the statistics every calibration
     series gets (:func:`calwork.core.statistics.series_statistics`: mean, s, s/√n, RSD and
@@ -197,7 +202,7 @@ def _blank_run(info, analysis, tg, method, series):
         q = q_measured - vap.correction_J
         u2 += vap.u_heat_absorbed_J ** 2
     u = math.sqrt(u2)
-    return RunResult(
+    return SolutionRunResult(
         run=info.run, kind=info.kind, sample=info.sample, calorimeter=info.calorimeter,
         corrected_rise_K=rise.corrected_rise_K, u_corrected_rise_K=rise.u_corrected_rise_K,
         corrections_J=corrections, energy_equivalent_J_per_K=eps,
@@ -261,7 +266,7 @@ def _solution_run(info, analysis, tg, method, series, blank: BlankCorrection | N
         calibrations=[c.to_dict() for c in analysis.calibrations],
         events=_events_detail(analysis), reaction_event_index=analysis.reaction_index,
     )
-    return RunResult(
+    return SolutionRunResult(
         run=info.run, kind=info.kind, sample=info.sample, calorimeter=info.calorimeter,
         corrected_rise_K=rise.corrected_rise_K, u_corrected_rise_K=rise.u_corrected_rise_K,
         corrections_J=se.corrections_J, energy_equivalent_J_per_K=(
@@ -305,12 +310,12 @@ def reduce_solution_runs(
     Returns
     -------
     ChainResult
-        One RunResult per input row (same order; failures carry ``error``), one
+        One SolutionRunResult per input row (same order; failures carry ``error``), one
         CalibrationResult per calorimeter with electrical runs, one SampleResult per
         solution sample, and the thermograms read.
     """
     opts = options or SolutionOptions()
-    results: dict[str, RunResult] = {}
+    results: dict[str, SolutionRunResult] = {}
     read: dict[str, Thermogram] = {}
     analyses: dict[str, tuple[LogAnalysis, Thermogram]] = {}
     for info in runs:
@@ -341,7 +346,7 @@ def reduce_solution_runs(
 
     pending = [info for info in runs if info.run in analyses]
     # 1. stand-alone electrical calibrations -> one series per calorimeter
-    by_cal: dict[str, list[tuple[RunResult, dict[str, float]]]] = {}
+    by_cal: dict[str, list[tuple[SolutionRunResult, dict[str, float]]]] = {}
     for info in (i for i in pending if i.kind == "electrical"):
         analysis, tg = analyses[info.run]
         try:
@@ -353,7 +358,7 @@ def reduce_solution_runs(
         by_cal.setdefault(_calorimeter(info), []).append((result, budget))
     series = {name: _series(name, items) for name, items in by_cal.items()}
     # 2. ampoule blanks -> one correction per calorimeter
-    blank_items: dict[str, list[RunResult]] = {}
+    blank_items: dict[str, list[SolutionRunResult]] = {}
     no_volume: dict[str, list[str]] = {}  # blanks whose vaporisation was not taken out
     for info in (i for i in pending if i.kind == "blank"):
         analysis, tg = analyses[info.run]

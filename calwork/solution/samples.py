@@ -21,7 +21,7 @@ import numpy as np
 
 from calwork.core.constants import T_REF_K
 from calwork.core.errors import CalworkError
-from calwork.core.results import RunResult, SampleResult
+from calwork.core.results import SampleResult, SolutionRunResult
 from calwork.core.runinfo import RunInfo
 from calwork.core.uncertainty import Budget, root_sum_square
 from calwork.solution.dilution import (
@@ -57,14 +57,14 @@ def phi_L_model_for(formula: str | None, requested: str = "auto") -> tuple[str, 
     return ("pitzer" if e.has_pitzer else "extended"), e.name
 
 
-def _key(info: RunInfo | None, r: RunResult) -> str:
+def _key(info: RunInfo | None, r: SolutionRunResult) -> str:
     if info is not None:
         return info.sample or info.formula or r.run
     return r.sample or r.run
 
 
 def solution_samples(
-    results: Iterable[RunResult],
+    results: Iterable[SolutionRunResult],
     infos: Mapping[str, RunInfo],
     *,
     phi_L_model: str = "auto",
@@ -75,7 +75,7 @@ def solution_samples(
     Failed runs are left out of the means (they are still in the run list).
     """
     shared = frozenset(shared_components)
-    groups: dict[str, list[RunResult]] = {}
+    groups: dict[str, list[SolutionRunResult]] = {}
     for r in results:
         if r.error is None and r.molar_enthalpy_kJ_per_mol is not None:
             groups.setdefault(_key(infos.get(r.run), r), []).append(r)
@@ -87,7 +87,7 @@ def solution_samples(
     return out
 
 
-def _sample(name: str, formula: str | None, items: Sequence[RunResult], phi_L_model: str,
+def _sample(name: str, formula: str | None, items: Sequence[SolutionRunResult], phi_L_model: str,
             shared: frozenset[str]) -> SampleResult:
     H = np.array([r.molar_enthalpy_kJ_per_mol for r in items], dtype=float)
     n = H.size
