@@ -141,3 +141,24 @@ def test_the_check_sees_a_reversed_import(tmp_path, monkeypatch):
     edges = _imports(_modules())
     assert "calwork.cli.main" in edges["calwork.core.errors"]
     assert "calwork.core.errors" in edges["calwork.cli.main"]
+
+
+def test_every_kernel_function_runs():
+    """The pure physics functions of the rise kernel are the ones the fits and reports call:
+    each public function of ``calwork.rise.drift`` is used by the package itself (not only by
+    the tests)."""
+    import calwork.rise.drift as drift
+
+    used: set[str] = set()
+    for path in SOURCES["calwork"].rglob("*.py"):
+        tree = ast.parse(path.read_text(encoding="utf-8"))
+        for func in ast.walk(tree):
+            if not isinstance(func, ast.FunctionDef):
+                continue
+            for node in ast.walk(func):
+                if isinstance(node, ast.Name) and node.id != func.name:
+                    used.add(node.id)
+                elif isinstance(node, ast.Attribute) and node.attr != func.name:
+                    used.add(node.attr)
+    unused = sorted(set(drift.__all__) - used)
+    assert not unused, f"kernel functions only the tests call: {unused}"

@@ -21,17 +21,16 @@ from calwork.rise import (
     corrected_rise,
     dickinson_exact_tx_s,
     dickinson_rise_K,
-    exchange_correction_K,
+    drift_rate_K_per_s,
+    exchange_from_drift_K,
     newton_constants_from_drifts,
-    newton_drift_K_per_s,
-    newton_temperature_K,
     regnault_pfaundler_rise_K,
     time_at_fraction_s,
 )
 from calwork.rise.drift import (
     cumulative_trapezoid_K_s,
-    relaxation_factor_dk_s2,
     relaxation_factor_s,
+    relaxation_terms,
     trapezoid_K_s,
     trapezoid_weights_s,
 )
@@ -45,15 +44,26 @@ def _periods(fore_end, fire, main_end, end, start=0.0):
                    after_period_s=(main_end, end))
 
 
+def _newton_T(t, T0, k, T_inf):
+    """Newton's law of cooling solved by hand: T(t) = T_∞ + (T_0 − T_∞) e^{−k t} (1.9)."""
+    return T_inf + (T0 - T_inf) * np.exp(-k * np.asarray(t))
+
+
 def test_newton_law_closed_forms():
-    # (1.1): the drift of the closed-form solution is k (T_inf − T); check by central
-    # differences (independent of the relaxation-factor algebra).
+    # (1.1): the drift of the closed-form solution is k (T_inf − T); check the kernel's drift
+    # rate (written about T_r = T_inf with g_r = 0) by central differences.
     t = np.linspace(0.0, 3000.0, 301)
-    T = newton_temperature_K(t, 0.0, 297.0, 2e-4, 298.5)
+    T = _newton_T(t, 297.0, 2e-4, 298.5)
     dTdt = np.gradient(T, t, edge_order=2)
-    assert dTdt[1:-1] == pytest.approx(newton_drift_K_per_s(T, 2e-4, 298.5)[1:-1], rel=1e-5)
+    assert dTdt[1:-1] == pytest.approx(drift_rate_K_per_s(T, 298.5, 0.0, 2e-4)[1:-1],
+                                       rel=1e-5)
+    # the curve the reports draw (drift_curve_K) is the same solution
+    from calwork.rise.drift import drift_curve_K
+
+    g0 = float(drift_rate_K_per_s(297.0, 298.5, 0.0, 2e-4))
+    assert drift_curve_K(t, 0.0, 297.0, g0, 2e-4) == pytest.approx(T, abs=1e-12)
     # T_inf and k back from two drift periods (1.3), exact for Newtonian drifts
-    g1, g2 = newton_drift_K_per_s(297.2, 2e-4, 298.5), newton_drift_K_per_s(299.4, 2e-4, 298.5)
+    g1, g2 = (float(drift_rate_K_per_s(T_m, 298.5, 0.0, 2e-4)) for T_m in (297.2, 299.4))
     k, T_inf = newton_constants_from_drifts(g1, g2, 297.2, 299.4)
     assert k == pytest.approx(2e-4, rel=1e-12)
     assert T_inf == pytest.approx(298.5, abs=1e-9)
@@ -68,8 +78,14 @@ def test_relaxation_factor_series_and_derivative():
     for k in (2e-7, 4.9e-7, 5.1e-7, 1e-4):
         h = k * 1e-4
         num = (relaxation_factor_s(tau, k + h) - relaxation_factor_s(tau, k - h)) / (2 * h)
-        assert relaxation_factor_dk_s2(tau, k) == pytest.approx(num, rel=1e-6, abs=1e-3)
-    assert relaxation_factor_dk_s2(tau, 0.0) == pytest.approx(-tau**2 / 2)
+        assert relaxation_terms(tau, k)[2] == pytest.approx(num, rel=1e-6, abs=1e-3)
+    assert relaxation_terms(tau, 0.0)[2] == pytest.approx(-tau**2 / 2)
+    # the scalar path (single times, as the fit evaluates them) agrees with the array path
+    for k in (0.0, 3e-7, 1e-4):
+        for x in (-1500.0, 0.0, 700.0):
+            e, phi, dphi = relaxation_terms(x, k)
+            e_a, phi_a, dphi_a = (float(v[0]) for v in relaxation_terms(np.array([x]), k))
+            assert (e, phi, dphi) == pytest.approx((e_a, phi_a, dphi_a), rel=1e-12, abs=1e-9)
 
 
 def test_trapezoid_helpers_on_unequal_steps():
@@ -83,8 +99,10 @@ def test_trapezoid_helpers_on_unequal_steps():
 def test_exchange_correction_of_a_pure_drift_equals_the_temperature_change():
     # With w = 0 the whole change is exchange: ΔT_c = 0 (1.2) up to trapezoid error.
     t = np.linspace(0.0, 600.0, 121)
-    T = newton_temperature_K(t, 0.0, 297.0, 1e-4, 298.5)
-    dex = exchange_correction_K(t, T, 1e-4, 298.5)
+    T = _newton_T(t, 297.0, 1e-4, 298.5)
+    T_r = float(T[0])
+    g_r = float(drift_rate_K_per_s(T_r, 298.5, 0.0, 1e-4))
+    dex = exchange_from_drift_K(600.0, g_r, 1e-4, trapezoid_K_s(t, T - T_r))
     assert dex == pytest.approx(T[-1] - T[0], rel=1e-6)
 
 

@@ -7,8 +7,9 @@
   (``dickinson_rule='equal-area'`` or ``'60-percent'``).
 * :class:`Periods`, :class:`RiseResult` — the records; :func:`plot_rise` — the figure;
 
-The pure Newtonian functions (``exchange_correction_K``, ``newton_drift_K_per_s``, the
-Regnault–Pfaundler and Dickinson formulas) are re-exported for direct use. :data:`METHODS`
+The pure functions the methods are built of (``corrected_rise_K``, ``drift_rate_K_per_s``,
+``exchange_from_drift_K``, ``newton_constants_from_drifts``, the Regnault–Pfaundler and
+Dickinson formulas) are re-exported for direct use; they are the ones the fits call. :data:`METHODS`
 is the registry of rise methods (:mod:`calwork.rise.registry`).
 
 Names are imported on first use (PEP 562), so that ``calwork.rise.registry`` — what the
@@ -33,12 +34,11 @@ _WHERE = {
     "detect_periods": "periods",
     "dickinson_exact_tx_s": "dickinson",
     "dickinson_rise_K": "dickinson",
-    "exchange_correction_K": "drift",
+    "drift_rate_K_per_s": "drift",
+    "exchange_from_drift_K": "drift",
     "find_events": "events",
     "list_heat_events": "events",
     "newton_constants_from_drifts": "drift",
-    "newton_drift_K_per_s": "drift",
-    "newton_temperature_K": "drift",
     "plot_rise": "plot",
     "regnault_pfaundler_exchange_K": "regnault_pfaundler",
     "regnault_pfaundler_rise_K": "regnault_pfaundler",

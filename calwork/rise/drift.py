@@ -23,12 +23,8 @@ __all__ = [
     "cumulative_trapezoid_K_s",
     "drift_curve_K",
     "drift_rate_K_per_s",
-    "exchange_correction_K",
     "exchange_from_drift_K",
     "newton_constants_from_drifts",
-    "newton_drift_K_per_s",
-    "newton_temperature_K",
-    "relaxation_factor_dk_s2",
     "relaxation_factor_s",
     "relaxation_terms",
     "trapezoid_K_s",
@@ -52,32 +48,6 @@ def drift_rate_K_per_s(temperature_K, reference_temperature_K: float, drift_ref_
     """
     return drift_ref_K_per_s - rate_constant_per_s * np.subtract(temperature_K,
                                                                  reference_temperature_K)
-
-
-def newton_drift_K_per_s(temperature_K, rate_constant_per_s, convergence_temperature_K):
-    """Newtonian drift rate ``g = k (T_∞ − T)`` (docs/methods.md (1.1) with ``w = 0``):
-    :func:`drift_rate_K_per_s` about ``T_∞``, where the drift is zero.
-
-    Parameters
-    ----------
-    temperature_K
-        Calorimeter temperature(s), K.
-    rate_constant_per_s
-        Exchange rate constant ``k = G/ε``, 1/s.
-    convergence_temperature_K
-        Convergence temperature ``T_∞``, K.
-
-    Returns
-    -------
-    float or ndarray
-        Drift rate, K/s.
-
-    Examples
-    --------
-    >>> float(newton_drift_K_per_s(298.0, 1e-4, 298.5))
-    5e-05
-    """
-    return drift_rate_K_per_s(temperature_K, convergence_temperature_K, 0.0, rate_constant_per_s)
 
 
 def relaxation_terms(tau_s, rate_constant_per_s: float):
@@ -131,11 +101,6 @@ def relaxation_factor_s(tau_s, rate_constant_per_s: float):
     return relaxation_terms(tau_s, rate_constant_per_s)[1]
 
 
-def relaxation_factor_dk_s2(tau_s, rate_constant_per_s: float):
-    """``∂φ/∂k`` of :func:`relaxation_factor_s`, s²: ``(τ e^{−kτ} − φ)/k`` (→ −τ²/2 at k = 0)."""
-    return relaxation_terms(tau_s, rate_constant_per_s)[2]
-
-
 def drift_curve_K(t_s, t0_s: float, T0_K: float, drift0_K_per_s: float, rate_constant_per_s):
     """Solution of (1.1) with ``w = 0``: ``T(t) = T_0 + g_0 φ(t − t_0, k)``, K.
 
@@ -156,19 +121,6 @@ def drift_curve_K(t_s, t0_s: float, T0_K: float, drift0_K_per_s: float, rate_con
     298.006
     """
     return T0_K + drift0_K_per_s * relaxation_factor_s(np.subtract(t_s, t0_s), rate_constant_per_s)
-
-
-def newton_temperature_K(t_s, t0_s: float, T0_K: float, rate_constant_per_s: float,
-                         convergence_temperature_K: float):
-    """``T(t) = T_∞ + (T_0 − T_∞) e^{−k (t − t_0)}`` (docs/methods.md (1.9)), K.
-
-    Examples
-    --------
-    >>> round(float(newton_temperature_K(1000.0, 0.0, 297.0, 1e-3, 298.0)), 6)
-    297.632121
-    """
-    g0 = newton_drift_K_per_s(T0_K, rate_constant_per_s, convergence_temperature_K)
-    return drift_curve_K(t_s, t0_s, T0_K, g0, rate_constant_per_s)
 
 
 def convergence_temperature_K(reference_temperature_K: float, drift_K_per_s: float,
@@ -233,28 +185,6 @@ def exchange_from_drift_K(span_s: float, drift_ref_K_per_s: float, rate_constant
     0.01
     """
     return drift_ref_K_per_s * span_s - rate_constant_per_s * theta_integral_K_s
-
-
-def exchange_correction_K(time_s, temperature_K, rate_constant_per_s: float,
-                          convergence_temperature_K: float) -> float:
-    """Heat-exchange correction ``δT_ex = ∫ k (T_∞ − T) dt`` over the readings, K (1.2).
-
-    The integral runs over the given readings (trapezoid rule on their timestamps); pass the
-    main-period readings from ``t_i`` to ``t_f``. Evaluated by :func:`exchange_from_drift_K`
-    about the first reading.
-
-    Examples
-    --------
-    >>> t = [0.0, 100.0, 200.0]
-    >>> round(exchange_correction_K(t, [298.0, 299.0, 299.0], 1e-4, 298.5), 6)
-    -0.005
-    """
-    t = np.asarray(time_s, dtype=float)
-    T = np.asarray(temperature_K, dtype=float)
-    T_r = float(T[0])
-    g_r = float(newton_drift_K_per_s(T_r, rate_constant_per_s, convergence_temperature_K))
-    return float(exchange_from_drift_K(float(t[-1] - t[0]), g_r, rate_constant_per_s,
-                                       trapezoid_K_s(t, T - T_r)))
 
 
 def corrected_rise_K(T_initial_K: float, T_final_K: float, exchange_correction_K: float) -> float:
