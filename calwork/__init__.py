@@ -63,6 +63,7 @@ _export("calwork.core.statistics", "grubbs_test", "series_statistics")
 _export("calwork.labbook", "Labbook", "open_labbook")
 _export("calwork.qa", "control_chart", "ControlChart", "plot_control_chart")
 _export("calwork.report", "write_workbook", "write_report", "safe_filename")
+_export("calwork.report.views", "describe")
 _export("calwork.core.provenance", "calwork_version")
 
 __all__ = sorted(_EXPORTS)

@@ -17,6 +17,7 @@ from calwork.qa import (
     plot_control_chart,
 )
 from calwork.qa.chart import D2_N2
+from calwork.report.views import describe
 
 
 def test_d4_constant_matches_its_derivation_and_a_simulation():
@@ -84,7 +85,7 @@ def test_in_control_series_is_in_control():
     chart = control_chart(values)
     assert chart.violations == ()
     assert chart.recommendation.action == "in control"
-    assert "in control" in chart.report()
+    assert "in control" in describe(chart)
 
 
 def test_action_rate_of_an_in_control_process_matches_the_normal_tail():

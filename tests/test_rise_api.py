@@ -13,6 +13,7 @@ import calwork
 import calwork.rise as rise
 from calwork.core.errors import ChoiceError, PeriodDetectionError
 from calwork.core.results import jsonable
+from calwork.report.views import describe
 from calwork.rise import METHODS, Periods, RiseResult, corrected_rise, detect_periods
 from calwork.rise.result import JSON_KEYS
 
@@ -49,7 +50,9 @@ def test_result_record_and_json(result):
     assert isinstance(d["warnings"], list)
     assert d["periods"]["fire_source"] == "detected"
     assert result.provenance.method == "newton-fit"
-    assert "corrected temperature rise (newton-fit)" in result.report()
+    text = describe(result)
+    assert "Corrected temperature rise" in text
+    assert "newton-fit" in text
     assert result.u_corrected_rise_K > 0
     assert set(result.uncertainty_budget) >= {"fit", "main-period-readings", "boundary"}
     total = math.sqrt(sum(v * v for v in result.uncertainty_budget.values()))
@@ -127,7 +130,7 @@ def test_periods_record_round_trip(record):
     p = detect_periods(record)
     d = p.to_dict()
     assert d["fore_period_s"] == list(p.fore_period_s)
-    assert "fore period" in p.report()
+    assert "fore period" in describe(p)
     json.dumps(d, allow_nan=False)
 
 
@@ -155,7 +158,7 @@ def test_validate_methods_small_run():
     assert newton.n_failed == 0
     assert abs(newton.bias_ppm) < 60.0
     assert res.newtonian_rise_K == pytest.approx(res.adiabatic_rise_K)  # one body
-    assert "bias ppm" in res.report()
+    assert "bias ppm" in describe(res)
     json.dumps(jsonable(res.to_dict()), allow_nan=False)
 
 

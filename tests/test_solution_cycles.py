@@ -11,6 +11,7 @@ from calwork.cli.main import main
 from calwork.core.errors import BalanceError, InputFileError, NetworkError
 from calwork.core.results import SampleResult
 from calwork.hess import load_key_values, read_network_file, solve_network
+from calwork.report.views import describe
 from calwork.solution.cycles import (
     cycle_network,
     determination_from_sample,
@@ -93,7 +94,7 @@ def test_hydrate_cycle_gives_the_tabulated_formation_enthalpy(tmp_path):
     # hydration enthalpy MgSO4(cr) + 7 H2O(l) -> MgSO4·7H2O(cr) = Δ_solH(anh) − Δ_solH(hyd)
     assert r.target_reaction.delta_r_H_kJ_per_mol == pytest.approx(D_ANHYDROUS - D_HYDRATE)
     assert r.target_reaction.u_delta_r_H_kJ_per_mol == pytest.approx(math.hypot(0.10, 0.05))
-    assert "MgSO4·7H2O(cr)" in r.report()
+    assert "MgSO4·7H2O(cr)" in describe(r)
     assert json.loads(json.dumps(r.to_dict()))["target"] == "MgSO4·7H2O(cr)"
 
 

@@ -5,7 +5,8 @@ from __future__ import annotations
 import argparse
 
 from calwork.cli._common import print_json, with_safety_note
-from calwork.core.text import format_table
+from calwork.report.plain import render_text
+from calwork.report.views import cycle_document
 
 __all__ = ["register", "run"]
 
@@ -51,9 +52,5 @@ def run(args: argparse.Namespace) -> int:
     if args.json:
         print_json(result)
         return 0
-    rows = [[r.id, r.equation, f"{r.delta_r_H_kJ_per_mol:.3f}",
-             f"{r.u_delta_r_H_kJ_per_mol:.3f}"] for r in result.determinations]
-    print(format_table(["id", "equation", "ΔrH / kJ·mol⁻¹", "u (k=1)"], rows))
-    print()
-    print(result.report())
+    print(render_text(cycle_document(result)), end="")
     return 0

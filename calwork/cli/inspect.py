@@ -13,10 +13,11 @@ import numpy as np
 from calwork.cli._common import print_json
 from calwork.core.constants import CELSIUS_ZERO_K
 from calwork.core.errors import ChoiceError, ExportError
-from calwork.core.text import format_table
 from calwork.core.thermogram import Thermogram
 from calwork.io.readers import read_log
 from calwork.io.sensors import SENSORS
+from calwork.report.plain import render_text
+from calwork.report.views import log_summary_document
 
 __all__ = ["inspect_summary", "register", "run"]
 
@@ -112,54 +113,6 @@ def inspect_summary(thermogram: Thermogram) -> dict[str, Any]:
     }
 
 
-def _report(summary: dict[str, Any]) -> str:
-    d = summary["detected"]
-    lines = [f"log: {summary['source']}", f"sha256: {summary['sha256']}"]
-    shown = ("format", "sheet", "detected_encoding", "detected_separator", "detected_decimal",
-             "header_line", "header_row", "units_line", "sensor_model", "sensor_source",
-             "start", "clock_rollover")
-    lines.extend(f"{k.replace('detected_', '').replace('_', ' ')}: {d[k]}"
-                 for k in shown if d.get(k))
-    lines.append(f"readings: {summary['points']} (lines {summary['first_row']}–"
-                 f"{summary['last_row']})")
-    lines.append(
-        f"time span: {summary['time_span_s']:.3f} s; sampling interval "
-        f"{summary['sampling_interval_s']:.4g} s (min {summary['sampling_interval_min_s']:.4g}, "
-        f"max {summary['sampling_interval_max_s']:.4g})"
-    )
-    lines.append(
-        f"temperature: {summary['temperature_min_C']:.6f} to {summary['temperature_max_C']:.6f}"
-        f" °C (first {summary['temperature_first_C']:.6f}, "
-        f"last {summary['temperature_last_C']:.6f})"
-    )
-    rows = []
-    channel_of = {v["column"]: k for k, v in summary["channels"].items()}
-    for col in summary["columns"]:
-        if col == summary["time_column"]:
-            role = f"time (unit {d.get('time_unit')}, {_source(d.get('time_unit_source'))})"
-        elif col == summary["temperature_column"]:
-            role = (f"temperature (unit {d.get('temperature_unit')}, "
-                    f"{_source(d.get('temperature_unit_source'))})")
-        elif col in channel_of:
-            role = f"channel {channel_of[col]}"
-        else:
-            role = "ignored"
-        rows.append((col, role))
-    lines += ["", format_table(["column", "taken as"], rows)]
-    if summary["preamble"]:
-        lines += ["", format_table(["metadata", "value"], sorted(summary["preamble"].items()))]
-    return "\n".join(lines)
-
-
-def _source(source: Any) -> str:
-    """Where a unit came from, as a phrase ('from header', 'assumed: ...')."""
-    if source == "assumed":
-        return "assumed: no unit in the header; check it or give --time-unit"
-    if source and str(source).startswith(("inferred", "assumed")):
-        return str(source)
-    return f"from {source}"
-
-
 def _plot(thermogram: Thermogram, path: str) -> None:
     import matplotlib
 
@@ -207,7 +160,7 @@ def run(args: argparse.Namespace) -> int:
     if args.json:
         print_json(summary)
     else:
-        print(_report(summary))
+        print(render_text(log_summary_document(summary)), end="")
         if args.plot:
             print(f"\nplot written to {args.plot}", file=sys.stdout)
     return 0

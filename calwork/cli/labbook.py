@@ -3,13 +3,19 @@
 from __future__ import annotations
 
 import argparse
-import math
 from pathlib import Path
-from typing import Any
 
 from calwork.cli._common import print_json
 from calwork.core.errors import ExportError
-from calwork.core.text import format_table
+from calwork.report.plain import render_text
+from calwork.report.views import (
+    audit_document,
+    ingest_document,
+    labbook_list_document,
+    labbook_run_document,
+    recompute_document,
+    verify_document,
+)
 
 __all__ = ["register"]
 
@@ -169,19 +175,13 @@ def _make_filters(args: argparse.Namespace):
                    since=getattr(args, "since", None), until=getattr(args, "until", None))
 
 
-def _g(value: Any, digits: int = 6) -> str:
-    if value is None or (isinstance(value, float) and not math.isfinite(value)):
-        return ""
-    return f"{value:.{digits}g}" if isinstance(value, float) else str(value)
-
-
 def _add(args: argparse.Namespace) -> int:
     with _open(args, create=True) as book:
         result = book.add_sheet(args.sheet, method=args.method)
     if args.json:
         print_json(result)
     else:
-        print(result.report())
+        print(render_text(ingest_document(result)), end="")
     return 0
 
 
@@ -195,42 +195,7 @@ def _list(args: argparse.Namespace) -> int:
         print_json({"labbook": str(book.path), "filters": filters.to_dict(), "runs": runs,
                     "calibrations": cals, "samples": samples})
         return 0
-    print(f"runs ({len(runs)})")
-    print(format_table(
-        ["run", "kind", "calorimeter", "sample", "date", "status", "sheet", "rise_K",
-         "epsilon_J_per_K", "massic_J_per_g", "error"],
-        [[r["run"], r["kind"], r["calorimeter"], r["sample"], r["date"], r["status"],
-          r["sheet_id"], _g(r["corrected_rise_K"]), _g(r["energy_equivalent_J_per_K"], 8),
-          _g(r["massic_energy_J_per_g"], 8), (r["error"] or "")[:40]] for r in runs]))
-    print(f"\ncalibrations ({len(cals)})")
-    print(format_table(
-        ["calorimeter", "epsilon_J_per_K", "u_J_per_K", "n", "valid_from", "valid_until",
-         "runs", "sheet"],
-        [[c["calorimeter"], _g(c["energy_equivalent_J_per_K"], 8),
-          _g(c["u_energy_equivalent_J_per_K"], 3), c["n_runs"], c["valid_from"],
-          c["valid_until"] or "(current)", f"{c['first_run']}..{c['last_run']}",
-          c["sheet_id"]] for c in cals]))
-    print(f"\nsamples ({len(samples)})")
-    print(format_table(
-        ["sample", "formula", "n", "massic_J_per_g", "u_J_per_g", "dfH_kJ_per_mol",
-         "u_kJ_per_mol", "sheet"],
-        [[s["sample"], s.get("formula"), s.get("n_runs"),
-          _g(s.get("massic_energy_J_per_g"), 8), _g(s.get("u_massic_energy_J_per_g"), 3),
-          _g(s.get("delta_f_H_kJ_per_mol"), 6), _g(s.get("u_delta_f_H_kJ_per_mol"), 3),
-          s["sheet_id"]] for s in samples]))
-    solution = [s for s in samples if s.get("kind", "combustion") != "combustion"]
-    if solution:  # their results are molar enthalpies, blank in the table above
-        print(f"\nsolution samples ({len(solution)})")
-        print(format_table(
-            ["sample", "formula", "n", "dH_kJ_per_mol", "u_kJ_per_mol", "molality_mol_per_kg",
-             "dH_inf_kJ_per_mol", "u_inf_kJ_per_mol", "sheet"],
-            [[s["sample"], s.get("formula"), s.get("n_runs"),
-              _g(s.get("molar_enthalpy_kJ_per_mol"), 6),
-              _g(s.get("u_molar_enthalpy_kJ_per_mol"), 3),
-              _g(s.get("final_molality_mol_per_kg"), 4),
-              _g(s.get("infinite_dilution_enthalpy_kJ_per_mol"), 6),
-              _g(s.get("u_infinite_dilution_enthalpy_kJ_per_mol"), 3),
-              s["sheet_id"]] for s in solution]))
+    print(render_text(labbook_list_document(runs, cals, samples)), end="")
     return 0
 
 
@@ -240,34 +205,7 @@ def _show(args: argparse.Namespace) -> int:
     if args.json:
         print_json(info)
         return 0
-    sheet, log, void = info["sheet"], info["log"], info["void"]
-    status = f"status: {info['status']}"
-    if void:
-        status += f" — {void['reason']} ({void['voided_utc']}, {void['voided_by']})"
-    lines = [
-        (f"run {info['run']} ({info['kind']}), calorimeter {info['calorimeter']}, "
-         f"sample {info['sample']}, date {info['date']}"),
-        status,
-        (f"sheet #{sheet['id']} {sheet['file_name']} line {sheet['line']}: "
-         f"sha256 {sheet['sha256']}, {sheet['size_bytes']} bytes, from "
-         f"{sheet['original_path']} (added {sheet['added_utc']} by {sheet['added_by']})"),
-    ]
-    if log:
-        lines.append(f"log {log['rel_path']}: sha256 {log['sha256']}, {log['size_bytes']} "
-                     f"bytes ({log['stored_bytes']} stored, {log['codec']}), from "
-                     f"{log['original_path']}")
-    lines.append("sheet row: " + ", ".join(f"{k}={v}" for k, v in sheet["row"].items()
-                                           if v not in (None, {}, "")))
-    result, prov = info["result"], info["result_provenance"]
-    if result:
-        lines.append(f"result (reduction #{prov['reduction_id']} v{prov['version']}"
-                     f"{'' if prov['current'] else ', superseded'}; method {prov['method']}, "
-                     f"calwork {prov['calwork_version']}, {prov['created_utc']}):")
-        lines += [f"  {k} = {v}" for k, v in result.items()
-                  if v not in (None, {}, [], "") and k != "provenance"]
-        if prov["constants"]:
-            lines.append("  constants: " + ", ".join(sorted(map(str, prov["constants"]))))
-    print("\n".join(lines))
+    print(render_text(labbook_run_document(info)), end="")
     return 0
 
 
@@ -277,7 +215,7 @@ def _history(args: argparse.Namespace) -> int:
     if args.json:
         print_json({"run": args.run, "entries": [e.to_dict() for e in entries]})
     else:
-        print("\n".join(e.report() for e in entries))
+        print(render_text(audit_document(args.run, entries)), end="")
     return 0
 
 
@@ -296,7 +234,7 @@ def _recompute(args: argparse.Namespace) -> int:
     if args.json:
         print_json(report)
     else:
-        print(report.report())
+        print(render_text(recompute_document(report)), end="")
     return 0 if report.agree else 1
 
 
@@ -306,9 +244,7 @@ def _verify(args: argparse.Namespace) -> int:
     if args.json:
         print_json(report)
     else:
-        print(report.report())
-        if args.print_head:
-            print(f"audit head: {report.head} (entry #{report.head_entry})")
+        print(render_text(verify_document(report, print_head=args.print_head)), end="")
     return 0 if report.ok else 1
 
 

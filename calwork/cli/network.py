@@ -7,6 +7,8 @@ import argparse
 from calwork.cli._choices import WORST_OFFENDER_MODES
 from calwork.cli._common import print_json, with_safety_note
 from calwork.core.errors import NetworkError
+from calwork.report.plain import render_text
+from calwork.report.views import network_document
 
 __all__ = ["register"]
 
@@ -93,12 +95,6 @@ def run(args: argparse.Namespace) -> int:
             out["U_delta_r_H_kJ_per_mol"] = target.U_delta_r_H_kJ_per_mol
         print_json(out)
         return 0
-    print(f"Network {args.file}: {len(network.rows)} rows, ΔfH° at 298.15 K in kJ/mol")
-    print(result.report())
-    if result.monte_carlo:
-        mc = result.monte_carlo
-        print(f"Monte Carlo check ({mc['n']} draws, seed {mc['seed']}): largest relative "
-              f"difference of u from the linear propagation {mc['max_relative_difference_u']:.2%}")
-    if target is not None:
-        print("target: " + target.report())
+    print(render_text(network_document(result, source=str(args.file),
+                                       n_rows=len(network.rows), target=target)), end="")
     return 0

@@ -7,6 +7,8 @@ from dataclasses import replace
 
 from calwork.cli._common import print_json, with_safety_note
 from calwork.cli.labbook import _common
+from calwork.report.plain import render_text
+from calwork.report.views import control_chart_document
 
 __all__ = ["register"]
 
@@ -97,7 +99,7 @@ def _qa(args: argparse.Namespace) -> int:
         print_json({"calorimeter": args.calorimeter, **chart.to_dict(),
                     "plot": args.plot})
     else:
-        print(chart.report())
+        print(render_text(control_chart_document(chart)), end="")
         if args.plot:
             print(f"plot: {args.plot}")
     return 0

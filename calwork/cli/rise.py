@@ -6,7 +6,8 @@ import argparse
 
 from calwork.cli._common import print_json, with_safety_note
 from calwork.core.errors import ChoiceError
-from calwork.core.text import format_table
+from calwork.report.plain import render_text
+from calwork.report.views import rise_document
 from calwork.rise.registry import DICKINSON_RULES, METHODS
 
 __all__ = ["register", "run"]
@@ -64,33 +65,6 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     p.set_defaults(func=run)
 
 
-def _table(result) -> str:
-    rows = [
-        ("corrected rise", f"{result.corrected_rise_K:.6f}", "K"),
-        ("u (k = 1)", f"{result.u_corrected_rise_K:.2g}", "K"),
-        ("method", result.method + (f" ({result.dickinson_rule})" if result.dickinson_rule
-                                    else ""), ""),
-        ("fire time", f"{result.fire_time_s:.1f}", f"s ({result.periods.fire_source})"),
-        ("main period end", f"{result.main_end_s:.1f}", f"s ({result.periods.main_end_source})"),
-        ("fore period", f"{result.fore_period_s[0]:.1f}–{result.fore_period_s[1]:.1f}", "s"),
-        ("after period", f"{result.after_period_s[0]:.1f}–{result.after_period_s[1]:.1f}", "s"),
-        ("T_i", f"{result.T_initial_K:.6f}", "K"),
-        ("T_f", f"{result.T_final_K:.6f}", "K"),
-        ("exchange correction", f"{result.exchange_correction_K:+.6f}", "K"),
-        ("k", f"{result.k_per_s:.4g}", "1/s"),
-        ("T_inf", f"{result.T_inf_K:.4f}", "K"),
-        ("reading noise", f"{(result.noise_K or 0.0) * 1e3:.3g}", "mK"),
-    ]
-    rows += [(f"u: {k}", f"{v:.2g}", "K") for k, v in result.uncertainty_budget.items()]
-    if result.event is not None:
-        rows.insert(0, ("event", f"{result.event} of {len(result.events)}",
-                        result.events[result.event - 1]["kind"]))
-    text = format_table(("quantity", "value", "unit"), rows)
-    if result.warnings:
-        text += "\n" + "\n".join(f"warning: {w}" for w in result.warnings)
-    return text
-
-
 def run(args: argparse.Namespace) -> int:
     """Read the log, reduce it and print the result (table or JSON)."""
     from calwork.io import read_log
@@ -117,7 +91,7 @@ def run(args: argparse.Namespace) -> int:
     if args.json:
         print_json(out)
     else:
-        print(_table(result))
+        print(render_text(rise_document(result)), end="")
         if args.plot:
             print(f"plot written to {out['plot']}")
     return 0

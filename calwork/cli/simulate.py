@@ -6,7 +6,8 @@ import argparse
 
 from calwork.cli._choices import SCENARIOS
 from calwork.cli._common import print_json, with_safety_note
-from calwork.core.text import format_table
+from calwork.report.plain import render_text
+from calwork.report.views import simulated_logs_document
 
 __all__ = ["register", "run"]
 
@@ -94,18 +95,5 @@ def run(args: argparse.Namespace) -> int:
                       "truth": w.run.truth.to_dict()} for w in written],
         })
         return 0
-    headers = ["run", "kind", "log", "true heat J", "true rise K"]
-    heaters = any(w.electrical_energy_J for w in written)
-    if heaters:
-        headers.append("electrical J")
-    rows = []
-    for w in written:
-        row = [w.row["run"], w.row["kind"], w.row["log"], f"{w.reaction_heat_J:.4f}",
-               f"{w.reaction_rise_K:.7f}"]
-        if heaters:
-            row.append(f"{w.electrical_energy_J:.4f}")
-        rows.append(row)
-    print(format_table(headers, rows))
-    print(f"\nwrote {len(written)} simulated logs and runs.csv to {args.out} "
-          "(invented data; true heat excludes electrical calibrations)")
+    print(render_text(simulated_logs_document(written, str(args.out))), end="")
     return 0

@@ -5,6 +5,8 @@ from __future__ import annotations
 import argparse
 
 from calwork.cli._common import print_json
+from calwork.report.plain import render_text
+from calwork.report.views import validation_document
 
 __all__ = ["register", "run"]
 
@@ -51,5 +53,5 @@ def run(args: argparse.Namespace) -> int:
     if args.json:
         print_json(result)
     else:
-        print(result.report())
+        print(render_text(validation_document(result)), end="")
     return 0

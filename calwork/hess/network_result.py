@@ -13,7 +13,6 @@ import numpy as np
 
 from calwork.core.errors import NetworkError, UncertaintyError
 from calwork.core.results import jsonable
-from calwork.core.text import format_table
 from calwork.hess.algebra import nullspace
 from calwork.hess.diagnostics import Inflation, Offender, Residual
 from calwork.hess.equations import format_coefficient
@@ -128,11 +127,6 @@ class DerivedEnthalpy:
                 "u_delta_r_H_kJ_per_mol": self.u_delta_r_H_kJ_per_mol,
                 "U_delta_r_H_kJ_per_mol": self.U_delta_r_H_kJ_per_mol,
                 "coverage_factor": self.coverage_factor}
-
-    def report(self) -> str:
-        return (f"{self.equation}: ΔrH = {self.delta_r_H_kJ_per_mol:.3f} ± "
-                f"{self.u_delta_r_H_kJ_per_mol:.3f} kJ/mol (u, k = 1); U = "
-                f"{self.U_delta_r_H_kJ_per_mol:.3f} kJ/mol (k = {self.coverage_factor:g})")
 
 
 @dataclass(frozen=True, kw_only=True, eq=False)
@@ -254,39 +248,6 @@ class NetworkResult:
             "temperature_adjustments_kJ_per_mol": dict(self.temperature_adjustments),
             "warnings": list(self.warnings),
         })
-
-    def report(self) -> str:
-        k = self.coverage_factor
-        rows = []
-        for name in self.species:
-            v, u = self.values[name], self.uncertainties.get(name)
-            rows.append([name, "undetermined" if v is None else f"{v:.3f}",
-                         "" if u is None else f"{u:.3f}", "" if u is None else f"{k * u:.3f}"])
-        lines = [format_table(["species", "ΔfH°/kJ·mol⁻¹", "u (k=1)", f"U (k={k:g})"], rows)]
-        lines.append("")
-        res_rows = [[r.id, r.kind, f"{r.measured_kJ_per_mol:.3f}", f"{r.u_kJ_per_mol:.3f}",
-                     f"{r.residual_kJ_per_mol:.3f}", f"{r.normalised:.2f}",
-                     "" if r.standardised is None else f"{r.standardised:.2f}"]
-                    for r in self.residuals]
-        lines.append(format_table(["row", "kind", "ΔrH", "u", "r", "r/u", "z"], res_rows))
-        p = "n/a" if self.p_value is None else f"{self.p_value:.3g}"
-        rb = "n/a" if self.birge_ratio is None else f"{self.birge_ratio:.3f}"
-        lines += ["", (f"χ² = {self.chi2:.4g}, ν = {self.dof}, p = {p}, Birge ratio = {rb} "
-                      f"(method: {self.method})")]
-        if self.worst_offenders:
-            lines.append("worst offenders (removal order): " + "; ".join(
-                o.describe() for o in self.worst_offenders))
-        for inf in self.inflations:
-            lines.append(f"inflated u of {inf.id}: {inf.old_u_kJ_per_mol:.4g} → "
-                         f"{inf.new_u_kJ_per_mol:.4g} kJ/mol (step {inf.step})")
-        if self.undetermined:
-            lines.append("not determined by the data: " + ", ".join(self.undetermined))
-            lines.append("free directions: " + "; ".join(self.free_directions))
-        if self.key_values_used:
-            lines.append("key values used: " + ", ".join(
-                f"{kv['species']} ({kv['status']})" for kv in self.key_values_used))
-        lines += [f"warning: {w}" for w in self.warnings]
-        return "\n".join(lines)
 
 
 def _canonical(text: str) -> str:

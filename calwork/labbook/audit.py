@@ -79,10 +79,6 @@ class AuditEntry:
             "prev_hash": self.prev_hash, "hash": self.hash,
         }
 
-    def report(self) -> str:
-        reason = f" — {self.reason}" if self.reason else ""
-        return f"#{self.id} {self.ts_utc} {self.user}: {self.action} {self.object}{reason}"
-
     @classmethod
     def from_row(cls, row: tuple) -> AuditEntry:
         id_, ts, user, action, obj, reason, details, prev, h = row

@@ -66,27 +66,6 @@ class AddResult:
             "labbook": self.labbook, "notes": list(self.notes),
         })
 
-    def report(self) -> str:
-        if self.already_recorded:
-            return (f"already recorded: {self.file_name} is sheet #{self.sheet_id} "
-                    f"({self.n_runs} runs, reduced with {self.method}); nothing changed"
-                    + "".join(f"\n  note: {n}" for n in self.notes))
-        lines = [(f"recorded sheet #{self.sheet_id} {self.file_name}: {self.n_runs} runs "
-                  f"({self.n_runs - len(self.failed)} reduced, {len(self.failed)} failed), "
-                  f"method {self.method}, in {self.labbook}")]
-        lines += [f"  failed {r}: {e}" for r, e in self.failed]
-        for c in self.calibrations:
-            lines.append(f"  calibration {c['calorimeter']}: ε = "
-                         f"{_num(c.get('energy_equivalent_J_per_K'))} J/K, "
-                         f"u = {_num(c.get('u_energy_equivalent_J_per_K'))} J/K, "
-                         f"n = {c.get('n_runs')}")
-        lines += [f"  sample {s['sample']}: {s.get('n_runs')} runs" for s in self.samples]
-        return "\n".join(lines)
-
-
-def _num(value: Any) -> str:
-    return "-" if value is None else f"{value:.6g}"
-
 
 def date_key(value: Any) -> str | None:
     """An ISO 8601 sort key for a run's ``date`` cell (``None`` if blank or unparseable)."""

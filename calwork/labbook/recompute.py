@@ -51,11 +51,6 @@ class Difference:
                 "record": self.record, "field": self.field, "stored": self.stored,
                 "recomputed": self.recomputed, "relative_difference": self.relative}
 
-    def report(self) -> str:
-        rel = "" if self.relative is None else f" (relative difference {self.relative:.3g})"
-        return (f"sheet #{self.sheet_id} reduction #{self.reduction_id} {self.record} "
-                f"{self.field}: stored {self.stored!r}, recomputed {self.recomputed!r}{rel}")
-
 
 @dataclass(frozen=True, kw_only=True)
 class RecomputeReport:
@@ -81,15 +76,6 @@ class RecomputeReport:
                 "numbers": self.numbers, "runs": self.runs,
                 "differences": [d.to_dict() for d in self.differences],
                 "notes": list(self.notes), "filters": dict(self.filters)}
-
-    def report(self) -> str:
-        lines = [d.report() for d in self.differences] + [f"note: {n}" for n in self.notes]
-        verdict = (f"all agree within {self.tolerance:g} relative" if self.agree
-                   else f"{len(self.differences)} difference(s) beyond {self.tolerance:g} "
-                        "relative")
-        lines.append(f"recomputed {self.records} records ({self.numbers} numbers, "
-                     f"{self.runs} runs) in {self.reductions} reductions: {verdict}")
-        return "\n".join(lines)
 
 
 def _is_number(v: Any) -> bool:

@@ -63,14 +63,6 @@ class VerifyReport:
         return {"ok": self.ok, "problems": list(self.problems), "counts": dict(self.counts),
                 "head": self.head, "head_entry": self.head_entry}
 
-    def report(self) -> str:
-        checked = ", ".join(f"{n} {k}" for k, n in self.counts.items())
-        if self.ok:
-            return f"lab book verifies: {checked}"
-        tail = (f"lab book does NOT verify: {len(self.problems)} problem(s); "
-                f"checked {checked}")
-        return "\n".join([*self.problems, tail])
-
 
 def _check_blobs(conn: sqlite3.Connection, problems: list[str]) -> int:
     users: dict[str, list[str]] = {}

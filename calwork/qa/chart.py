@@ -133,26 +133,6 @@ class ControlChart:
             "notes": list(self.notes),
         }
 
-    def report(self) -> str:
-        lo_w, hi_w = self.warning_limits
-        lo_a, hi_a = self.action_limits
-        lines = [
-            self.title or f"control chart of {self.quantity}",
-            (f"  points {len(self.values)}; baseline {len(self.baseline_indices)} "
-             f"({self.baseline_source})"),
-            (f"  mean {self.mean:.6g} {self.unit}, s {self.std:.4g} {self.unit}"
-             + (f" ({100 * self.std / abs(self.mean):.3g} %)" if self.mean else "")),
-            f"  warning limits {lo_w:.6g} .. {hi_w:.6g}; action limits {lo_a:.6g} .. {hi_a:.6g}",
-            (f"  moving range: mean {self.mr_mean:.4g}, upper limit {self.mr_upper_limit:.4g} "
-             f"(D4 = {self.d4})"),
-        ]
-        lines += [f"  signal: {v.message}" for v in self.violations]
-        lines += [f"  note: {n}" for n in self.notes]
-        lines.append(f"{self.recommendation.action}: {self.recommendation.reason}"
-                     if self.recommendation.action != "in control"
-                     else f"in control: {self.recommendation.reason}")
-        return "\n".join(line for line in lines if line)
-
 
 def _fmt_point(labels: Sequence[str], dates: Sequence[str | None], i: int) -> str:
     return f"run {labels[i]}" + (f" ({dates[i]})" if dates[i] else "")

@@ -56,8 +56,11 @@ def render_text(doc: Document, *, width: int = 92) -> str:
                 text = _MARK.get(block.kind, "") + block.text
                 out.append(textwrap.fill(text, width, initial_indent="- " if block.kind ==
                                          "warning" else "", subsequent_indent="  "
-                                         if block.kind == "warning" else ""))
+                                         if block.kind == "warning" else "",
+                                         break_on_hyphens=False))
             elif isinstance(block, Table):
+                if out and out[-1] != "":
+                    out.append("")
                 if block.caption:
                     out.append(block.caption)
                 out += [format_table(block.headers, block.rows), ""]

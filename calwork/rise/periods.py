@@ -185,19 +185,6 @@ class Periods:
             "warnings": list(self.warnings),
         }
 
-    def report(self) -> str:
-        """A short human-readable summary."""
-        lines = [
-            f"fore period   {self.fore_period_s[0]:10.1f} – {self.fore_period_s[1]:10.1f} s",
-            (f"main period   {self.fire_time_s:10.1f} – {self.main_end_s:10.1f} s "
-             f"(start {self.fire_source}, end {self.main_end_source})"),
-            f"after period  {self.after_period_s[0]:10.1f} – {self.after_period_s[1]:10.1f} s",
-        ]
-        if self.noise_K is not None:
-            lines.append(f"reading noise {self.noise_K * 1e3:.4g} mK")
-        lines.extend(f"warning: {w}" for w in self.warnings)
-        return "\n".join(lines)
-
 
 def detect_periods(thermogram: Thermogram, *, fire_time_s: float | None = None,
                    main_end_s: float | None = None) -> Periods:

@@ -222,24 +222,3 @@ class RiseResult(NewtonianTerms):
             out["events"] = [dict(e, number=i) for i, e in enumerate(self.events, start=1)]
         return jsonable(out)
 
-    def report(self) -> str:
-        """A readable summary of the result."""
-        rule = f" ({self.dickinson_rule})" if self.dickinson_rule else ""
-        lines = [
-            (f"corrected temperature rise ({self.method}{rule}): "
-             f"{self.corrected_rise_K:.6f} K ± {self.u_corrected_rise_K:.2g} K (u, k = 1)"),
-            (f"  T_i = {self.T_initial_K:.6f} K at {self.fire_time_s:.1f} s, "
-             f"T_f = {self.T_final_K:.6f} K at {self.main_end_s:.1f} s, "
-             f"exchange correction {self.exchange_correction_K:+.6f} K"),
-            (f"  k = {self.k_per_s:.4g} ± {self.u_k_per_s:.2g} 1/s, "
-             f"T_inf = {self.T_inf_K:.4f} ± {self.u_T_inf_K:.2g} K"),
-            (f"  fore {self.fore_period_s[0]:.1f}–{self.fore_period_s[1]:.1f} s, "
-             f"after {self.after_period_s[0]:.1f}–{self.after_period_s[1]:.1f} s"),
-        ]
-        if self.t_x_s is not None:
-            lines.append(f"  t_x = {self.t_x_s:.1f} s")
-        if self.uncertainty_budget:
-            parts = ", ".join(f"{k} {v:.2g}" for k, v in self.uncertainty_budget.items())
-            lines.append(f"  uncertainty budget (K): {parts}")
-        lines.extend(f"  warning: {w}" for w in self.warnings)
-        return "\n".join(lines)

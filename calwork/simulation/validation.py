@@ -26,7 +26,6 @@ from typing import Any
 import numpy as np
 
 from calwork.core.errors import CalworkError
-from calwork.core.text import format_table
 from calwork.rise.engine import corrected_rise
 from calwork.rise.registry import METHODS
 
@@ -90,19 +89,6 @@ class ValidationResult:
             "newtonian_rise_K": self.newtonian_rise_K,
             "methods": [m.to_dict() for m in self.methods], "warnings": list(self.warnings),
         }
-
-    def report(self) -> str:
-        rows = [(m.method, m.n_runs - m.n_failed, f"{m.bias_ppm:+.1f}", f"{m.spread_ppm:.1f}",
-                 f"{m.bias_newtonian_ppm:+.1f}", f"{m.max_abs_error_ppm:.1f}",
-                 f"{m.mean_u_ppm:.1f}", f"{100 * m.coverage:.0f} %") for m in self.methods]
-        head = (f"Method validation on {self.runs} simulated runs (seed {self.seed}): "
-                f"{self.scenario}\nadiabatic rise {self.adiabatic_rise_K:.6f} K, Newtonian "
-                f"limit {self.newtonian_rise_K:.6f} K "
-                f"({(self.newtonian_rise_K / self.adiabatic_rise_K - 1) * 1e6:+.1f} ppm)")
-        table = format_table(("method", "runs", "bias ppm", "spread ppm", "bias vs limit",
-                              "max |err| ppm", "mean u ppm", "|err| ≤ 2u"), rows)
-        notes = "\n".join(f"note: {w}" for w in self.warnings)
-        return "\n".join(p for p in (head, table, notes) if p)
 
 
 def _scenario(params) -> tuple[Any, float, str]:

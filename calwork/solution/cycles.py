@@ -412,20 +412,6 @@ class CycleResult:
             "warnings": list(self.warnings),
         })
 
-    def report(self) -> str:
-        lines = [f"Cycle: {self.name or '(unnamed)'}"]
-        lines += [f"  {r.id}: {r.equation}   ΔrH = {r.delta_r_H_kJ_per_mol:.3f} ± "
-                  f"{r.u_delta_r_H_kJ_per_mol:.3f} kJ/mol" for r in self.determinations]
-        if self.target is not None:
-            lines.append(f"Δ_fH°({self.target}) = {self.delta_f_H_kJ_per_mol:.3f} ± "
-                         f"{self.u_delta_f_H_kJ_per_mol:.3f} kJ/mol (u, k = 1); U = "
-                         f"{self.U_delta_f_H_kJ_per_mol:.3f} kJ/mol (k = "
-                         f"{self.coverage_factor:g})")
-        if self.target_reaction is not None:
-            lines.append(self.target_reaction.report())
-        lines += [f"warning: {w}" for w in self.warnings]
-        return "\n".join(lines)
-
 
 def _key_table(cycle: Mapping[str, Any]) -> KeyValues | bool:
     use = cycle.get("key_values", True)

@@ -25,6 +25,7 @@ from datetime import date, timedelta
 from pathlib import Path
 
 from calwork.labbook import open_labbook
+from calwork.report.views import describe
 from calwork.simulation import simulate_scenario
 
 RUNS_PER_SHEET = 100
@@ -84,7 +85,7 @@ def main(argv: list[str] | None = None) -> int:
             t0 = time.perf_counter()
             report = book.recompute()
             t_rec = time.perf_counter() - t0
-            assert report.agree, report.report()
+            assert report.agree, describe(report)
             t0 = time.perf_counter()
             ok = book.verify().ok
             t_ver = time.perf_counter() - t0
