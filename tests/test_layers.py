@@ -167,10 +167,10 @@ def test_every_kernel_function_runs():
 def test_only_the_renderers_lay_out_tables():
     """Every terminal table is a document table rendered by calwork.report.plain: no stage
     and no command formats its own (the command line only chooses the format)."""
-    users = []
-    for path in SOURCES["calwork"].rglob("*.py"):
-        for node in ast.walk(ast.parse(path.read_text(encoding="utf-8"))):
-            if isinstance(node, ast.ImportFrom) and any(a.name == "format_table"
-                                                        for a in node.names):
-                users.append(path.relative_to(SOURCES["calwork"]).as_posix())
+    users = [
+        path.relative_to(SOURCES["calwork"]).as_posix()
+        for path in SOURCES["calwork"].rglob("*.py")
+        for node in ast.walk(ast.parse(path.read_text(encoding="utf-8")))
+        if isinstance(node, ast.ImportFrom) and any(a.name == "format_table" for a in node.names)
+    ]
     assert users == ["report/plain.py"]
