@@ -31,7 +31,8 @@ from openpyxl.writer.excel import ExcelWriter
 from calwork.report.formulas import Expr, Ref
 from calwork.report.sanitise import cell_text, is_formula_like
 
-__all__ = ["Grid", "Text", "new_workbook", "save_workbook", "text_cell"]
+__all__ = ["Grid", "Text", "grid_of_section", "new_workbook", "number_of", "save_workbook",
+           "text_cell"]
 
 #: Plain numbers (inputs and fitted values) are dark blue, formulas black: the usual
 #: spreadsheet-modelling cue for "you may change this" versus "this is computed".
@@ -66,6 +67,71 @@ def _display_len(content: Any, fmt: str | None) -> int:
         digits = fmt.split(".", 1)[1].count("0") if fmt and "." in fmt else 0
         return len(f"{value:,.{digits}f}") + 1
     return 4
+
+
+def _as_text(content: Any, fmt: str | None) -> str:
+    if content is None:
+        return ""
+    if isinstance(content, Text):
+        return content.text
+    value = content.value if isinstance(content, Expr) else content
+    if not isinstance(value, (int, float)) or not math.isfinite(value):
+        return ""
+    if fmt and "E" in fmt:
+        return f"{value:.4E}"
+    if fmt and fmt.startswith("0"):
+        digits = fmt.split(".", 1)[1].count("0") if "." in fmt else 0
+        return f"{value:.{digits}f}"
+    return f"{value:.10g}"
+
+
+_NUMBER = re.compile(r"[-+]?(?:0|[1-9]\d*)(?:\.(\d*))?(?:[eE][-+]?\d+)?")
+
+
+def number_of(text: str) -> tuple[float, str | None] | None:
+    """``(value, number format)`` when ``text`` is a plain decimal number (as the documents
+    write them: ``-393.51``, ``0.130``, ``1.5e-05``), else ``None`` — also for a leading zero
+    (``007`` is an identifier). The format keeps the decimals the text shows."""
+    match = _NUMBER.fullmatch(text.strip())
+    if match is None:
+        return None
+    decimals = match.group(1)
+    if "e" in text.lower():
+        return float(text), "0.00E+00"
+    return float(text), ("0." + "0" * len(decimals)) if decimals else "0"
+
+
+def grid_of_section(title: str, blocks: Sequence[Any]) -> Grid:
+    """A sheet for a section of paragraphs and tables (any document): the title, then each
+    paragraph as a note and each table with its header row, one empty row between. In the
+    table's number columns (:attr:`~calwork.report.model.Table.number_columns`) a plain
+    decimal text becomes a number showing the same decimals; all other text stays text."""
+    grid = Grid(title)
+    grid.put(1, 1, title, kind="title")
+    row = 2
+    for block in blocks:
+        headers = getattr(block, "headers", None)
+        if headers is None:  # a paragraph
+            grid.put(row, 1, Text(block.text), kind="note")
+            row += 1
+            continue
+        row += 1
+        if block.caption:
+            grid.put(row, 1, Text(block.caption), kind="note")
+            row += 1
+        grid.header(row, list(headers))
+        for cells in block.rows:
+            row += 1
+            numeric = block.number_columns
+            for col, text in enumerate(cells, start=1):
+                number = (number_of(str(text)) if numeric is None or col - 1 in numeric
+                          else None)
+                if number is None:
+                    grid.put(row, col, Text(str(text)) if text != "" else None)
+                else:
+                    grid.put(row, col, number[0], number[1])
+        row += 2
+    return grid
 
 
 class Grid:
@@ -108,6 +174,46 @@ class Grid:
         """A header row (bold, shaded, wrapped)."""
         for i, label in enumerate(labels):
             self.put(row, col + i, Text(label), kind="header")
+
+    # --- reading ---------------------------------------------------------------------------
+    def as_blocks(self) -> list[tuple[str, Any]]:
+        """The grid as prose: ``("paragraph", text)`` for title and note rows, ``("table",
+        (headers, rows))`` for a header row and the rows below it (values of formulas and
+        numbers in their cell format), for the prose renderers."""
+        rows: dict[int, dict[int, _Entry]] = {}
+        for (r, c), entry in self.cells.items():
+            if entry.content is not None:
+                rows.setdefault(r, {})[c] = entry
+        blocks: list[tuple[str, Any]] = []
+        table: tuple[list[str], list[list[str]]] | None = None
+        first = 1
+        for r in sorted(rows):
+            line = rows[r]
+            kinds = {e.kind for e in line.values()}
+            if kinds <= {"title", "note"}:
+                table = None
+                blocks.extend(("paragraph", _as_text(e.content, e.fmt))
+                              for _, e in sorted(line.items()))
+                continue
+            if "header" in kinds:
+                first = min(line)
+                width = max(line) - first + 1
+                headers = [""] * width
+                for c, e in line.items():
+                    headers[c - first] = _as_text(e.content, e.fmt)
+                table = (headers, [])
+                blocks.append(("table", table))
+                continue
+            if table is None:  # body cells without a header row
+                first = 1
+                table = ([""] * max(line), [])
+                blocks.append(("table", table))
+            cells = [""] * len(table[0])
+            for c, e in line.items():
+                if 0 <= c - first < len(cells):
+                    cells[c - first] = _as_text(e.content, e.fmt)
+            table[1].append(cells)
+        return blocks
 
     # --- writing -------------------------------------------------------------------------------
     def _widths(self) -> dict[int, float]:

@@ -13,7 +13,7 @@ import base64
 from html import escape
 from typing import Any
 
-from calwork.report.model import Document, Figure, Paragraph, Section, Table
+from calwork.report.model import Document, Figure, Paragraph, Section, Table, prose_blocks
 
 __all__ = ["render_html"]
 
@@ -90,7 +90,7 @@ def _paragraph(p: Paragraph) -> str:
 
 def _section(s: Section) -> str:
     parts = [f'<section id="{escape(s.anchor)}"><h2>{escape(s.title)}</h2>']
-    for block in s.blocks:
+    for block in prose_blocks(s):
         if isinstance(block, Table):
             parts.append(_table(block))
         elif isinstance(block, Figure):

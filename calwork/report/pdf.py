@@ -13,7 +13,7 @@ import textwrap
 from pathlib import Path
 from typing import Any
 
-from calwork.report.model import Document, Figure, Paragraph, Section, Table
+from calwork.report.model import Document, Figure, Paragraph, Section, Table, prose_blocks
 from calwork.report.plots import plot_style, simulated_stamp
 
 __all__ = ["render_pdf"]
@@ -135,7 +135,7 @@ def _section(pages: _Pages, s: Section, first: bool) -> None:
         pages.fig.text(_LEFT, pages.y, pages.doc.title + " — " + pages.doc.subtitle,
                        fontsize=9, va="top")
         pages.y -= 0.025
-    for block in s.blocks:
+    for block in prose_blocks(s):
         if isinstance(block, Table):
             _table(pages, block, s.title)
         elif isinstance(block, Figure):

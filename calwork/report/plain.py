@@ -9,7 +9,7 @@ from __future__ import annotations
 import textwrap
 
 from calwork.core.text import format_table
-from calwork.report.model import Document, Figure, Paragraph, Table
+from calwork.report.model import Document, Figure, Paragraph, Table, prose_blocks
 from calwork.report.sanitise import markdown_text
 
 __all__ = ["render_markdown", "render_text"]
@@ -26,7 +26,7 @@ def render_markdown(doc: Document) -> str:
         lines += [md(doc.subtitle), ""]
     for section in doc.sections:
         lines += [f"## {md(section.title)}", ""]
-        for block in section.blocks:
+        for block in prose_blocks(section):
             if isinstance(block, Paragraph):
                 prefix = "- " if block.kind == "warning" else ""
                 lines.append(f"{prefix}{_MARK.get(block.kind, '')}{md(block.text)}")
@@ -51,7 +51,7 @@ def render_text(doc: Document, *, width: int = 92) -> str:
     out: list[str] = []
     for section in doc.sections:
         out += [section.title, ""]
-        for block in section.blocks:
+        for block in prose_blocks(section):
             if isinstance(block, Paragraph):
                 text = _MARK.get(block.kind, "") + block.text
                 out.append(textwrap.fill(text, width, initial_indent="- " if block.kind ==

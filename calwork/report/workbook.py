@@ -15,6 +15,12 @@ so. Plain numbers are dark blue, formulas black.
 
 Text from run sheets and logs is stored as text, never as a formula (see
 :mod:`calwork.report.sanitise`).
+
+The workbook is a document like every other output (:mod:`calwork.report.model`):
+:func:`workbook_document` builds it — one section per sheet, holding a
+:class:`~calwork.report.model.Calculation` (the planned cells and formulas), the
+:class:`~calwork.report.model.Readings` of a log, or paragraphs and tables (the Provenance
+sheet) — and :func:`render_workbook` writes any document as ``.xlsx``.
 """
 
 from __future__ import annotations
@@ -27,11 +33,21 @@ from calwork.core.errors import ExportError
 from calwork.core.provenance import calwork_version, sha256_file
 from calwork.core.runinfo import SOLUTION_KINDS
 from calwork.core.safety import SAFETY_NOTE
-from calwork.report.grid import new_workbook, save_workbook
+from calwork.report.grid import grid_of_section, new_workbook, save_workbook
+from calwork.report.model import (
+    Calculation,
+    Document,
+    Figure,
+    Paragraph,
+    Readings,
+    Section,
+    Table,
+    prose_blocks,
+)
 from calwork.report.output import atomic_target
-from calwork.report.plan import Plan, Table
+from calwork.report.plan import Plan
 from calwork.report.sanitise import safe_sheet_title
-from calwork.report.texts import is_simulated, rise_method
+from calwork.report.texts import SIMULATED_NOTE, is_simulated, rise_method, simulated_runs
 from calwork.report.wb_readings import write_log_sheet
 from calwork.report.wb_results import (
     plan_budget,
@@ -47,20 +63,24 @@ from calwork.report.wb_runs import (
     plan_solution_runs,
 )
 
-__all__ = ["write_workbook"]
+__all__ = ["render_workbook", "workbook_document", "write_workbook"]
 
 PROVENANCE = "Provenance"
 
 
-def _plan_provenance(plan: Plan, log_titles: dict[str, str]) -> None:
+#: The sheets of a reduction's workbook before the per-run log sheets, in order.
+RESULT_SHEETS = ("Summary", "Calibration runs", "Sample runs", "Corrections",
+                 "Uncertainty budget", "Formation", "Solution runs", PROVENANCE)
+
+
+def _provenance_section(plan: Plan, log_titles: dict[str, str]) -> Section:
+    """The Provenance sheet: where every number came from (paragraphs and tables)."""
     red = plan.reduction
-    grid = plan.grid(PROVENANCE)
     prov = red.provenance
-    grid.put(1, 1, "Provenance of this workbook", kind="title")
     sheet_sha = prov.sha256 if prov else None
     if sheet_sha is None and red.sheet_path and Path(red.sheet_path).is_file():
         sheet_sha = f"{sha256_file(red.sheet_path)} (of the file on disk at export)"
-    rows: list[tuple[str, Any]] = [
+    pairs: list[tuple[str, Any]] = [
         ("written by", f"calwork {calwork_version()}"),
         ("written at (UTC)", datetime.now(UTC).replace(microsecond=0).isoformat()),
         ("run sheet", red.sheet_path),
@@ -70,54 +90,47 @@ def _plan_provenance(plan: Plan, log_titles: dict[str, str]) -> None:
         ("calwork version of the reduction", prov.calwork_version if prov else None),
     ]
     if prov is not None:
-        rows.extend((f"data file: {k}" if str(k).endswith(".toml") else f"constant: {k}",
-                     v if isinstance(v, (int, float)) else str(v))
-                    for k, v in prov.constants.items())
-    r = 2
-    for key, value in rows:
-        grid.put(r, 1, key)
-        grid.put(r, 2, value, "0.000000000" if isinstance(value, float) else None)
-        r += 1
-    r += 1
-    table = Table(grid, r, [
-        ("run", "run", None), ("kind", "kind", None), ("log", "log file", None),
-        ("sha", "SHA-256 of the log", None), ("importer", "importer", None),
-        ("rows", "source rows", None), ("simulated", "simulated data", None),
-        ("method", "rise method", None), ("sheet", "readings sheet", None),
-        ("constants", "constants used", None),
-    ], freeze=False)
+        pairs.extend((f"data file: {k}" if str(k).endswith(".toml") else f"constant: {k}", v)
+                     for k, v in prov.constants.items())
+    runs = []
     for run in red.runs:
-        r += 1
         th = red.thermograms.get(run.run)
         p = th.provenance if th is not None else run.provenance
-        table.put(r, "run", run.run)
-        table.put(r, "kind", run.kind)
-        if p is not None:
-            table.put(r, "log", p.source_path)
-            table.put(r, "sha", p.sha256)
-            table.put(r, "importer", p.importer)
-            if p.first_row is not None:
-                table.put(r, "rows", f"{p.first_row}–{p.last_row}")
-        table.put(r, "simulated", "yes" if th is not None and is_simulated(th) else "no")
-        table.put(r, "method", rise_method(run, red.method))
-        table.put(r, "sheet", log_titles.get(run.run))
-        if run.provenance is not None and run.provenance.constants:
-            table.put(r, "constants", "; ".join(f"{k} = {v}"
-                                                for k, v in run.provenance.constants.items()))
-    r += 2
+        runs.append([
+            run.run, run.kind, _text(p and p.source_path), _text(p and p.sha256),
+            _text(p and p.importer),
+            f"{p.first_row}–{p.last_row}" if p is not None and p.first_row is not None else "",
+            "yes" if th is not None and is_simulated(th) else "no",
+            _text(rise_method(run, red.method)), _text(log_titles.get(run.run)),
+            "; ".join(f"{k} = {v}" for k, v in run.provenance.constants.items())
+            if run.provenance is not None and run.provenance.constants else ""])
     notes = [*(f"reduction warning: {w}" for w in red.warnings),
              *(f"workbook note: {n}" for n in plan.notes), SAFETY_NOTE]
-    for text in notes:
-        grid.put(r, 1, text, kind="note")
-        r += 1
-    grid.min_widths.update({1: 24.0, 2: 30.0})
+    return Section(PROVENANCE, "provenance", [
+        Table(["item", "value"], [[key, _value_text(value)] for key, value in pairs],
+              number_columns=(1,)),
+        Table(["run", "kind", "log file", "SHA-256 of the log", "importer", "source rows",
+               "simulated data", "rise method", "readings sheet", "constants used"], runs,
+              number_columns=()),
+        *(Paragraph(text, "note") for text in notes)])
+
+
+def _text(value: Any) -> str:
+    return "" if value is None else str(value)
+
+
+def _value_text(value: Any) -> str:
+    """A provenance value as text; a number exactly (``repr``), so the sheet shows it in
+    full."""
+    if isinstance(value, float):
+        return repr(value)
+    return _text(value)
 
 
 def plan_workbook(reduction: Any, *, log_titles: dict[str, str] | None = None) -> Plan:
-    """Plan every result sheet of ``reduction`` (no file is written)."""
+    """Plan every calculated sheet of ``reduction`` (no file is written)."""
     plan = Plan(reduction)
-    for title in ("Summary", "Calibration runs", "Sample runs", "Corrections",
-                  "Uncertainty budget", "Formation"):
+    for title in RESULT_SHEETS[:6]:
         plan.grid(title)  # fix the sheet order
     cal_runs, sample_runs = ordered_bomb_runs(plan)
     if cal_runs or sample_runs:
@@ -132,8 +145,80 @@ def plan_workbook(reduction: Any, *, log_titles: dict[str, str] | None = None) -
     solution = [r for r in reduction.runs if r.kind in SOLUTION_KINDS]
     if solution:
         plan_solution_runs(plan, solution)
-    _plan_provenance(plan, log_titles or {})
     return plan
+
+
+def workbook_document(reduction: Any, *, include_readings: bool = True,
+                      charts: bool = True) -> Document:
+    """The workbook of ``reduction`` as a document: one section per sheet (see the module
+    docstring); nothing is written."""
+    log_titles: dict[str, str] = {}
+    if include_readings:
+        taken = list(RESULT_SHEETS)
+        for run in reduction.runs:
+            if run.run in reduction.thermograms:
+                title = safe_sheet_title(f"Log {run.run}", taken)
+                taken.append(title)
+                log_titles[run.run] = title
+    plan = plan_workbook(reduction, log_titles=log_titles)
+    sections = [Section(title, title.lower().replace(" ", "-"), [Calculation(grid)])
+                for title, grid in plan.grids.items() if grid.cells]
+    sections.append(_provenance_section(plan, log_titles))
+    by_id = {r.run: r for r in reduction.runs}
+    sections += [Section(title, f"log-{rid}", [Readings(
+        by_id[rid], reduction.thermograms[rid], reduction.method, charts)])
+        for rid, title in log_titles.items()]
+    sim = simulated_runs(reduction)
+    return Document(
+        title=f"calwork reduction of {reduction.sheet_path or '(runs given in memory)'}",
+        subtitle=SIMULATED_NOTE if sim else "", sections=sections, simulated=bool(sim))
+
+
+def render_workbook(doc: Document, path: str | Path) -> Path:
+    """Write ``doc`` as an ``.xlsx`` workbook, one sheet per section; returns the path.
+
+    A section's :class:`~calwork.report.model.Calculation` is written cell by cell with its
+    live formulas (each with calwork's value cached); a section of
+    :class:`~calwork.report.model.Readings` becomes a readings sheet with its chart; any
+    other section is laid out as its title, paragraphs and tables (figures are named, not
+    drawn: they are in the HTML and PDF reports).
+
+    Raises
+    ------
+    ExportError
+        The file cannot be written (or the path is not an ``.xlsx`` file).
+    """
+    path = Path(path)
+    if path.suffix.lower() != ".xlsx":
+        raise ExportError("a workbook must be written to an .xlsx file", path=path,
+                          found=path.suffix, expected="'.xlsx'")
+    with atomic_target(path, what="workbook") as tmp:
+        wb = new_workbook()
+        cached: dict[str, dict[str, float]] = {}
+        tails = {}
+        taken: list[str] = []
+        for section in doc.sections:
+            calculations = [b for b in section.blocks if isinstance(b, Calculation)]
+            readings = [b for b in section.blocks if isinstance(b, Readings)]
+            if calculations:
+                for calc in calculations:
+                    calc.grid.write(wb, cached)
+                    taken.append(calc.grid.title)
+            elif readings:
+                r = readings[0]
+                title = safe_sheet_title(section.title, taken)
+                taken.append(title)
+                tails[title] = write_log_sheet(wb, title, r.run, r.thermogram,
+                                               method=r.method, charts=r.charts)
+            else:
+                title = safe_sheet_title(section.title, taken)
+                taken.append(title)
+                blocks = [Paragraph(f"figure: {b.alt} (drawn in the HTML and PDF reports)",
+                                    "note") if isinstance(b, Figure) else b
+                          for b in prose_blocks(section)]
+                grid_of_section(title, blocks).write(wb, cached)
+        save_workbook(wb, tmp, cached, tails)
+    return path
 
 
 def write_workbook(reduction: Any, path: str | Path, *, include_readings: bool = True,
@@ -159,34 +244,13 @@ def write_workbook(reduction: Any, path: str | Path, *, include_readings: bool =
 
     Notes
     -----
-    Text from run sheets and logs is written as text, never as formulas. The workbook holds
-    the safety note (:data:`calwork.core.safety.SAFETY_NOTE`).
+    The workbook is :func:`workbook_document` rendered by :func:`render_workbook`. Text from
+    run sheets and logs is written as text, never as formulas. The workbook holds the safety
+    note (:data:`calwork.core.safety.SAFETY_NOTE`).
     """
     path = Path(path)
-    if path.suffix.lower() != ".xlsx":
+    if path.suffix.lower() != ".xlsx":  # refused before any planning
         raise ExportError("a workbook must be written to an .xlsx file", path=path,
                           found=path.suffix, expected="'.xlsx'")
-    log_titles: dict[str, str] = {}
-    if include_readings:
-        taken = ["Summary", "Calibration runs", "Sample runs", "Corrections",
-                 "Uncertainty budget", "Formation", "Solution runs", PROVENANCE]
-        for run in reduction.runs:
-            if run.run in reduction.thermograms:
-                title = safe_sheet_title(f"Log {run.run}", taken)
-                taken.append(title)
-                log_titles[run.run] = title
-    with atomic_target(path, what="workbook") as tmp:
-        plan = plan_workbook(reduction, log_titles=log_titles)
-        wb = new_workbook()
-        cached: dict[str, dict[str, float]] = {}
-        for grid in plan.grids.values():
-            if grid.cells:
-                grid.write(wb, cached)
-        by_id = {r.run: r for r in reduction.runs}
-        tails = {
-            title: write_log_sheet(wb, title, by_id[rid], reduction.thermograms[rid],
-                                   method=reduction.method, charts=charts)
-            for rid, title in log_titles.items()
-        }
-        save_workbook(wb, tmp, cached, tails)
-    return path
+    return render_workbook(workbook_document(reduction, include_readings=include_readings,
+                                             charts=charts), path)
