@@ -120,7 +120,8 @@ def test_explicit_periods_skip_detection_and_boundary_component(record):
 
 
 def test_too_short_explicit_period_raises(record):
-    p = Periods(fore_period_s=(0.0, 10.0), fire_time_s=600.0, main_end_s=1300.0,
+    # two readings (0 and 5 s): a drift line needs at least three
+    p = Periods(fore_period_s=(0.0, 5.0), fire_time_s=600.0, main_end_s=1300.0,
                 after_period_s=(1300.0, 2400.0))
     with pytest.raises(PeriodDetectionError, match="fore period has too few readings"):
         corrected_rise(record, periods=p)

@@ -43,6 +43,10 @@ WARNING_CODES = {
     "time-unit-assumed": "the log names no time unit; the importer assumed seconds",
     "boundary-component-incomplete": "a part of the boundary uncertainty could not be "
                                      "evaluated (the message says which; give the boundary)",
+    "few-degrees-of-freedom": "the drift fits rest on few readings: their scatter-based "
+                              "uncertainty is widened by Student's t",
+    "main-end-unconfirmed": "the after period is too short to confirm that the rise had "
+                            "ended (the message names the time to check)",
 }
 
 #: Minimum fore/after lengths (ASTM D240 rates over 5 min before firing and after c; ISO 1928

@@ -45,6 +45,12 @@ from calwork.rise.periods import Periods, detect_periods
 from calwork.rise.registry import DICKINSON_RULES, METHODS, RiseMethod, rise_method
 from calwork.rise.result import RiseResult
 from calwork.rise.selection import MethodOutput, Selection, select
+from calwork.rise.sparse import (
+    interpolation_component_K,
+    reading_resolution_K,
+    resolution_component_K,
+    student_factor,
+)
 from calwork.rise.tail import tail_correction, tail_model
 
 __all__ = ["corrected_rise"]
@@ -60,6 +66,10 @@ NOISE_RELATIVE_LIMIT = 1e-3
 
 #: Readings by which the after period is shortened to measure the boundary-choice spread.
 BOUNDARY_SHIFT_READINGS = 16
+#: The budget components computed from the drift fits' residual scatter (Student's t).
+_SCATTER_COMPONENTS = ("fit", "main-period-readings")
+#: Student factor above which the widening is named in a warning (about ν < 20).
+_STUDENT_NOTE = 1.05
 
 
 @cache
@@ -147,6 +157,35 @@ def _tail_component(sel: Selection, out: MethodOutput, periods: Periods,
         return None
     b = abs(again - out.rise_K)
     return b if math.isfinite(b) and b > 0.0 else None
+
+
+def _small_sample_parts(thermogram: Thermogram, sel: Selection, out: MethodOutput,
+                        budget: dict[str, float], warns: list[str]) -> float | None:
+    """Student's t on the scatter-based components, the reading resolution and the
+    interpolation of the main period (:mod:`calwork.rise.sparse`); returns the resolution."""
+    if out.dof < 1:
+        raise PeriodDetectionError(
+            "too few drift-period readings to estimate their scatter",
+            path=thermogram.provenance.source_path,
+            found=f"{int(sel.fore.sum())} fore and {int(sel.after.sum())} after readings",
+            expected="at least 3 in each drift period (more for the straight-line methods)")
+    factor = student_factor(out.dof)
+    for name in _SCATTER_COMPONENTS:
+        if name in budget:
+            budget[name] *= factor
+    if factor > _STUDENT_NOTE:
+        warns.append(warning("few-degrees-of-freedom", f"the drift fits rest on {out.dof} "
+                             "degrees of freedom: their scatter-based uncertainty is stated "
+                             f"{factor:.3g} times wider (Student's t)"))
+    resolution = reading_resolution_K(thermogram.temperature_K,
+                                      thermogram.metadata.get("temperature_unit"))
+    if resolution is not None and resolution / math.sqrt(12.0) > out.sigma_K:
+        budget["reading-resolution"] = resolution_component_K(
+            resolution, out.fit_u_per_sigma_K, out.k_per_s, sel.main_weights_sq_s2())
+    interpolation = interpolation_component_K(sel, out.k_per_s)
+    if interpolation > 0.0:
+        budget["main-period-interpolation"] = interpolation
+    return resolution
 
 
 def _diagnostics(thermogram: Thermogram, sel: Selection, out: MethodOutput,
@@ -278,6 +317,7 @@ def corrected_rise(thermogram: Thermogram, method: str = "newton-fit",
     tail = _tail_component(sel, out, periods, rerun)
     if tail is not None:
         budget["transient-tail"] = tail
+    resolution = _small_sample_parts(thermogram, sel, out, budget, component_warnings)
     try:
         u = root_sum_square(budget, name="the corrected rise", allow_zero=False)
     except CalworkError as exc:
@@ -302,6 +342,7 @@ def corrected_rise(thermogram: Thermogram, method: str = "newton-fit",
         after_drift=out.after_drift, t_x_s=out.t_x_s,
         dickinson_rule=options.get("dickinson_rule"),
         noise_K=out.sigma_K, durbin_watson=out.durbin_watson, rho1=out.rho1,
+        reading_resolution_K=resolution, dof=out.dof,
         uncertainty_budget=Budget.of("corrected temperature rise", "K", budget),
         cross_check=cross, warnings=tuple(all_warnings),
         provenance=Provenance(method=spec.label(**options),

@@ -98,6 +98,7 @@ def reduce_newton(sel: Selection, start: Any = None) -> MethodOutput:
         exchange_K=parts["exchange_correction_K"], fore_drift=fore, after_drift=after,
         sigma_K=fit.sigma_K, rho1=fit.rho1, durbin_watson=fit.durbin_watson,
         t_x_s=_equivalent_tx(fore, after, rise, sel.t_i, sel.t_f), rise_at=rise_at,
+        dof=fit.dof, fit_u_per_sigma_K=propagate_gradient(grad, fit.unit_covariance),
         model=fit,
     )
 
@@ -122,10 +123,17 @@ def _lines(sel: Selection) -> tuple[LineFit, LineFit]:
     return fit_line(t[sel.fore], T[sel.fore]), fit_line(t[sel.after], T[sel.after])
 
 
+def line_dof(fl: LineFit, al: LineFit) -> int:
+    """Degrees of freedom of the pooled residual scatter of two period fits: a period of more
+    than three readings loses three (the residuals are those of a quadratic, see
+    :func:`~calwork.rise.selection.fit_line`), one of three readings loses two."""
+    return sum(f.n - (3 if f.n > 3 else 2) for f in (fl, al))
+
+
 def _pooled(fl: LineFit, al: LineFit) -> tuple[float, float, float]:
     """Pooled residual σ, lag-1 autocorrelation and Durbin–Watson of two period fits."""
     rss = fl.rss_K2 + al.rss_K2
-    dof = fl.n + al.n - 6
+    dof = line_dof(fl, al)
     sigma = math.sqrt(rss / dof) if dof > 0 else float("nan")
     rho = (fl.lag1_K2 + al.lag1_K2) / rss if rss > 0 else 0.0
     dw = (fl.dsq_K2 + al.dsq_K2) / rss if rss > 0 else 2.0
@@ -144,12 +152,13 @@ def _steps(fl: LineFit, al: LineFit, sigma: float) -> list[float]:
             s * math.sqrt(al.var_T_mean_K2), s * math.sqrt(al.var_slope)]
 
 
-def _linear_output(sel: Selection, fl: LineFit, al: LineFit, rise: float, fit_u: float,
+def _linear_output(sel: Selection, fl: LineFit, al: LineFit, rise: float, grad: np.ndarray,
                    sigma: float, rho: float, dw: float, f_ar: float, cov: np.ndarray,
                    t_x: float | None, rise_at, T_i: float, T_f: float, newtonian: bool,
                    extra: dict[str, float] | None = None,
                    warnings: list[str] | None = None) -> MethodOutput:
     g_i, g_f = fl.slope_K_per_s, al.slope_K_per_s
+    fit_u = propagate_gradient(grad, cov)
     dT = al.T_mean_K - fl.T_mean_K
     k, T_inf = newton_constants_from_drifts(g_i, g_f, fl.T_mean_K, al.T_mean_K)
     grad_k = np.array([(g_i - g_f) / dT**2, 1 / dT, -(g_i - g_f) / dT**2, -1 / dT])
@@ -177,7 +186,8 @@ def _linear_output(sel: Selection, fl: LineFit, al: LineFit, rise: float, fit_u:
         rise_K=rise, budget=budget, k_per_s=k, u_k_per_s=u_k, T_inf_K=T_inf, u_T_inf_K=u_T_inf,
         T_initial_K=T_i, T_final_K=T_f, exchange_K=(T_f - T_i) - rise, fore_drift=fore,
         after_drift=after, sigma_K=sigma, rho1=rho, durbin_watson=dw, t_x_s=t_x,
-        rise_at=rise_at, warnings=list(warnings or []),
+        rise_at=rise_at, warnings=list(warnings or []), dof=line_dof(fl, al),
+        fit_u_per_sigma_K=propagate_gradient(grad, _line_cov(fl, al, 1.0, 1.0)),
     )
 
 
@@ -275,7 +285,7 @@ def reduce_regnault_pfaundler(sel: Selection) -> MethodOutput:
         return _rp_parts(x0, T_ref, _areas(sel, u, Cu, t_i, t_f))[0]
 
     t_x = sel.t_f - c["main"] / (al.T_mean_K - fl.T_mean_K)   # (1.7), for the figure
-    return _linear_output(sel, fl, al, c["rise"], c["fit_u"], c["sigma"], c["rho"], c["dw"],
+    return _linear_output(sel, fl, al, c["rise"], c["grad"], c["sigma"], c["rho"], c["dw"],
                           c["f_ar"], c["cov"], t_x, rise_at, c["T_i"], c["T_f"], True,
                           {"drift-curvature": c["curvature_u"]})
 
@@ -292,6 +302,7 @@ def _rp_core(sel: Selection) -> dict[str, Any]:
     return {"sel": sel, "fl": fl, "al": al, "sigma": sigma, "rho": rho, "dw": dw, "f_ar": f_ar,
             "cov": cov, "x0": x0, "T_ref": T_ref, "u": u, "Cu": Cu, "rise": rise, "T_i": T_i,
             "T_f": T_f, "main": main, "fit_u": propagate_gradient(grad, cov), "k": k,
+            "grad": grad,
             "curvature_u": _curvature_u(sel, fl, al, k, (T_f - T_i) - rise)}
 
 
@@ -374,5 +385,5 @@ def reduce_dickinson(sel: Selection, dickinson_rule: str = "equal-area") -> Meth
                 "boundary-uncertain", f"gradual onset (score {conf:.2f}): the heat release may "
                 f"start a reading or two before t_i = {sel.periods.fire_time_s:.6g} s, which "
                 "moves the 60 % time; give the firing time"))
-    return _linear_output(sel, fl, al, rise, propagate_gradient(grad, cov), sigma, rho, dw, f_ar,
-                          cov, t_x, rise_at, T_i, T_f, rule == "equal-area", extra, warns)
+    return _linear_output(sel, fl, al, rise, grad, sigma, rho, dw, f_ar, cov, t_x, rise_at,
+                          T_i, T_f, rule == "equal-area", extra, warns)

@@ -78,6 +78,10 @@ class NewtonFit:
     params: np.ndarray
     covariance: np.ndarray
     sigma_K: float
+    #: The covariance per unit reading variance, (JᵀJ)⁻¹ (K² … per K²).
+    unit_covariance: np.ndarray
+    #: Degrees of freedom of the residual scatter (readings − 4).
+    dof: int
     rho1: float
     durbin_watson: float
     residuals_fore_K: np.ndarray
@@ -236,7 +240,8 @@ def fit_newton(t_fore: np.ndarray, T_fore: np.ndarray, t_after: np.ndarray,
     dw = dsq / rss if rss > 0 else 2.0
     return NewtonFit(
         reference_temperature_K=T_r, fore_t0_s=c_f, after_t0_s=c_a, params=p,
-        covariance=inv / np.outer(scale, scale) * s2, sigma_K=float(np.sqrt(s2)), rho1=rho,
+        covariance=inv / np.outer(scale, scale) * s2, sigma_K=float(np.sqrt(s2)),
+        unit_covariance=inv / np.outer(scale, scale), dof=dof, rho1=rho,
         durbin_watson=dw, residuals_fore_K=rf, residuals_after_K=ra, iterations=it,
     )
 

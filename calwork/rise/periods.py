@@ -57,11 +57,13 @@ from calwork.rise.diagnostics import (
     warning,
 )
 
-__all__ = ["Periods", "detect_periods"]
+__all__ = ["MIN_DRIFT_READINGS", "Periods", "detect_periods", "given_periods"]
 
-#: Readings left out between the fore period and the firing time (guards against an onset
-#: detected one reading late).
+#: Readings left out between the fore period and a detected firing time (guards against an
+#: onset detected one reading late); none when the firing time is given.
 GUARD_READINGS = 2
+#: The fewest readings a drift period may have (a line and its scatter); 10 are recommended.
+MIN_DRIFT_READINGS = 3
 #: Spike threshold (× σ) for the running-median test.
 SPIKE_SIGMA = 8.0
 #: End-confidence scores below this are reported as "boundary-uncertain". The score is the
@@ -223,10 +225,15 @@ def detect_periods(thermogram: Thermogram, *, fire_time_s: float | None = None,
     t_all = thermogram.time_s
     T_all = thermogram.temperature_K
     n_all = t_all.size
+    if fire_time_s is not None and main_end_s is not None and n_all < 3 * MIN_PERIOD_READINGS:
+        return given_periods(thermogram, fire_time_s, main_end_s)
     if n_all < 3 * MIN_PERIOD_READINGS:
-        raise PeriodDetectionError("too few readings to find fore, main and after periods",
-                                   found=n_all, expected=f"at least {3 * MIN_PERIOD_READINGS}",
-                                   **where)
+        raise PeriodDetectionError(
+            "too few readings to find fore, main and after periods: give the firing time "
+            "and the end of the main period (fire_time_s and main_end_s; at least 3 "
+            "readings in each drift period)", found=n_all,
+            expected=f"at least {3 * MIN_PERIOD_READINGS} readings to detect the periods",
+            **where)
     sigma0 = robust_noise_K(T_all)
     Tm = median_filter(T_all, size=5, mode="nearest")
     event = locate_event(t_all, Tm, sigma0, where)
@@ -270,25 +277,28 @@ def detect_periods(thermogram: Thermogram, *, fire_time_s: float | None = None,
     else:
         t_i, fire_source, fire_conf = float(t[j_on - 1]), "detected", conf
     i_f = int(np.searchsorted(t, t_i, side="right")) - 1
-    fore_end = i_f - GUARD_READINGS
-    if fore_end + 1 < 4:
-        fore_end = i_f - (1 if t[i_f] == t_i else 0)
-    if fore_end + 1 < 4:
+    # a detected onset may be a reading late: keep a guard; a given firing time is exact,
+    # and every reading up to it belongs to the fore period
+    fore_end = i_f if fire_source == "given" else i_f - GUARD_READINGS
+    if fore_end + 1 < MIN_DRIFT_READINGS:
+        fore_end = i_f - (1 if t[i_f] == t_i and fire_source != "given" else 0)
+    if fore_end + 1 < MIN_DRIFT_READINGS:
         raise PeriodDetectionError("fore period too short for a drift fit",
                                    found=f"{max(fore_end + 1, 0)} readings before {t_i:.6g} s",
-                                   expected="at least 4 (10 recommended)", **where)
+                                   expected=f"at least {MIN_DRIFT_READINGS} "
+                                   f"({MIN_PERIOD_READINGS} recommended)", **where)
 
     # --- provisional fit on the surely-Newtonian parts, then the plateau tests ---
     lo_after = max(peak, hi if heater_off is None else int(np.searchsorted(t, heater_off)), i_f + 1)
     if main_end_s is not None:
         lo_after = max(i_f + 1, min(lo_after, int(np.searchsorted(t, main_end_s))))
-    if n - lo_after < 4:
+    if n - lo_after < MIN_DRIFT_READINGS:
         raise PeriodDetectionError("after period too short: the record ends during the main "
                                    "period", found=f"{n - lo_after} readings after "
-                                   f"{t[min(lo_after, n - 1)]:.6g} s", expected="at least 4",
-                                   **where)
+                                   f"{t[min(lo_after, n - 1)]:.6g} s",
+                                   expected=f"at least {MIN_DRIFT_READINGS}", **where)
     ref_after = lo_after + max(int(0.4 * (n - lo_after)), 0)
-    ref_after = min(ref_after, n - 4)
+    ref_after = max(lo_after, min(ref_after, n - 4))
     ref_fore = int(0.3 * fore_end)
     if fore_end - ref_fore + 1 < 4:
         ref_fore = max(0, fore_end - 3)
@@ -350,6 +360,47 @@ def detect_periods(thermogram: Thermogram, *, fire_time_s: float | None = None,
             fire_confidence=fire_conf, main_end_confidence=end_conf, main_end_spread_K=spread,
             spikes_s=spike_times, warnings=(*warnings, *periods_warn),
         )
+    except CalworkError as exc:
+        raise exc.with_context(**where) from None
+
+
+def given_periods(thermogram: Thermogram, fire_time_s: float, main_end_s: float) -> Periods:
+    """The periods of a record whose firing time and end of the main period are given: every
+    reading up to the firing is the fore period, every reading from the end of the main
+    period on the after period (sparse and hand-read records, where the detection has too few
+    readings to work with).
+
+    Raises
+    ------
+    PeriodDetectionError
+        The boundaries are outside the record or out of order, or a drift period has fewer
+        than :data:`MIN_DRIFT_READINGS` readings.
+    """
+    where = {"path": thermogram.provenance.source_path}
+    t = thermogram.time_s
+    t_i, t_f = float(fire_time_s), float(main_end_s)
+    if not t[0] <= t_i < t_f <= t[-1]:
+        raise PeriodDetectionError("the firing time and the end of the main period must lie "
+                                   "in the record, in that order", column="main_end_s",
+                                   found=(t_i, t_f), expected=f"{t[0]:.6g} ≤ fire time < end "
+                                   f"≤ {t[-1]:.6g} s", **where)
+    i_f = int(np.searchsorted(t, t_i, side="right")) - 1
+    a0 = int(np.searchsorted(t, t_f, side="left"))
+    n_fore, n_after = i_f + 1, t.size - a0
+    for name, count, column in (("fore", n_fore, "fire_time_s"),
+                                ("after", n_after, "main_end_s")):
+        if count < MIN_DRIFT_READINGS:
+            raise PeriodDetectionError(
+                f"{name} period too short for a drift fit", column=column,
+                found=f"{count} readings", expected=f"at least {MIN_DRIFT_READINGS} "
+                f"({MIN_PERIOD_READINGS} recommended)", **where)
+    try:
+        return Periods(
+            fore_period_s=(float(t[0]), float(t[i_f])), fire_time_s=t_i, main_end_s=t_f,
+            after_period_s=(t_f, float(t[-1])), fire_source="given",
+            main_end_source="given",
+            event_sign=1 if thermogram.temperature_K[-1] >= thermogram.temperature_K[0] else -1,
+            warnings=tuple(_length_warnings(t, 0, i_f, a0, t.size)))
     except CalworkError as exc:
         raise exc.with_context(**where) from None
 

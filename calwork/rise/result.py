@@ -152,6 +152,11 @@ class RiseResult(NewtonianTerms):
     noise_K: float | None = None
     durbin_watson: float | None = None
     rho1: float | None = None
+    #: The step the readings are written to (0.01 K for a record read to 0.01 °C), K, or
+    #: ``None`` when finer than 10 µK or not on a grid.
+    reading_resolution_K: float | None = None
+    #: Degrees of freedom of the drift fits' residual scatter.
+    dof: int | None = None
     uncertainty_budget: Budget = field(
         default_factory=lambda: Budget(quantity="corrected temperature rise", unit="K"))
     cross_check: Mapping[str, float] = field(default_factory=dict)
@@ -210,6 +215,8 @@ class RiseResult(NewtonianTerms):
             "noise_K": self.noise_K,
             "durbin_watson": self.durbin_watson,
             "rho1": self.rho1,
+            "reading_resolution_K": self.reading_resolution_K,
+            "dof": self.dof,
             "uncertainty_budget": dict(self.uncertainty_budget),
             "cross_check": dict(self.cross_check),
             "fore_drift": self.fore_drift.to_dict(),

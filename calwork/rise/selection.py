@@ -17,7 +17,7 @@ from calwork.core.errors import PeriodDetectionError
 from calwork.core.numeric import mean
 from calwork.core.thermogram import Thermogram
 from calwork.rise.drift import trapezoid_K_s, trapezoid_weights_s
-from calwork.rise.periods import Periods
+from calwork.rise.periods import MIN_DRIFT_READINGS, Periods
 from calwork.rise.result import NewtonianTerms
 
 __all__ = ["LineFit", "MethodOutput", "Selection", "fit_line", "select"]
@@ -71,9 +71,10 @@ def select(thermogram: Thermogram, periods: Periods) -> Selection:
     after = (t >= periods.after_period_s[0]) & (t <= periods.after_period_s[1])
     where = {"path": thermogram.provenance.source_path}
     for name, mask in (("fore", fore), ("after", after)):
-        if int(mask.sum()) < 4:
+        if int(mask.sum()) < MIN_DRIFT_READINGS:
             raise PeriodDetectionError(f"{name} period has too few readings for a drift fit",
-                                       found=int(mask.sum()), expected="at least 4", **where)
+                                       found=int(mask.sum()),
+                                       expected=f"at least {MIN_DRIFT_READINGS}", **where)
     if periods.fire_time_s < t[0] or periods.main_end_s > t[-1]:
         raise PeriodDetectionError("main period outside the record",
                                    found=(periods.fire_time_s, periods.main_end_s),
@@ -142,3 +143,8 @@ class MethodOutput(NewtonianTerms):
     warnings: list[str] = field(default_factory=list)
     #: the fitted model (e.g. the NewtonFit), for warm starts of refits
     model: Any = None
+    #: degrees of freedom of the residual scatter ``sigma_K``
+    dof: int = 0
+    #: the fit component per unit reading error (K per K): what independent errors of 1 K in
+    #: every drift-period reading would give (for the reading-resolution component)
+    fit_u_per_sigma_K: float = 0.0
