@@ -84,7 +84,7 @@ def test_a_14_reading_record_gets_a_wider_u_not_a_refusal():
     assert any(w.startswith("few-degrees-of-freedom") for w in result.warnings)
     # every reading up to the given firing time is in the fore period (no guard readings
     # silently left out)
-    assert result.fore_period_s == (0.0, fire)
+    assert result.fore_period_s == (float(times[0]), fire)
 
 
 @pytest.mark.parametrize(("dof", "table"), [(1, 13.97), (2, 4.53), (3, 3.31), (4, 2.87),
