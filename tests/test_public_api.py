@@ -20,10 +20,14 @@ def test_unknown_name_is_an_attribute_error():
         calwork.no_such_name  # noqa: B018
 
 
-@pytest.mark.parametrize(
-    "module",
-    ["calwork", "calwork.core.errors", "calwork.formula", "calwork.core.units"],
-)
+def _modules() -> list[str]:
+    import pkgutil
+
+    return ["calwork", *(m.name for m in pkgutil.walk_packages(calwork.__path__, "calwork."))]
+
+
+@pytest.mark.parametrize("module", _modules())
 def test_doctests(module):
+    """Every example in every docstring of the package runs and shows what it says."""
     failures, _ = doctest.testmod(importlib.import_module(module), verbose=False)
     assert failures == 0

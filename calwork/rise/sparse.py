@@ -44,19 +44,20 @@ _P_2SIGMA = 0.9772498680518208
 
 
 def reading_resolution_K(temperature_K: np.ndarray, unit: str | None) -> float | None:
-    """The step every reading is a multiple of, in the record's unit (``'°C'`` or ``'K'``),
-    K — or ``None`` when the readings are finer than 10 µK or not on a grid (converted from
-    a resistance, say).
+    """The step every reading is a multiple of, in the record's unit (``'C'`` — also written
+    ``'°C'`` — or ``'K'``; the log's ``temperature_unit``), K — or ``None`` when the readings
+    are finer than 10 µK, not on a grid, or in another unit (converted from a resistance, or
+    °F, whose steps are not kelvin-sized).
 
     Examples
     --------
     >>> reading_resolution_K(np.array([295.15, 295.16, 295.19]), "°C")
     0.01
-    >>> reading_resolution_K(np.array([295.1512, 295.1534]), "K")
+    >>> reading_resolution_K(np.array([295.1512, 295.1533]), "K")
     0.0001
     """
     T = np.asarray(temperature_K, dtype=float)
-    if unit == "°C":
+    if unit in ("C", "°C"):
         x = T - 273.15
     elif unit == "K":
         x = T
@@ -80,7 +81,7 @@ def student_factor(dof: int) -> float:
     Examples
     --------
     >>> round(student_factor(2), 3), round(student_factor(10), 3), round(student_factor(400), 4)
-    (2.264, 1.142, 1.0038)
+    (2.263, 1.142, 1.0031)
     """
     from scipy.stats import norm, t
 

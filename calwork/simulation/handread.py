@@ -82,7 +82,7 @@ def hand_read_record(params: CalorimeterParams, heat_inputs, times_s: np.ndarray
     celsius = np.round((noisy - CELSIUS_ZERO_K) / resolution_K) * resolution_K
     reading = celsius + CELSIUS_ZERO_K
     meta = dict(dense.thermogram.metadata)
-    meta.update({"temperature_unit": "°C", "time_unit": "s", "hand_read": "simulated",
+    meta.update({"temperature_unit": "C", "time_unit": "s", "hand_read": "simulated",
                  "resolution_C": f"{resolution_K:g}"})
     thermogram = Thermogram(
         time_s=t, temperature_K=reading, metadata=meta,
