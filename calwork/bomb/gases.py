@@ -143,7 +143,7 @@ def virial_B_m3_per_mol(a: str, b: str, temperature_K: float,
     --------
     Oxygen at 298.15 K: B ≈ −16 cm³/mol (Dymond & Smith compilation, recalled).
 
-    >>> round(virial_B_m3_per_mol("O2", "O2", 298.15)[0] * 1e6, 1)
+    >>> round(float(virial_B_m3_per_mol("O2", "O2", 298.15)[0]) * 1e6, 1)
     -16.2
     """
     key = tuple(sorted((a, b)))

@@ -21,6 +21,7 @@ from typing import Any
 from calwork.bomb.chain import reduce_calibration_run, reduce_combustion_run
 from calwork.bomb.series import calibration_series, formation_enthalpies, sample_series
 from calwork.core.errors import CalworkError, RunError
+from calwork.core.logtime import on_axis_s
 from calwork.core.results import (
     BombRunResult,
     CalibrationResult,
@@ -43,8 +44,9 @@ def _read_and_rise(info: RunInfo, method: str) -> tuple[Any, Any]:
     except CalworkError as exc:
         return exc, None
     try:
-        rise = corrected_rise(tg, method, event=info.event, fire_time_s=info.fire_time_s,
-                              main_end_s=info.main_end_s)
+        rise = corrected_rise(tg, method, event=info.event,
+                              fire_time_s=on_axis_s(info.fire_time_s, tg, column="fire_time_s"),
+                              main_end_s=on_axis_s(info.main_end_s, tg, column="main_end_s"))
     except CalworkError as exc:
         return tg, exc
     return tg, rise

@@ -13,6 +13,7 @@ import numpy as np
 from calwork.cli._common import print_json
 from calwork.core.constants import CELSIUS_ZERO_K
 from calwork.core.errors import ChoiceError, ExportError
+from calwork.core.logtime import describe_time, time_origin
 from calwork.core.thermogram import Thermogram
 from calwork.io.readers import read_log
 from calwork.io.sensors import SENSORS
@@ -107,6 +108,9 @@ def inspect_summary(thermogram: Thermogram) -> dict[str, Any]:
             for name, column in channels.items() if name in thermogram.channels
         },
         "ignored_columns": _json_field(meta, "ignored_columns") or [],
+        "time_origin": time_origin(thermogram.metadata, thermogram.time_s),
+        "first_reading": describe_time(float(thermogram.time_s[0]), thermogram.metadata),
+        "last_reading": describe_time(float(thermogram.time_s[-1]), thermogram.metadata),
         "detected": detected,
         "preamble": preamble,
         "metadata": meta,

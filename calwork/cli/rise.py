@@ -6,6 +6,7 @@ import argparse
 
 from calwork.cli._common import print_json, with_safety_note
 from calwork.core.errors import ChoiceError
+from calwork.core.logtime import on_axis_s, parse_log_time
 from calwork.report.plain import render_text
 from calwork.report.views import rise_document
 from calwork.rise.registry import DICKINSON_RULES, METHODS
@@ -21,7 +22,10 @@ the corrected (adiabatic) temperature rise with its standard uncertainty, the dr
 Methods: newton-fit (default; fore and after periods fitted jointly to Newton's law of
 cooling), regnault-pfaundler, dickinson (--dickinson-rule equal-area, the exact t_x; or
 60-percent, the fuel standards' shortcut — for routine fuel work, not thermochemistry).
---fire-time and --main-end override the detected boundaries (times in s on the log's axis).
+--fire-time and --main-end override the detected boundaries, written as the log writes time:
+seconds on the log's axis (312, 312 s), a time with a unit (5.2 min, 5 min 12 s) or a clock
+time (10:05:00 or 10:05 in a log of times of day; 05:12 as mm:ss in a log of elapsed time).
+`calwork inspect LOG` shows where the log's time zero is; JSON results are always in s.
 A log with several heat events (two firings; a calibration, a reaction and a calibration) is
 refused with the list of its events unless --event N says which one to reduce.
 
@@ -43,10 +47,12 @@ def register(subparsers: argparse._SubParsersAction) -> None:
                    help="temperature-rise method (default newton-fit)")
     p.add_argument("--dickinson-rule", default="equal-area", choices=DICKINSON_RULES,
                    help="t_x rule of the dickinson method (default equal-area)")
-    p.add_argument("--fire-time", type=float, metavar="S",
-                   help="firing / heater-on time, s (overrides detection)")
-    p.add_argument("--main-end", type=float, metavar="S",
-                   help="end of the main period, s (overrides detection)")
+    p.add_argument("--fire-time", metavar="TIME",
+                   help="firing / heater-on time: s, a time with a unit, or a clock time "
+                        "(overrides detection)")
+    p.add_argument("--main-end", metavar="TIME",
+                   help="end of the main period: s, a time with a unit, or a clock time "
+                        "(overrides detection)")
     p.add_argument("--event", type=int, metavar="N",
                    help="for a log with several heat events: reduce event N (1-based)")
     p.add_argument("--time-column", metavar="C", help="header of the time column")
@@ -82,8 +88,12 @@ def run(args: argparse.Namespace) -> int:
         time_unit=args.time_unit, temperature_unit=args.temperature_unit, sensor=args.sensor,
         sensor_coefficients=coefficients, sheet=args.sheet,
     )
-    result = corrected_rise(thermogram, args.method, fire_time_s=args.fire_time,
-                            main_end_s=args.main_end, dickinson_rule=args.dickinson_rule,
+    fire, end = (None if text is None else on_axis_s(parse_log_time(text, column=name),
+                                                     thermogram, column=name)
+                 for text, name in ((args.fire_time, "--fire-time"),
+                                    (args.main_end, "--main-end")))
+    result = corrected_rise(thermogram, args.method, fire_time_s=fire, main_end_s=end,
+                            dickinson_rule=args.dickinson_rule,
                             event=args.event)
     out = result.to_dict()
     if args.plot:

@@ -9,6 +9,7 @@ from pathlib import Path
 from types import MappingProxyType
 
 from calwork.core.errors import RunError
+from calwork.core.logtime import LogTime, parse_log_time
 
 __all__ = [
     "BOMB_KINDS",
@@ -79,8 +80,10 @@ EXTENSION_COLUMNS: dict[str, type] = {
     "fuse_material": str,              # 'iron', 'nickel-chromium', 'platinum', 'cotton'...
     "fuse_mass_g": float,
     "soot_g": float,                   # unburnt carbon found after the run
-    "fire_time_s": float,              # override of the detected firing / start time
-    "main_end_s": float,               # override of the detected end of the main period
+    "fire_time_s": LogTime,            # override of the detected firing / start time
+    "main_end_s": LogTime,             # override of the detected end of the main period
+    #                                    (seconds, a time with a unit or a clock time in the
+    #                                    log's notation: calwork.core.logtime)
     "event": int,                      # which heat event of a multi-event log (1-based)
     "sensor": str,                     # 'pt100', 'pt1000', 'steinhart-hart' for resistance logs
     "hydrogen_mass_fraction": float,   # fuel outputs (net calorific value)
@@ -174,8 +177,10 @@ class RunInfo:
     fuse_material: str | None = None
     fuse_mass_g: float | None = None
     soot_g: float | None = None
-    fire_time_s: float | None = None
-    main_end_s: float | None = None
+    #: seconds on the log's axis, or a clock time (:class:`~calwork.core.logtime.LogTime`)
+    #: that the chain places on the log's axis
+    fire_time_s: float | LogTime | None = None
+    main_end_s: float | LogTime | None = None
     event: int | None = None
     sensor: str | None = None
     hydrogen_mass_fraction: float | None = None
@@ -195,6 +200,10 @@ class RunInfo:
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "extra", MappingProxyType(dict(self.extra)))
+        for name in ("fire_time_s", "main_end_s"):  # a time as written (a stored row, the API)
+            value = getattr(self, name)
+            if isinstance(value, str):
+                object.__setattr__(self, name, parse_log_time(value, column=name))
         # the column rules are checked here, once, however the record was made (sheet, API,
         # an amendment): a broken value becomes a problem of the run, reported, never used
         problems = list(self.problems)

@@ -24,7 +24,9 @@ from calwork.core.errors import (
     LogPathError,
     SheetError,
     UnitError,
+    ValueCellError,
 )
+from calwork.core.logtime import LogTime, parse_log_time
 from calwork.core.runinfo import (
     EXTENSION_COLUMNS,
     RUN_KINDS,
@@ -82,6 +84,15 @@ def _typed(name: str, raw: Any, where: dict[str, Any]) -> Any:
     """The value of one contract/extension cell (``None`` for blank)."""
     if raw is None or (isinstance(raw, str) and not raw.strip()):
         return None
+    if _TYPES[name] is LogTime:
+        try:
+            value = parse_log_time(raw)
+        except ValueCellError as err:
+            raise SheetError(err.message, found=raw, expected=err.expected, **where) from None
+        if isinstance(value, float) and value < 0:
+            raise SheetError("a time on the log's axis must not be negative", found=raw,
+                             expected="seconds ≥ 0 or a clock time", **where)
+        return value
     if _TYPES[name] is float:
         value = _number(raw, where)
         broken = column_problem(name, value)

@@ -248,6 +248,9 @@ def log_summary_document(summary: Mapping[str, Any]) -> Document:
               if d.get(k)]
     lines.append(f"readings: {summary['points']} (lines {summary['first_row']}–"
                  f"{summary['last_row']})")
+    if summary.get("time_origin"):
+        lines.append(f"time axis: {summary['time_origin']}; last reading "
+                     f"{summary['last_reading']}")
     lines.append(
         f"time span: {summary['time_span_s']:.3f} s; sampling interval "
         f"{summary['sampling_interval_s']:.4g} s (min {summary['sampling_interval_min_s']:.4g}, "

@@ -43,6 +43,7 @@ from typing import Any
 import numpy as np
 
 from calwork.core.errors import CalibrationError, CalworkError, RunError
+from calwork.core.logtime import on_axis_s
 from calwork.core.provenance import Provenance
 from calwork.core.results import (
     CalibrationResult,
@@ -338,7 +339,8 @@ def reduce_solution_runs(
                 tg, method=method, heater_power_W_sheet=info.heater_power_W,
                 heater_on_s=info.heater_on_s, heater_off_s=info.heater_off_s,
                 standard_resistor_ohm=info.standard_resistor_ohm,
-                fire_time_s=info.fire_time_s, main_end_s=info.main_end_s,
+                fire_time_s=on_axis_s(info.fire_time_s, tg, column="fire_time_s"),
+                main_end_s=on_axis_s(info.main_end_s, tg, column="main_end_s"),
                 expect_reaction=info.kind != "electrical", options=opts,
                 rises=None if rises is None else rises.get(info.run)), tg)
         except CalworkError as exc:
