@@ -214,7 +214,31 @@ def build_sample_runs(out_dir: str | Path, *, seed: int = 20260302) -> Path:
     write_run_sheet(rows, sheet)
     write_network_file(out / "network.csv", seed=seed + 2)
     _write_kcl_cycle(sheet, out / "kcl_cycle.toml")
+    write_hand_read_example(out / "hand_read_BA-09.csv", seed=seed + 3)
     return sheet
+
+
+def write_hand_read_example(path: str | Path, *, seed: int = 20260305) -> Path:
+    """A benzoic-acid calibration read by hand (simulated): each minute before firing and
+    after the main period, each 30 s in it, to 0.001 °C, in the transcription format."""
+    from calwork.io.handread import write_hand_record
+    from calwork.simulation import CalorimeterParams, CombustionPulse
+    from calwork.simulation.handread import hand_read_record, reading_times_s
+
+    params = CalorimeterParams.bomb_preset(bomb_water_conductance_W_per_K=None)
+    fire, length = 300.0, 480.0
+    times = reading_times_s(fire_time_s=fire, fore_readings=6, main_length_s=length,
+                            after_readings=6, drift_interval_s=60.0, main_interval_s=30.0)
+    run = hand_read_record(params, CombustionPulse(energy_J=26434.0 * 0.9981, fire_time_s=fire),
+                           times, resolution_K=0.001, reading_noise_K=0.0003, seed=seed)
+    return write_hand_record(
+        run.thermogram, path, clock_start_s=9 * 3600 + 40 * 60, fire_time_s=fire,
+        main_end_s=fire + length, resolution_C=0.001,
+        preamble={"lab": _LAB, "calorimeter": "bomb-1", "sample": "benzoic acid, 0.9981 g",
+                  "operator": "R. Quist (fictional)", "data": "SIMULATED by calwork's simulator "
+                  "(invented data, not a measurement)",
+                  "true_adiabatic_rise_K": f"{run.truth.adiabatic_rise_K:.6f}"},
+        remarks={fire + length + 180.0: "stirrer checked"})
 
 
 def _write_kcl_cycle(sheet: Path, path: Path) -> Path:

@@ -26,7 +26,7 @@ from typing import Any
 from calwork.core.errors import ValueCellError
 
 __all__ = ["LogTime", "describe_time", "log_time_s", "on_axis_s", "parse_log_time",
-           "time_origin"]
+           "seconds_of", "time_origin"]
 
 _NUMBER = r"[-+]?\d+(?:\.\d*)?(?:[eE][-+]?\d+)?"
 _WITH_UNIT = re.compile(rf"({_NUMBER})\s*(s|sec|min|h)?")
@@ -130,12 +130,12 @@ def log_time_s(value: float | LogTime | None, metadata: dict[str, Any] | Any, ti
     t0, t1 = float(time_s[0]), float(time_s[-1])
     where = {"column": column, "path": path}
     if isinstance(value, LogTime):
-        h, m, s = value.parts
+        h, _, s = value.parts
         if unit in _TIMES_OF_DAY or unit == "iso":
             if h is None and s != int(s):
                 raise ValueCellError("a two-part time of day is hh:mm", found=value.text,
                                      expected="hh:mm or hh:mm:ss", **where)
-            of_day = 3600.0 * m + 60.0 * s if h is None else 3600.0 * h + 60.0 * m + s
+            of_day = seconds_of(value, times_of_day=True)
             if unit == "iso":
                 start = _start(metadata, value, where)
                 of_day -= (start.hour * 3600.0 + start.minute * 60.0 + start.second
@@ -145,7 +145,7 @@ def log_time_s(value: float | LogTime | None, metadata: dict[str, Any] | Any, ti
             inside = [of_day + 86400.0 * d for d in days if t0 <= of_day + 86400.0 * d <= t1]
             out = inside[0] if inside else of_day
         else:
-            out = 3600.0 * (h or 0) + 60.0 * m + s
+            out = seconds_of(value, times_of_day=False)
     else:
         out = float(value)
     if not t0 <= out <= t1:
@@ -154,6 +154,23 @@ def log_time_s(value: float | LogTime | None, metadata: dict[str, Any] | Any, ti
             expected=f"between the first and the last reading, {describe_time(t0, metadata)} "
                      f"and {describe_time(t1, metadata)} ({t0:.6g}–{t1:.6g} s)", **where)
     return out
+
+
+def seconds_of(value: LogTime, *, times_of_day: bool) -> float:
+    """The seconds a clock time stands for: from midnight for a time of day (two parts are
+    hh:mm), else elapsed (two parts are mm:ss).
+
+    Examples
+    --------
+    >>> seconds_of(parse_log_time("10:05"), times_of_day=True)
+    36300.0
+    >>> seconds_of(parse_log_time("10:05"), times_of_day=False)
+    605.0
+    """
+    h, m, s = value.parts
+    if h is None:
+        return 3600.0 * m + 60.0 * s if times_of_day else 60.0 * m + s
+    return 3600.0 * h + 60.0 * m + s
 
 
 def _start(metadata: Any, value: LogTime, where: dict) -> datetime:

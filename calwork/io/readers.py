@@ -14,7 +14,8 @@ object with
 
 :func:`read_log` (through :func:`read_with_registered_reader`) offers the file to the readers
 registered with :func:`register_log_reader` (latest first), then to the built-in ones: the
-workbook reader, then the delimited-text reader, which takes any file and says precisely what
+workbook reader, the reader of hand-read records (:mod:`calwork.io.handread`), then the
+delimited-text reader, which takes any file and says precisely what
 it cannot read. Whatever reader is used, the thermogram's provenance names the file, its
 SHA-256 and the reader. DEVELOPERS.md has a worked example of an importer.
 """
@@ -32,6 +33,7 @@ from calwork.core.errors import CalworkError, LogFormatError
 from calwork.core.provenance import calwork_version
 from calwork.core.thermogram import Thermogram
 from calwork.io._text import read_file_bytes
+from calwork.io.handread import HandReadReader
 from calwork.io.logs import DelimitedTextReader, LogOptions, WorkbookReader
 
 __all__ = [
@@ -63,7 +65,7 @@ class LogReader(Protocol):
              sha256: str) -> Thermogram: ...
 
 
-_BUILT_IN: tuple[LogReader, ...] = (WorkbookReader(), DelimitedTextReader())
+_BUILT_IN: tuple[LogReader, ...] = (WorkbookReader(), HandReadReader(), DelimitedTextReader())
 _REGISTERED: list[LogReader] = []
 
 

@@ -159,6 +159,13 @@ def _tail_component(sel: Selection, out: MethodOutput, periods: Periods,
     return b if math.isfinite(b) and b > 0.0 else None
 
 
+def _from_record(thermogram: Thermogram, key: str, given: float | None) -> float | None:
+    """A boundary the record itself marks (a hand-read record's remark), unless given."""
+    if given is not None or key not in thermogram.metadata:
+        return given
+    return float(thermogram.metadata[key])
+
+
 def _small_sample_parts(thermogram: Thermogram, sel: Selection, out: MethodOutput,
                         budget: dict[str, float], warns: list[str]) -> float | None:
     """Student's t on the scatter-based components, the reading resolution and the
@@ -177,8 +184,9 @@ def _small_sample_parts(thermogram: Thermogram, sel: Selection, out: MethodOutpu
         warns.append(warning("few-degrees-of-freedom", f"the drift fits rest on {out.dof} "
                              "degrees of freedom: their scatter-based uncertainty is stated "
                              f"{factor:.3g} times wider (Student's t)"))
-    resolution = reading_resolution_K(thermogram.temperature_K,
-                                      thermogram.metadata.get("temperature_unit"))
+    written = thermogram.metadata.get("reading_resolution")  # as the record wrote it
+    resolution = float(written) if written else reading_resolution_K(
+        thermogram.temperature_K, thermogram.metadata.get("temperature_unit"))
     if resolution is not None and resolution / math.sqrt(12.0) > out.sigma_K:
         budget["reading-resolution"] = resolution_component_K(
             resolution, out.fit_u_per_sigma_K, out.k_per_s, sel.main_weights_sq_s2())
@@ -304,6 +312,9 @@ def corrected_rise(thermogram: Thermogram, method: str = "newton-fit",
             ev = found.events[chosen - 1]
             thermogram = thermogram.window(ev.window_start_s, ev.window_end_s)
             events = tuple(_event_summary(e) for e in found.events)
+    if periods is None:  # a hand-read record's remarks ('fired', 'end of main period')
+        fire_time_s = _from_record(thermogram, "record_fire_time_s", fire_time_s)
+        main_end_s = _from_record(thermogram, "record_main_end_s", main_end_s)
     periods = _apply_overrides(thermogram, periods, fire_time_s, main_end_s)
     sel = select(thermogram, periods)
     options = {"dickinson_rule": dickinson_rule} if "dickinson_rule" in spec.options else {}
