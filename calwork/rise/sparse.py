@@ -2,7 +2,7 @@
 
 Hand-read and other sparse records (a reading each minute before and after the main period,
 each 15 or 30 s during it, read to 0.01 °C or 0.001 °C) carry three effects that a dense
-logger record hides (docs/methods.md §1.10):
+logger record hides (docs/methods.md §1.12):
 
 * **few degrees of freedom** — the scatter of a drift fit from a handful of readings is
   itself uncertain: the scatter-based components are multiplied by
