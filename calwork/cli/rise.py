@@ -8,7 +8,7 @@ from calwork.cli._common import print_json, with_safety_note
 from calwork.core.errors import ChoiceError
 from calwork.core.logtime import on_axis_s, parse_log_time
 from calwork.report.plain import render_text
-from calwork.report.views import rise_document
+from calwork.report.views import manual_rise_document, rise_document
 from calwork.rise.registry import DICKINSON_RULES, METHODS
 
 __all__ = ["register", "run"]
@@ -26,6 +26,8 @@ cooling), regnault-pfaundler, dickinson (--dickinson-rule equal-area, the exact 
 seconds on the log's axis (312, 312 s), a time with a unit (5.2 min, 5 min 12 s) or a clock
 time (10:05:00 or 10:05 in a log of times of day; 05:12 as mm:ss in a log of elapsed time).
 `calwork inspect LOG` shows where the log's time zero is; JSON results are always in s.
+--procedure works the rise again by a standard's manual procedure with the same periods,
+step by step, beside calwork's estimate (iso-1928, astm-60-percent; docs/methods.md §1.13).
 A log with several heat events (two firings; a calibration, a reaction and a calibration) is
 refused with the list of its events unless --event N says which one to reduce.
 
@@ -53,6 +55,11 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     p.add_argument("--main-end", metavar="TIME",
                    help="end of the main period: s, a time with a unit, or a clock time "
                         "(overrides detection)")
+    p.add_argument("--procedure", choices=sorted(p for m in METHODS.values()
+                                                 for p in m.manual_procedures),
+                   help="also work the corrected rise by a standard's manual procedure, step "
+                        "by step (iso-1928: the Regnault–Pfaundler hand form; astm-60-percent: "
+                        "the 60 %% point with 5-min rates), beside calwork's estimate")
     p.add_argument("--event", type=int, metavar="N",
                    help="for a log with several heat events: reduce event N (1-based)")
     p.add_argument("--time-column", metavar="C", help="header of the time column")
@@ -96,12 +103,25 @@ def run(args: argparse.Namespace) -> int:
                             dickinson_rule=args.dickinson_rule,
                             event=args.event)
     out = result.to_dict()
+    manual = None
+    if args.procedure:
+        from dataclasses import replace
+
+        from calwork.rise.manual import manual_rise
+
+        manual = replace(manual_rise(thermogram, args.procedure, fire_time_s=result.fire_time_s,
+                                     main_end_s=result.main_end_s, best_estimate=False),
+                         best_estimate=result)
+        out["manual"] = manual.to_dict()
     if args.plot:
         out["plot"] = str(plot_rise(thermogram, result, args.plot))
     if args.json:
         print_json(out)
     else:
         print(render_text(rise_document(result)), end="")
+        if manual is not None:
+            print()
+            print(render_text(manual_rise_document(manual)), end="")
         if args.plot:
             print(f"plot written to {out['plot']}")
     return 0

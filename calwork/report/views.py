@@ -27,6 +27,7 @@ __all__ = [
     "labbook_list_document",
     "labbook_run_document",
     "log_summary_document",
+    "manual_rise_document",
     "network_document",
     "network_result_document",
     "periods_document",
@@ -99,6 +100,26 @@ def periods_document(periods: Any) -> Document:
         sec.blocks.append(Paragraph(f"reading noise {p.noise_K * 1e3:.4g} mK"))
     sec.blocks += [Paragraph(w, "warning") for w in p.warnings]
     return _doc("Periods", sec)
+
+
+def manual_rise_document(manual: Any) -> Document:
+    """A manual procedure's worked calculation (:class:`calwork.rise.manual.ManualRise`) and
+    calwork's best estimate beside it."""
+    sec = Section(manual.title, "manual", [Table(
+        ["step", "worked", "value", "unit"],
+        [[s.label, s.expression, f"{s.value:.7g}", s.unit] for s in manual.steps])])
+    sec.blocks.append(Paragraph(
+        f"corrected rise by {manual.procedure}: {manual.corrected_rise_K:.6f} K"))
+    best = manual.best_estimate
+    if best is not None:
+        diff = manual.corrected_rise_K - best.corrected_rise_K
+        sec.blocks.append(Paragraph(
+            f"calwork's best estimate ({best.method}, same periods): "
+            f"{best.corrected_rise_K:.6f} ± {best.u_corrected_rise_K:.2g} K (u, k = 1); the "
+            f"manual value differs by {diff * 1e3:+.3g} mK "
+            f"({diff / best.u_corrected_rise_K:+.2f} u)"))
+    sec.blocks += [Paragraph(n, "note") for n in manual.notes]
+    return _doc(manual.title, sec)
 
 
 # --- Hess's law -------------------------------------------------------------------------------
@@ -461,6 +482,7 @@ def network_result_document(result: Any) -> Document:
 #: module imports none of the stages).
 _VIEWS = {
     "RiseResult": rise_document,
+    "ManualRise": manual_rise_document,
     "Periods": periods_document,
     "NetworkResult": network_result_document,
     "DerivedEnthalpy": derived_enthalpy_document,

@@ -38,6 +38,8 @@ _WHERE = {
     "exchange_from_drift_K": "drift",
     "find_events": "events",
     "list_heat_events": "events",
+    "MANUAL_PROCEDURES": "manual",
+    "manual_rise": "manual",
     "newton_constants_from_drifts": "drift",
     "plot_rise": "plot",
     "regnault_pfaundler_exchange_K": "regnault_pfaundler",

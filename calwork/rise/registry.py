@@ -58,6 +58,9 @@ class RiseMethod:
     check
         ``"module:function"`` or ``None``: ``function(selection) -> (rise, u)``, this method's
         rise and standard uncertainty when another method uses it as a cross-check.
+    manual_procedures
+        The standards' manual forms of this method (:mod:`calwork.rise.manual`), worked step
+        by step with their own period and rounding rules.
     """
 
     name: str
@@ -68,6 +71,7 @@ class RiseMethod:
     options: Mapping[str, tuple[str, ...]] = field(default_factory=dict)
     cross_checks: tuple[str, ...] = ()
     check: str | None = None
+    manual_procedures: tuple[str, ...] = ()
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "options", MappingProxyType(dict(self.options)))
@@ -115,6 +119,7 @@ METHODS: Mapping[str, RiseMethod] = MappingProxyType({m.name: m for m in (
         summary="Regnault–Pfaundler: drift linear in temperature, integrated over the readings",
         reducer="calwork.rise.methods:reduce_regnault_pfaundler",
         check="calwork.rise.methods:regnault_pfaundler_check",
+        manual_procedures=("iso-1928",),
     ),
     RiseMethod(
         name="dickinson",
@@ -122,6 +127,7 @@ METHODS: Mapping[str, RiseMethod] = MappingProxyType({m.name: m for m in (
         summary="Dickinson: drift lines extrapolated to the time t_x",
         reducer="calwork.rise.methods:reduce_dickinson",
         options={"dickinson_rule": DICKINSON_RULES},
+        manual_procedures=("astm-60-percent",),
     ),
 )})
 
