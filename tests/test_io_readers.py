@@ -71,7 +71,8 @@ def test_files_it_does_not_claim_go_to_the_built_in_readers(fixed_width, tmp_pat
                                                          for i in range(20)))
     tg = read_log(other)
     assert tg.provenance.importer == "calwork.io.read_log"
-    assert [r.name for r in log_readers()][-2:] == ["xlsx workbook", "delimited text"]
+    assert [r.name for r in log_readers()][-3:] == ["xlsx workbook", "hand-read record",
+                                                    "delimited text"]
 
 
 def test_registration_is_checked():

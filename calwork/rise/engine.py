@@ -39,7 +39,13 @@ from calwork.core.errors import (
 from calwork.core.provenance import Provenance, calwork_version
 from calwork.core.thermogram import Thermogram
 from calwork.core.uncertainty import Budget, root_sum_square
-from calwork.rise.diagnostics import format_times, sampling_gaps, warning
+from calwork.rise.diagnostics import (
+    MIN_PERIOD_READINGS,
+    MIN_PERIOD_S,
+    format_times,
+    sampling_gaps,
+    warning,
+)
 from calwork.rise.events import LogEvent, LogEvents, list_heat_events
 from calwork.rise.periods import Periods, detect_periods
 from calwork.rise.registry import DICKINSON_RULES, METHODS, RiseMethod, rise_method
@@ -66,6 +72,9 @@ NOISE_RELATIVE_LIMIT = 1e-3
 
 #: Readings by which the after period is shortened to measure the boundary-choice spread.
 BOUNDARY_SHIFT_READINGS = 16
+#: A detected end of the main period is moved to where a slow transient has fallen to this
+#: fraction of the rise (1 ppm: far below the uncertainty of any rise; derived).
+END_TAIL_FRACTION = 1e-6
 #: The budget components computed from the drift fits' residual scatter (Student's t).
 _SCATTER_COMPONENTS = ("fit", "main-period-readings")
 #: Student factor above which the widening is named in a warning (about ν < 20).
@@ -137,7 +146,7 @@ def _boundary_component(thermogram: Thermogram, sel: Selection, out: MethodOutpu
 
 
 def _tail_component(sel: Selection, out: MethodOutput, periods: Periods,
-                    rerun) -> float | None:
+                    rerun, tail: tuple[float, float, float] | None = None) -> float | None:
     """One-sided bias of ``ΔT_c`` from a slow transient still decaying after ``t_f``.
 
     The tail is fitted on the late main period (:func:`calwork.rise.tail.tail_model`), removed
@@ -147,7 +156,8 @@ def _tail_component(sel: Selection, out: MethodOutput, periods: Periods,
     (two-body bomb calorimeter, t_f ≈ 14 τ after firing: bias ≈ 1 u; derived from simulation,
     tests/test_review_rise_twobody_tail.py).
     """
-    tail = tail_model(sel, out.k_per_s, out.T_inf_K, periods.event_sign, out.sigma_K)
+    if tail is None:  # (the tail found when the end was placed is the record's own)
+        tail = tail_model(sel, out.k_per_s, out.T_inf_K, periods.event_sign, out.sigma_K)
     if tail is None:
         return None
     sub = tail_correction(sel, *tail)
@@ -157,6 +167,51 @@ def _tail_component(sel: Selection, out: MethodOutput, periods: Periods,
         return None
     b = abs(again - out.rise_K)
     return b if math.isfinite(b) and b > 0.0 else None
+
+
+def _end_past_the_tail(thermogram: Thermogram, sel: Selection, out: MethodOutput,
+                       periods: Periods, reduce, tail: tuple[float, float, float] | None,
+                       warns: list[str]) -> tuple[Periods, Selection, MethodOutput] | None:
+    """A detected end of the main period moved to where a slow transient has died away.
+
+    The plateau test ends the main period once the record no longer departs from the
+    Newtonian drift beyond the noise; a slow transient (two-body calorimeter) may still be
+    decaying there, below the noise of single readings but not of the after-period fit. When
+    the tail model (:func:`calwork.rise.tail.tail_model`) finds one, the end is moved to where
+    it has fallen to :data:`END_TAIL_FRACTION` of the rise — if the record leaves an after
+    period of :data:`~calwork.rise.diagnostics.MIN_PERIOD_S` beyond it; otherwise to the
+    latest end that does, with a warning naming the time to check.
+    """
+    if tail is None:
+        return None
+    amplitude, tau, t_a = tail
+    target = t_a + tau * math.log(abs(amplitude) / (END_TAIL_FRACTION * abs(out.rise_K)))
+    if target <= sel.t_f:
+        return None
+    t = sel.t
+    latest_i = int(np.searchsorted(t, t[-1] - MIN_PERIOD_S, side="right")) - 1
+    latest_i = min(latest_i, t.size - MIN_PERIOD_READINGS)
+    if latest_i < 0 or t[latest_i] <= sel.t_f:
+        latest_i = int(np.searchsorted(t, sel.t_f))
+    i = int(np.searchsorted(t, target))
+    if i > latest_i:
+        left = abs(amplitude) * math.exp(-(float(t[latest_i]) - t_a) / tau) / abs(out.rise_K)
+        warns.append(warning(
+            "main-end-unconfirmed", "a slow transient (τ ≈ "
+            f"{tau:.3g} s) is still {left * 1e6:.3g} ppm of the rise at {t[latest_i]:.6g} s, "
+            "the latest end that leaves an after period; check the end of the main period "
+            f"near {target:.6g} s or record a longer after period"))
+        i = latest_i
+    new_end = float(t[i])
+    if new_end <= sel.t_f:
+        return None
+    moved = replace(periods, main_end_s=new_end,
+                    after_period_s=(new_end, periods.after_period_s[1]))
+    try:
+        sub = select(thermogram, moved)
+        return moved, sub, reduce(sub, out)
+    except CalworkError:
+        return None
 
 
 def _from_record(thermogram: Thermogram, key: str, given: float | None) -> float | None:
@@ -318,16 +373,24 @@ def corrected_rise(thermogram: Thermogram, method: str = "newton-fit",
     periods = _apply_overrides(thermogram, periods, fire_time_s, main_end_s)
     sel = select(thermogram, periods)
     options = {"dickinson_rule": dickinson_rule} if "dickinson_rule" in spec.options else {}
-    out = spec.reduce_function(**options)(sel)
+    reduce = spec.reduce_function(**options)
+    out = reduce(sel)
+    component_warnings: list[str] = []
+    tail = None
+    if periods.main_end_source == "detected":
+        tail = tail_model(sel, out.k_per_s, out.T_inf_K, periods.event_sign, out.sigma_K)
+        moved = _end_past_the_tail(thermogram, sel, out, periods, reduce, tail,
+                                   component_warnings)
+        if moved is not None:
+            periods, sel, out = moved
     rerun = spec.rerun_function(**options)
     budget = dict(out.budget)
-    component_warnings: list[str] = []
     boundary = _boundary_component(thermogram, sel, out, periods, rerun, component_warnings)
     if boundary is not None:
         budget["boundary"] = boundary
-    tail = _tail_component(sel, out, periods, rerun)
-    if tail is not None:
-        budget["transient-tail"] = tail
+    tail_u = _tail_component(sel, out, periods, rerun, tail)
+    if tail_u is not None:
+        budget["transient-tail"] = tail_u
     resolution = _small_sample_parts(thermogram, sel, out, budget, component_warnings)
     try:
         u = root_sum_square(budget, name="the corrected rise", allow_zero=False)

@@ -61,10 +61,12 @@ def _equivalent_tx(fore: DriftCurve, after: DriftCurve, rise: float, t_i: float,
 def reduce_newton(sel: Selection, start: Any = None) -> MethodOutput:
     """newton-fit: joint Newtonian fit of fore and after periods (§1.6b), exchange integral
     over the main-period readings, end points from the fitted curves. ``start``: the
-    :class:`~calwork.rise.newton.NewtonFit` of nearly the same periods to start from."""
+    :class:`~calwork.rise.newton.NewtonFit` of nearly the same periods to start from (the fit
+    is then iterated to convergence from there)."""
     t, T = sel.t, sel.T
     try:
-        fit = fit_newton(t[sel.fore], T[sel.fore], t[sel.after], T[sel.after], start=start)
+        fit = fit_newton(t[sel.fore], T[sel.fore], t[sel.after], T[sel.after], start=start,
+                         converge=True)
     except FitError as exc:
         raise exc.with_context(path=sel.source_path) from None
     f_ar = ar1_inflation(fit.rho1)

@@ -138,7 +138,7 @@ class NewtonFit:
 
 def fit_newton(t_fore: np.ndarray, T_fore: np.ndarray, t_after: np.ndarray,
                T_after: np.ndarray, *, max_iterations: int = 30,
-               start: NewtonFit | None = None) -> NewtonFit:
+               start: NewtonFit | None = None, converge: bool = False) -> NewtonFit:
     """Fit fore and after readings jointly to Newton's law (shared ``k`` and ``T_∞``).
 
     Parameters
@@ -153,6 +153,9 @@ def fit_newton(t_fore: np.ndarray, T_fore: np.ndarray, t_after: np.ndarray,
         A fit of nearly the same readings (same reference temperature and period means
         within a few readings) to start from: one Gauss–Newton step is then taken, which is
         converged to far below the parameters' uncertainty for a model this close to linear.
+    converge
+        With ``start``: iterate to the same convergence test as a fit from scratch (for a
+        result that is reported, not only compared), usually in one or two steps.
 
     Returns
     -------
@@ -187,7 +190,8 @@ def fit_newton(t_fore: np.ndarray, T_fore: np.ndarray, t_after: np.ndarray,
         # move the integration constants to the new period means along the fitted curves
         p[0] = float(start.theta(c_f, "fore")[0])
         p[1] = float(start.theta(c_a, "after")[0])
-        max_iterations = 1
+        if not converge:
+            max_iterations = 1
     tau = np.concatenate([t_fore - c_f, t_after - c_a])
     y = np.concatenate([T_fore, T_after]) - T_r
     J = np.zeros((n, 4))
@@ -220,7 +224,8 @@ def fit_newton(t_fore: np.ndarray, T_fore: np.ndarray, t_after: np.ndarray,
             raise FitError("the Newtonian fit is numerically singular (a parameter variance is "
                            "not positive)")
         sd = np.sqrt(diag * rss / max(n - 4, 1)) / scale
-        if start is not None or rss == 0.0 or np.all(np.abs(step) <= 1e-3 * sd):
+        if (start is not None and not converge) or rss == 0.0 or np.all(
+                np.abs(step) <= 1e-3 * sd):
             converged = True
             break
     if not converged or not np.all(np.isfinite(p)):

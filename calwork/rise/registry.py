@@ -61,6 +61,9 @@ class RiseMethod:
     manual_procedures
         The standards' manual forms of this method (:mod:`calwork.rise.manual`), worked step
         by step with their own period and rounding rules.
+    warm_start
+        The reducer accepts ``start=`` (the model of a previous output for nearly the same
+        periods) and converges from there — for a refit after a boundary moved.
     """
 
     name: str
@@ -72,17 +75,23 @@ class RiseMethod:
     cross_checks: tuple[str, ...] = ()
     check: str | None = None
     manual_procedures: tuple[str, ...] = ()
+    warm_start: bool = False
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "options", MappingProxyType(dict(self.options)))
 
-    def reduce_function(self, **options: str) -> Callable[[Any], Any]:
-        """``selection -> MethodOutput`` with the given options (unknown ones are refused)."""
+    def reduce_function(self, **options: str) -> Callable[..., Any]:
+        """``(selection, previous=None) -> MethodOutput`` with the given options (unknown ones
+        are refused); a ``previous`` output warm-starts a method that can use it."""
         unknown = set(options) - set(self.options)
         if unknown:
             raise TypeError(f"method {self.name!r} takes no option {sorted(unknown)}")
         function = _resolve(self.reducer)
-        return lambda selection: function(selection, **options)
+        if self.warm_start:
+            return lambda selection, previous=None: function(
+                selection, **options,
+                **({} if previous is None else {"start": previous.model}))
+        return lambda selection, previous=None: function(selection, **options)
 
     def rerun_function(self, **options: str) -> Callable[[Any, Any], float]:
         """``(selection, previous MethodOutput) -> rise`` for moved boundaries."""
@@ -112,6 +121,7 @@ METHODS: Mapping[str, RiseMethod] = MappingProxyType({m.name: m for m in (
         reducer="calwork.rise.methods:reduce_newton",
         rerun="calwork.rise.methods:newton_rise_only",
         cross_checks=("regnault-pfaundler",),
+        warm_start=True,
     ),
     RiseMethod(
         name="regnault-pfaundler",
