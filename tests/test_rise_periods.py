@@ -137,6 +137,9 @@ def test_no_event_and_too_short_records_raise():
     with pytest.raises(PeriodDetectionError, match=r"after period too short|too few"):
         corrected_rise(cut)
     with pytest.raises(PeriodDetectionError, match="too few readings"):
+        detect_periods(Thermogram(time_s=t[:11], temperature_K=298.0 + 0 * t[:11]))
+    # from 12 readings the sparse rules look for an event, and a flat record has none
+    with pytest.raises(PeriodDetectionError, match="no heat event"):
         detect_periods(Thermogram(time_s=t[:12], temperature_K=298.0 + 0 * t[:12]))
 
 

@@ -147,5 +147,62 @@ def test_too_few_readings_say_what_to_give():
     with pytest.raises(PeriodDetectionError, match="fore period too short") as err:
         corrected_rise(run.thermogram, fire_time_s=fire, main_end_s=fire + 300.0)
     assert "2 readings" in str(err.value)
+    # detected, the two fore readings cannot show a drift either: the message says what to give
+    with pytest.raises(PeriodDetectionError, match="give fire_time_s"):
+        corrected_rise(run.thermogram)
+    # eleven readings are too few to detect anything
+    eleven = reading_times_s(fire_time_s=180.0, fore_readings=4, main_length_s=240.0,
+                             after_readings=3, drift_interval_s=60.0, main_interval_s=60.0)
+    assert eleven.size == 11
+    short = hand_read_record(PARAMS, CombustionPulse(energy_J=ENERGY_J, fire_time_s=180.0),
+                             eleven, resolution_K=0.01, seed=0)
     with pytest.raises(PeriodDetectionError, match="give the firing time and the end"):
+        corrected_rise(short.thermogram)
+
+
+#: main-period lengths (s) per scheme for detection tests: 12–29 readings
+DETECT_LENGTHS = {"1 min": (300.0, 540.0), "30 s": (240.0, 360.0), "15 s": (180.0, 240.0)}
+
+
+@pytest.mark.parametrize("scheme", list(HAND_READ_SCHEMES))
+def test_sparse_periods_are_detected_from_12_readings(scheme):
+    """No boundary given: 200 records per scheme with 12–29 readings; the firing is found at
+    the right reading, and |error| ≤ 2u for at least 90 %."""
+    drift, main = HAND_READ_SCHEMES[scheme]
+    covered = total = 0
+    for seed in range(200):
+        rng = np.random.default_rng(seed)
+        n_fore, n_after = int(rng.integers(3, 7)), int(rng.integers(4, 7))
+        length = float(rng.choice(np.arange(*DETECT_LENGTHS[scheme], 60.0)))
+        resolution = 0.01 if seed % 2 == 0 else 0.001
+        fire = 60.0 * (n_fore + 1)
+        times = reading_times_s(fire_time_s=fire, fore_readings=n_fore, main_length_s=length,
+                                after_readings=n_after, drift_interval_s=drift,
+                                main_interval_s=main)
+        if not 12 <= times.size <= 29:
+            continue
+        run = hand_read_record(PARAMS, CombustionPulse(energy_J=ENERGY_J, fire_time_s=fire),
+                               times, resolution_K=resolution,
+                               reading_noise_K=0.3 * resolution, seed=seed)
+        result = corrected_rise(run.thermogram)
+        assert result.fire_time_s == fire
+        assert result.periods.main_end_source == "detected"
+        total += 1
+        covered += abs(result.corrected_rise_K - run.truth.adiabatic_rise_K) <= (
+            2 * result.u_corrected_rise_K)
+    assert total >= 150
+    assert covered / total >= 0.90
+
+
+def test_a_sparse_record_still_rising_gets_no_early_end():
+    """The record stops while the readings still curve towards the maximum (a slow release):
+    the end is not put there; the user is told to give it."""
+    from calwork.simulation import FirstOrderRelease
+
+    fire = 180.0
+    times = reading_times_s(fire_time_s=fire, fore_readings=4, main_length_s=420.0,
+                            after_readings=3, drift_interval_s=60.0, main_interval_s=60.0)
+    slow = FirstOrderRelease(energy_J=ENERGY_J, start_s=fire, time_constant_s=200.0)
+    run = hand_read_record(PARAMS, slow, times, resolution_K=0.001, seed=2)
+    with pytest.raises(PeriodDetectionError, match="still curve"):
         corrected_rise(run.thermogram)

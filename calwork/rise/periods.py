@@ -57,13 +57,20 @@ from calwork.rise.diagnostics import (
     warning,
 )
 
-__all__ = ["MIN_DRIFT_READINGS", "Periods", "detect_periods", "given_periods"]
+__all__ = ["MIN_DRIFT_READINGS", "Periods", "detect_periods", "given_periods",
+           "sparse_periods"]
 
 #: Readings left out between the fore period and a detected firing time (guards against an
 #: onset detected one reading late); none when the firing time is given.
 GUARD_READINGS = 2
 #: The fewest readings a drift period may have (a line and its scatter); 10 are recommended.
 MIN_DRIFT_READINGS = 3
+#: The fewest readings from which the periods of a sparse record are detected.
+SPARSE_MIN_READINGS = 12
+#: A sparse record's drift is "constant" when a straight line through the remaining readings
+#: leaves no residual beyond this many reading errors (the resolution's half-step or the
+#: fore period's scatter, whichever is larger).
+SPARSE_LINE_Z = 3.0
 #: Spike threshold (× σ) for the running-median test.
 SPIKE_SIGMA = 8.0
 #: End-confidence scores below this are reported as "boundary-uncertain". The score is the
@@ -227,13 +234,15 @@ def detect_periods(thermogram: Thermogram, *, fire_time_s: float | None = None,
     n_all = t_all.size
     if fire_time_s is not None and main_end_s is not None and n_all < 3 * MIN_PERIOD_READINGS:
         return given_periods(thermogram, fire_time_s, main_end_s)
-    if n_all < 3 * MIN_PERIOD_READINGS:
+    if n_all < SPARSE_MIN_READINGS:
         raise PeriodDetectionError(
             "too few readings to find fore, main and after periods: give the firing time "
             "and the end of the main period (fire_time_s and main_end_s; at least 3 "
             "readings in each drift period)", found=n_all,
-            expected=f"at least {3 * MIN_PERIOD_READINGS} readings to detect the periods",
+            expected=f"at least {SPARSE_MIN_READINGS} readings to detect the periods",
             **where)
+    if n_all < 3 * MIN_PERIOD_READINGS:
+        return sparse_periods(thermogram, fire_time_s=fire_time_s, main_end_s=main_end_s)
     sigma0 = robust_noise_K(T_all)
     Tm = median_filter(T_all, size=5, mode="nearest")
     event = locate_event(t_all, Tm, sigma0, where)
@@ -403,6 +412,111 @@ def given_periods(thermogram: Thermogram, fire_time_s: float, main_end_s: float)
             warnings=tuple(_length_warnings(t, 0, i_f, a0, t.size)))
     except CalworkError as exc:
         raise exc.with_context(**where) from None
+
+
+def sparse_periods(thermogram: Thermogram, *, fire_time_s: float | None = None,
+                   main_end_s: float | None = None) -> Periods:
+    """The periods of a sparse record (12–29 readings; hand-read), found by the rules a
+    technician applies to the written record (docs/methods.md §1.12):
+
+    * firing: the last reading before the first interval whose rate departs from the
+      fore-period rate by more than the reading error allows;
+    * end of the main period: the first reading from which a straight line through all the
+      remaining readings leaves no residual beyond :data:`SPARSE_LINE_Z` reading errors — so
+      the end never falls while the readings still curve towards their maximum — with at
+      least :data:`MIN_DRIFT_READINGS` readings after it.
+
+    Raises
+    ------
+    PeriodDetectionError
+        No event above the reading error, or no end that leaves an after period (the message
+        says to give the boundary).
+    """
+    where = {"path": thermogram.provenance.source_path}
+    t, T = thermogram.time_s, thermogram.temperature_K
+    n = t.size
+    q = _written_resolution(thermogram)
+    rate = np.diff(T) / np.diff(t)
+    warnings: list[str] = []
+    # the reading error: the resolution's half-step, or the scatter of the first readings
+    # about their line (whichever is larger)
+    head = slice(0, MIN_DRIFT_READINGS)  # a fore period has at least these
+    err = max(q / 2.0, _line_scatter(t[head], T[head]), 1e-12)
+    if fire_time_s is None:
+        r0 = float(np.median(rate[:3]))
+        tolerance = SPARSE_LINE_Z * err * np.sqrt(2.0) / np.diff(t)
+        jumps = np.flatnonzero(np.abs(rate - r0) > np.maximum(tolerance, 1e-12))
+        jumps = jumps[jumps >= MIN_DRIFT_READINGS - 1]
+        if jumps.size == 0:
+            raise PeriodDetectionError("no heat event found: no interval departs from the "
+                                       "fore-period rate beyond the reading error; give "
+                                       "fire_time_s", **where)
+        i_f, fire_source = int(jumps[0]), "detected"
+        t_i = float(t[i_f])
+    else:
+        t_i, fire_source = float(fire_time_s), "given"
+        i_f = int(np.searchsorted(t, t_i, side="right")) - 1
+    if i_f + 1 < MIN_DRIFT_READINGS:
+        raise PeriodDetectionError("fore period too short for a drift fit",
+                                   found=f"{i_f + 1} readings up to {t_i:.6g} s",
+                                   expected=f"at least {MIN_DRIFT_READINGS}", **where)
+    if main_end_s is None:
+        sign = 1 if T[-1] >= T[i_f] else -1
+        peak = i_f + 1 + int(np.argmax(sign * (T[i_f + 1:] - T[i_f])))
+        a0 = None
+        for c in range(max(peak, i_f + 2), n - MIN_DRIFT_READINGS + 1):
+            if all(_line_scatter(t[j:], T[j:], worst=True) <= SPARSE_LINE_Z * err
+                   for j in range(c, n - MIN_DRIFT_READINGS + 1)):
+                a0 = c
+                break
+        if a0 is None:
+            raise PeriodDetectionError(
+                "the end of the main period cannot be found: the readings still curve until "
+                "the end of the record", found=f"{n - peak} readings after the maximum",
+                expected="an after period of steady drift, or main_end_s", **where)
+        t_f, end_source = float(t[a0]), "detected"
+        if n - a0 < MIN_PERIOD_READINGS:
+            warnings.append(warning(
+                "main-end-unconfirmed", f"only {n - a0} readings after the detected end of "
+                f"the main period at {t_f:.6g} s: too few to confirm the drift is steady; "
+                "check that the rise had ended there"))
+    else:
+        t_f, end_source = float(main_end_s), "given"
+        a0 = int(np.searchsorted(t, t_f, side="left"))
+    if n - a0 < MIN_DRIFT_READINGS:
+        raise PeriodDetectionError("after period too short for a drift fit",
+                                   found=f"{n - a0} readings from {t_f:.6g} s",
+                                   expected=f"at least {MIN_DRIFT_READINGS}", **where)
+    try:
+        return Periods(
+            fore_period_s=(float(t[0]), float(t[i_f])), fire_time_s=t_i, main_end_s=t_f,
+            after_period_s=(t_f, float(t[-1])), fire_source=fire_source,
+            main_end_source=end_source, noise_K=err,
+            event_sign=1 if T[-1] >= T[0] else -1,
+            warnings=(*warnings, *_length_warnings(t, 0, i_f, a0, n)))
+    except CalworkError as exc:
+        raise exc.with_context(**where) from None
+
+
+def _written_resolution(thermogram: Thermogram) -> float:
+    """The resolution the record is written to, K (0 when unknown)."""
+    written = thermogram.metadata.get("reading_resolution")
+    if written:
+        return float(written)
+    from calwork.rise.sparse import reading_resolution_K
+
+    q = reading_resolution_K(thermogram.temperature_K,
+                             thermogram.metadata.get("temperature_unit"))
+    return q or 0.0
+
+
+def _line_scatter(t: np.ndarray, T: np.ndarray, *, worst: bool = False) -> float:
+    """RMS (or the largest) residual of a straight line through the readings, K."""
+    if t.size < 3:
+        return 0.0
+    slope, icpt = np.polyfit(t - t[0], T, 1)
+    r = T - (icpt + slope * (t - t[0]))
+    return float(np.max(np.abs(r))) if worst else float(np.sqrt(r @ r / (t.size - 2)))
 
 
 def _length_warnings(t: np.ndarray, f0: int, f1: int, a0: int, n: int) -> list[str]:
