@@ -74,6 +74,10 @@ def rise_document(result: Any) -> Document:
         ("k", f"{r.k_per_s:.4g}", "1/s"),
         ("T_inf", f"{r.T_inf_K:.4f}", "K"),
         ("reading noise", f"{(r.noise_K or 0.0) * 1e3:.3g}", "mK"),
+        ("reading resolution", "finer than 0.01 mK" if r.reading_resolution_K is None
+         else f"{r.reading_resolution_K * 1e3:g}", "" if r.reading_resolution_K is None
+         else "mK"),
+        ("degrees of freedom of the drift fits", "—" if r.dof is None else str(r.dof), ""),
     ]
     if r.t_x_s is not None:
         rows.append(("t_x (Dickinson time)", f"{r.t_x_s:.1f}", "s"))
