@@ -289,3 +289,18 @@ def test_large_network_says_which_uncertainties_it_did_not_compute():
     assert all(res.uncertainties[p] > 0 for p in picked)
     assert f"{n - 2} of {n} determined species" in next(
         w for w in res.warnings if w.startswith("uncertainties-not-computed"))
+
+
+def test_every_element_in_its_reference_state_is_zero():
+    """Lanthanides, actinides and the rest of the table are elements in their reference state
+    too (ΔfH° = 0 by definition): a dissolution cycle with Dy(cr) determines DyCl3(cr)."""
+    from calwork.hess.species import is_reference_state
+
+    for element in ("Dy(cr)", "La(cr)", "U(cr)", "Ga(cr)", "Hg(l)", "Rn(g)", "As(cr,gray)"):
+        assert is_reference_state(element), element
+    assert not is_reference_state("Dy(g)")  # another state of the element is not
+    net = Network(determinations=(
+        R("Dy(cr) + 3/2 Cl2(g) = DyCl3(cr)", -990.0, 3.0, id="made-up"),))
+    res = solve_network(net, key_values=False)
+    assert res.value("DyCl3(cr)") == pytest.approx((-990.0, 3.0), rel=1e-12)
+    assert "Dy(cr)" not in res.undetermined
