@@ -83,7 +83,9 @@ def run(args: argparse.Namespace) -> int:
         include_species=target.species if target is not None else (),
         covariance_species=args.uncertainty_of,
     )
+    derivation = None
     if target is not None:
+        derivation = result.derivation(target)
         target = result.reaction_enthalpy(target)
     if args.json:
         out = result.to_dict()
@@ -93,8 +95,13 @@ def run(args: argparse.Namespace) -> int:
             out["delta_r_H_kJ_per_mol"] = target.delta_r_H_kJ_per_mol
             out["u_delta_r_H_kJ_per_mol"] = target.u_delta_r_H_kJ_per_mol
             out["U_delta_r_H_kJ_per_mol"] = target.U_delta_r_H_kJ_per_mol
+            found = derivation.to_dict()
+            out["derivation"] = found["derivation"]
+            out["cancelled"] = found["cancelled"]
+            out["over_determined"] = found["over_determined"]
         print_json(out)
         return 0
     print(render_text(network_document(result, source=str(args.file),
-                                       n_rows=len(network.rows), target=target)), end="")
+                                       n_rows=len(network.rows), target=target,
+                                       derivation=derivation)), end="")
     return 0

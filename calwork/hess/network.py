@@ -416,5 +416,7 @@ def solve_network(
         key_values_used=tuple(asm.key_values_used),
         temperature_adjustments=asm.adjustments, warnings=tuple(warnings),
         solution=sol, unknowns=tuple(asm.unknowns),
+        rows_used=(tuple(asm.ids), tuple(asm.equations), tuple(asm.rows), asm.a, asm.y,
+                   u_final, dict(asm.offdiag)),
     )
 

@@ -159,6 +159,9 @@ class NetworkResult:
     warnings: tuple[str, ...] = ()
     solution: LinearSolution | None = field(default=None, repr=False, compare=False)
     unknowns: tuple[Species, ...] = field(default=(), repr=False, compare=False)
+    #: (ids, equations, reactions, design matrix, values, u, covariances) of the rows solved,
+    #: for :meth:`derivation`
+    rows_used: tuple | None = field(default=None, repr=False, compare=False)
 
     def __post_init__(self) -> None:
         for name in ("values", "uncertainties", "temperature_adjustments"):
@@ -216,6 +219,14 @@ class NetworkResult:
         return DerivedEnthalpy(equation=r.equation, delta_r_H_kJ_per_mol=value,
                                u_delta_r_H_kJ_per_mol=math.sqrt(var),
                                coverage_factor=self.coverage_factor)
+
+    def derivation(self, equation: str | Reaction) -> Any:
+        """How ``equation`` is built from the determinations by Hess's law
+        (:class:`calwork.hess.derivation.Derivation`: factors, contributions, what cancels,
+        the total with its uncertainty)."""
+        from calwork.hess.derivation import derive
+
+        return derive(self, equation)
 
     # --- output -----------------------------------------------------------------------------
     def to_dict(self) -> dict[str, Any]:

@@ -175,14 +175,33 @@ def _derived(derived: Any) -> Paragraph:
         f"{derived.U_delta_r_H_kJ_per_mol:.3f} kJ/mol (k = {derived.coverage_factor:g})")
 
 
-def network_document(result: Any, *, source: str, n_rows: int, target: Any = None) -> Document:
+def _derivation_blocks(d: Any) -> list[Paragraph | Table]:
+    from calwork.hess.derivation import format_factor
+
+    head = ("Hess's law: the least-squares combination of the routes through the network "
+            "(the factors are the weights of several routes)" if d.over_determined else
+            "Hess's law: the target as a sum of the determinations, reversed (−) and scaled")
+    return [
+        Paragraph(head),
+        Table(["factor", "row", "equation", "ΔrH / kJ·mol⁻¹", "factor × ΔrH / kJ·mol⁻¹"],
+              [[format_factor(s.factor), s.id, s.equation, f"{s.delta_r_H_kJ_per_mol:.3f}",
+                f"{s.contribution_kJ_per_mol:+.3f}"] for s in d.steps]),
+        *(Paragraph(line) for line in d.worked_lines()),
+    ]
+
+
+def network_document(result: Any, *, source: str, n_rows: int, target: Any = None,
+                     derivation: Any = None) -> Document:
     """A solved Hess network (:class:`calwork.hess.NetworkResult`) and, when asked for, the
     reaction enthalpy of a target reaction."""
     sections = _network_sections(result)
     sections[0].blocks.insert(0, Paragraph(
         f"Network {source}: {n_rows} rows, ΔfH° at 298.15 K in kJ/mol"))
     if target is not None:
-        sections.append(Section("Target reaction", "target", [_derived(target)]))
+        sec = Section("Target reaction", "target", [_derived(target)])
+        if derivation is not None:
+            sec.blocks += _derivation_blocks(derivation)
+        sections.append(sec)
     return _doc(f"Hess network {source}", *sections)
 
 
