@@ -111,3 +111,16 @@ def test_the_command_line_prints_and_writes_the_derivation(tmp_path, capsys):
     assert "−1 × a" in text
     assert "(reversed)" in text
     assert "cancelled: CO2(g), H2O(l), O2(g)" in text
+
+
+def test_another_notation_gets_a_hint_with_the_networks_spelling():
+    res = _solve(R("C(cr,graphite) + O2(g) = CO2(g)", -393.5, 0.1, id="b"),
+                 R("H2(g) + 1/2 O2(g) = H2O(l)", -285.8, 0.04, id="c"))
+    with pytest.raises(NetworkError, match=r"did you mean C\(cr,graphite\)"):
+        res.reaction_enthalpy("C(s) + O2(g) = CO2(g)")
+    from calwork.core.errors import EquationError
+
+    with pytest.raises(EquationError, match=r"H2O\(liq\) is written H2O\(l\)"):
+        res.reaction_enthalpy("H2(g) + 1/2 O2(g) = H2O(liq)")
+    with pytest.raises(EquationError, match=r"C\(graphite\) is written C\(cr,graphite\)"):
+        res.reaction_enthalpy("C(graphite) + O2(g) = CO2(g)")

@@ -19,7 +19,7 @@ from fractions import Fraction
 from types import MappingProxyType
 
 from calwork.core.errors import BalanceError, EquationError, FormulaError
-from calwork.hess.species import Species, parse_species
+from calwork.hess.species import Species, parse_species, usual_spelling
 
 __all__ = [
     "Equation",
@@ -216,6 +216,19 @@ def check_balance(stoichiometry: Mapping[Species, Fraction], text: str = "") -> 
         )
 
 
+_WRITTEN_SPECIES = re.compile(r"[A-Za-z0-9·.\[\]^+-]+\([^()]*\)")
+
+
+def _spelling_hints(text: str) -> str:
+    """``'; H2O(liq) is written H2O(l) here'`` for species in other common notations."""
+    hints = []
+    for m in _WRITTEN_SPECIES.finditer(text):
+        alias = usual_spelling(m.group(0))
+        if alias and alias != m.group(0):
+            hints.append(f"{m.group(0)} is written {alias} here")
+    return ("; " + "; ".join(dict.fromkeys(hints))) if hints else ""
+
+
 def parse_equation(text: str, *, balance: bool = True) -> Equation:
     """Parse ``'a A + b B = c C + d D'`` and check its element and charge balance.
 
@@ -250,8 +263,8 @@ def parse_equation(text: str, *, balance: bool = True) -> Equation:
         pos = getattr(exc, "position", None)
         if pos is None:
             raise
-        raise EquationError(f"{exc.message} (at character {pos + 1})", found=text,
-                            expected=exc.expected, position=pos) from None
+        raise EquationError(f"{exc.message} (at character {pos + 1}){_spelling_hints(text)}",
+                            found=text, expected=exc.expected, position=pos) from None
     net: dict[Species, Fraction] = {}
     for sp, c, _ in reactants:
         net[sp] = net.get(sp, Fraction(0)) - c

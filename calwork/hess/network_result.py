@@ -17,7 +17,7 @@ from calwork.hess.algebra import nullspace
 from calwork.hess.diagnostics import Inflation, Offender, Residual
 from calwork.hess.equations import format_coefficient
 from calwork.hess.reactions import Reaction
-from calwork.hess.species import Species, reference_states
+from calwork.hess.species import Species, reference_states, spelling_hint
 from calwork.hess.wls import LinearSolution, solve_many_rhs
 
 __all__ = ["DerivedEnthalpy", "NetworkResult", "free_directions", "monte_carlo_check"]
@@ -205,7 +205,9 @@ class NetworkResult:
             if s in index:
                 c[index[s]] += float(coef)
             elif s not in zero:
-                raise NetworkError(f"{s.name} is not in the network", found=r.equation)
+                hint = spelling_hint(s, [*self.unknowns, *zero])
+                raise NetworkError(f"{s.name} is not in the network"
+                                   + (f" ({hint})" if hint else ""), found=r.equation)
         if sol.null_projection(c) > 1e-7 * max(1.0, float(np.linalg.norm(c))):
             raise NetworkError(
                 f"Δ_rH of {r.equation!r} is not determined by the data",

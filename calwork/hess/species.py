@@ -33,7 +33,7 @@ as ``MgSO4·7H2O(cr)``); the canonical name uses ``·``.
 from __future__ import annotations
 
 import re
-from collections.abc import Mapping
+from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, field
 from fractions import Fraction
 from functools import cache
@@ -176,8 +176,10 @@ def _parse(text: str) -> Species:
     work = text.strip().replace("−", "-").replace("–", "-").translate(_SUBSCRIPT)
     m = _STATE.search(work)
     if not m:
+        alias = usual_spelling(work)
+        hint = f"; {work!r} is written {alias!r} here" if alias else ""
         raise FormulaError(
-            "species needs its state in parentheses at the end",
+            "species needs its state in parentheses at the end" + hint,
             found=written,
             expected=f"a state from {list(PRIMARY_STATES)}, e.g. 'H2O(l)' or 'C(cr,graphite)'",
             position=len(work),
@@ -238,6 +240,51 @@ def parse_species(text: str) -> Species:
 def species_or_parse(value: Species | str) -> Species:
     """Return ``value`` if it is a :class:`Species`, else parse it."""
     return value if isinstance(value, Species) else parse_species(value)
+
+
+#: Other common spellings of states → calwork's (common practice in textbooks and tables).
+STATE_ALIASES = {
+    "liq": "l", "liquid": "l", "gas": "g", "vap": "g", "vapour": "g", "vapor": "g",
+    "s": "cr", "solid": "cr", "c": "cr", "crystal": "cr", "crystalline": "cr",
+    "graphite": "cr,graphite", "diamond": "cr,diamond", "aqueous": "aq", "soln": "sln",
+}
+_ANY_STATE = re.compile(r"^(?P<head>.+?)\((?P<state>[^()]*)\)$")
+
+
+def usual_spelling(text: str) -> str | None:
+    """The species ``text`` spelled with calwork's state names (``H2O(liq)`` → ``H2O(l)``,
+    ``C(graphite)`` → ``C(cr,graphite)``), or ``None`` when there is nothing to change.
+
+    Examples
+    --------
+    >>> usual_spelling("H2O(liq)"), usual_spelling("C(graphite)"), usual_spelling("H2O(l)")
+    ('H2O(l)', 'C(cr,graphite)', None)
+    """
+    m = _ANY_STATE.match(str(text).strip())
+    if not m:
+        return None
+    state = m.group("state").strip().lower()
+    if state.split(",")[0] in PRIMARY_STATES:  # already one of calwork's states
+        return None
+    alias = STATE_ALIASES.get(state)
+    return None if alias is None else f"{m.group('head')}({alias})"
+
+
+def spelling_hint(species: Species | str, known: Iterable[Species]) -> str | None:
+    """``"did you mean …?"`` naming the species of ``known`` with the same formula and charge
+    in a compatible state (``C(s)`` → ``C(cr,graphite)``), or ``None``."""
+    text = species.name if isinstance(species, Species) else str(species)
+    try:
+        wanted = parse_species(usual_spelling(text) or text)
+    except FormulaError:
+        return None
+    same = [k for k in known if k.formula == wanted.formula and k.charge == wanted.charge
+            and k != wanted]
+    primary = wanted.state.split(",")[0]
+    close = [k for k in same if k.state.split(",")[0] == primary
+             or STATE_ALIASES.get(primary, primary).split(",")[0] == k.state.split(",")[0]]
+    names = sorted({k.name for k in (close or same)})[:3]
+    return f"did you mean {' or '.join(names)}?" if names else None
 
 
 @cache
