@@ -124,3 +124,19 @@ def test_another_notation_gets_a_hint_with_the_networks_spelling():
         res.reaction_enthalpy("H2(g) + 1/2 O2(g) = H2O(liq)")
     with pytest.raises(EquationError, match=r"C\(graphite\) is written C\(cr,graphite\)"):
         res.reaction_enthalpy("C(graphite) + O2(g) = CO2(g)")
+
+
+def test_each_single_route_is_shown_beside_the_least_squares_value():
+    """A triangle of made-up determinations: CO2(g) from graphite directly (r) and through
+    CO(g) (p then q): two single routes, −393.3 and −110.5 + (−283.0) = −393.5 by hand; the
+    least-squares value lies between them."""
+    res = _solve(R("C(cr,graphite) + 1/2 O2(g) = CO(g)", -110.5, 0.1, id="p"),
+                 R("CO(g) + 1/2 O2(g) = CO2(g)", -283.0, 0.1, id="q"),
+                 R("C(cr,graphite) + O2(g) = CO2(g)", -393.3, 0.1, id="r"))
+    d = res.derivation("C(cr,graphite) + O2(g) = CO2(g)")
+    assert d.over_determined
+    routes = sorted((sorted(rows.items()), round(v, 9)) for rows, v in d.routes)
+    assert routes == [([("p", 1.0), ("q", 1.0)], -393.5), ([("r", 1.0)], -393.3)]
+    # weights by hand: route r has variance 0.01, route p+q 0.02 → 2/3 and 1/3
+    assert d.delta_r_H_kJ_per_mol == pytest.approx((2 * -393.3 + -393.5) / 3, abs=1e-9)
+    assert any(line.startswith("single route") for line in d.worked_lines())

@@ -99,6 +99,7 @@ def run(args: argparse.Namespace) -> int:
             out["derivation"] = found["derivation"]
             out["cancelled"] = found["cancelled"]
             out["over_determined"] = found["over_determined"]
+            out["routes"] = found["routes"]
         print_json(out)
         return 0
     print(render_text(network_document(result, source=str(args.file),

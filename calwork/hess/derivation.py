@@ -62,6 +62,8 @@ class Derivation:
     #: True when more determinations than needed enter (the factors are least-squares
     #: weights of several routes, not a single chain)
     over_determined: bool
+    #: each single route when over-determined: ({row id: factor}, ΔrH by that route alone)
+    routes: tuple[tuple[dict[str, float], float], ...] = ()
 
     def to_dict(self) -> dict[str, Any]:
         return jsonable({
@@ -69,7 +71,9 @@ class Derivation:
             "cancelled": list(self.cancelled),
             "delta_r_H_kJ_per_mol": self.delta_r_H_kJ_per_mol,
             "u_delta_r_H_kJ_per_mol": self.u_delta_r_H_kJ_per_mol,
-            "over_determined": self.over_determined})
+            "over_determined": self.over_determined,
+            "routes": [{"rows": rows, "delta_r_H_kJ_per_mol": value}
+                       for rows, value in self.routes]})
 
     def worked_lines(self) -> list[str]:
         """The sum written out: ``−1 × c: −1 × (−890.3) = 890.3`` …, then the total."""
@@ -81,6 +85,9 @@ class Derivation:
                      f"{self.u_delta_r_H_kJ_per_mol:.3f} kJ/mol (u, k = 1)")
         if self.cancelled:
             lines.append("cancelled: " + ", ".join(self.cancelled))
+        for rows, value in self.routes:
+            terms = " + ".join(f"{format_factor(f)} × {rid}" for rid, f in rows.items())
+            lines.append(f"single route {terms}: ΔrH = {value:.3f} kJ/mol")
         return lines
 
 
@@ -171,7 +178,39 @@ def derive(result: Any, target: Any) -> Derivation:
                               if abs(v) < 1e-9 and s not in reaction.stoichiometry),
                              key=lambda n: (n in {z.name for z in zero}, n)))
     rank = int(np.linalg.matrix_rank(A[used])) if used else 0
+    over = len(used) > rank
+    routes = _routes(A, c, used, rank, ids, y) if over else ()
     return Derivation(equation=reaction.equation, steps=steps, cancelled=cancelled,
                       delta_r_H_kJ_per_mol=derived.delta_r_H_kJ_per_mol,
                       u_delta_r_H_kJ_per_mol=derived.u_delta_r_H_kJ_per_mol,
-                      over_determined=len(used) > rank)
+                      over_determined=over, routes=routes)
+
+
+#: Routes are listed when at most this many determinations enter (the search tries every
+#: choice of rank-many rows).
+ROUTE_MAX_ROWS = 12
+
+
+def _routes(A: np.ndarray, c: np.ndarray, used: list[int], rank: int, ids: list[str],
+            y: np.ndarray) -> tuple[tuple[dict[str, float], float], ...]:
+    """Every single route: a smallest set of the used rows that alone gives the target,
+    with its factors and value (when few rows enter)."""
+    from itertools import combinations
+
+    if len(used) > ROUTE_MAX_ROWS:
+        return ()
+    found: dict[frozenset, tuple[dict[str, float], float]] = {}
+    for size in range(1, rank + 1):
+        for subset in combinations(used, size):
+            if any(set(key) <= set(subset) for key in found):
+                continue  # a smaller route inside: not a single route
+            B = A[list(subset)].T
+            x, *_ = np.linalg.lstsq(B, c, rcond=None)
+            if np.linalg.norm(B @ x - c) > 1e-9 * max(1.0, float(np.linalg.norm(c))):
+                continue
+            if np.any(np.abs(x) < _TINY):
+                continue
+            factors = {ids[j]: _snap(float(f)) for j, f in zip(subset, x, strict=True)}
+            value = math.fsum(factors[ids[j]] * float(y[j]) for j in subset)
+            found[frozenset(subset)] = (factors, value)
+    return tuple(found.values())
