@@ -140,3 +140,33 @@ def test_each_single_route_is_shown_beside_the_least_squares_value():
     # weights by hand: route r has variance 0.01, route p+q 0.02 → 2/3 and 1/3
     assert d.delta_r_H_kJ_per_mol == pytest.approx((2 * -393.3 + -393.5) / 3, abs=1e-9)
     assert any(line.startswith("single route") for line in d.worked_lines())
+
+
+def test_network_and_cycle_write_a_workbook_and_a_report(tmp_path, capsys):
+    """--xlsx: the derivation as live formulas (factor × ΔrH, summed), checked by the
+    independent formula engine within 1e-9; --report: the same document as HTML."""
+    import openpyxl
+    from conftest import copy_sample_runs
+    from report_fixtures import check_with_engine
+
+    runs = copy_sample_runs(tmp_path / "runs")
+    book, page = tmp_path / "net.xlsx", tmp_path / "net.html"
+    target = "CO(g) + 2 H2(g) = CH3OH(l)"
+    assert main(["network", str(runs / "network.csv"), "--target", target, "--xlsx", str(book),
+                 "--report", str(page), "--json"]) == 0
+    value = json.loads(capsys.readouterr().out)["delta_r_H_kJ_per_mol"]
+    n_formulas, worst = check_with_engine(book)
+    assert worst <= 1e-9
+    assert n_formulas >= 10
+    ws = openpyxl.load_workbook(book, data_only=True)["Derivation"]
+    total = next(r[4] for r in ws.iter_rows(values_only=True) if r[1] == "ΔrH of the target (sum)")
+    assert total == pytest.approx(value, rel=1e-9)
+    html = page.read_text(encoding="utf-8")
+    assert "Hess&#x27;s law" in html or "Hess's law" in html
+    cycle_book = tmp_path / "cycle.xlsx"
+    assert main(["cycle", str(runs / "kcl_cycle.toml"), "--xlsx", str(cycle_book)]) == 0
+    capsys.readouterr()
+    assert "Derivation" in openpyxl.load_workbook(cycle_book).sheetnames
+    check_with_engine(cycle_book)
+    assert main(["network", str(runs / "network.csv"), "--xlsx", str(tmp_path / "x.csv")]) == 2
+    assert ".xlsx" in capsys.readouterr().err

@@ -5,6 +5,7 @@ from __future__ import annotations
 import argparse
 
 from calwork.cli._common import print_json, with_safety_note
+from calwork.cli.network import _write_outputs
 from calwork.report.plain import render_text
 from calwork.report.views import cycle_document
 
@@ -35,6 +36,11 @@ def register(subparsers: argparse._SubParsersAction) -> None:
                               formatter_class=argparse.RawDescriptionHelpFormatter)
     p.add_argument("file", metavar="FILE", help="cycle file (.toml)")
     p.add_argument("--json", action="store_true", help="print one JSON object")
+    p.add_argument("--xlsx", metavar="FILE",
+                   help="also write the cycle, the solved network and the derivation of the "
+                        "target (live formulas) as a workbook")
+    p.add_argument("--report", metavar="FILE",
+                   help="also write the same as a report (.html or .pdf)")
     p.add_argument("--coverage-factor", type=float, default=2.0, metavar="K",
                    help="coverage factor of the expanded uncertainty (default 2)")
     p.add_argument("--export-network", metavar="CSV",
@@ -49,8 +55,18 @@ def run(args: argparse.Namespace) -> int:
     if args.export_network:
         network, _ = cycle_network(args.file)
         write_network_csv([*network.determinations, *network.priors], args.export_network)
+    derivation = None
+    if result.target_reaction is not None:
+        derivation = result.network.derivation(result.target_reaction.equation)
+    elif result.target is not None and result.delta_f_H_kJ_per_mol is not None:
+        from calwork.hess.reactions import Reaction
+
+        # ΔfH° of the target: its formation from the elements ('0 = X' in a network)
+        derivation = result.network.derivation(Reaction.formation(result.target))
+    doc = cycle_document(result, derivation)
+    _write_outputs(doc, args)
     if args.json:
         print_json(result)
         return 0
-    print(render_text(cycle_document(result)), end="")
+    print(render_text(doc), end="")
     return 0

@@ -47,6 +47,11 @@ def register(subparsers: argparse._SubParsersAction) -> None:
                               formatter_class=argparse.RawDescriptionHelpFormatter)
     p.add_argument("file", metavar="FILE", help="network file (.csv or .toml)")
     p.add_argument("--json", action="store_true", help="print one JSON object")
+    p.add_argument("--xlsx", metavar="FILE",
+                   help="also write the solved network, residuals and the target's derivation "
+                        "(live formulas) as a workbook")
+    p.add_argument("--report", metavar="FILE",
+                   help="also write the same as a report (.html or .pdf)")
     p.add_argument("--target", metavar="EQUATION",
                    help='reaction whose ΔrH to derive, e.g. "C(cr,graphite) + O2(g) = CO2(g)"')
     p.add_argument("--monte-carlo", type=int, metavar="N", default=None,
@@ -87,6 +92,9 @@ def run(args: argparse.Namespace) -> int:
     if target is not None:
         derivation = result.derivation(target)
         target = result.reaction_enthalpy(target)
+    doc = network_document(result, source=str(args.file), n_rows=len(network.rows),
+                           target=target, derivation=derivation)
+    _write_outputs(doc, args)
     if args.json:
         out = result.to_dict()
         out["file"] = str(args.file)
@@ -102,7 +110,22 @@ def run(args: argparse.Namespace) -> int:
             out["routes"] = found["routes"]
         print_json(out)
         return 0
-    print(render_text(network_document(result, source=str(args.file),
-                                       n_rows=len(network.rows), target=target,
-                                       derivation=derivation)), end="")
+    print(render_text(doc), end="")
     return 0
+
+
+def _write_outputs(doc, args: argparse.Namespace) -> None:
+    """The workbook and the report asked for (each format from the one document)."""
+    from calwork.core.errors import ExportError
+    from calwork.report.document import write_document
+
+    if args.xlsx:
+        if not str(args.xlsx).lower().endswith(".xlsx"):
+            raise ExportError("--xlsx writes an .xlsx workbook", path=args.xlsx,
+                              expected="a file name ending in .xlsx")
+        write_document(doc, args.xlsx)
+    if args.report:
+        if not str(args.report).lower().endswith((".html", ".htm", ".pdf")):
+            raise ExportError("--report writes HTML or PDF", path=args.report,
+                              expected="a file name ending in .html or .pdf")
+        write_document(doc, args.report)

@@ -1,4 +1,5 @@
-"""``write_report``: the reduction as a self-contained HTML page or a PDF, by file suffix."""
+"""``write_report``: the reduction as a self-contained HTML page or a PDF, by file suffix;
+``write_document``: any document as HTML, PDF, markdown, text or a workbook, by suffix."""
 
 from __future__ import annotations
 
@@ -11,10 +12,44 @@ from calwork.report.html import render_html
 from calwork.report.output import atomic_target
 from calwork.report.pdf import render_pdf
 
-__all__ = ["REPORT_FORMATS", "write_report"]
+__all__ = ["DOCUMENT_FORMATS", "REPORT_FORMATS", "write_document", "write_report"]
 
 #: File suffixes :func:`write_report` writes.
 REPORT_FORMATS = (".html", ".htm", ".pdf")
+#: File suffixes :func:`write_document` writes.
+DOCUMENT_FORMATS = (".html", ".htm", ".pdf", ".md", ".txt", ".xlsx")
+
+
+def write_document(doc: Any, path: str | Path) -> Path:
+    """Write the document ``doc`` to ``path`` in the format its suffix names (HTML, PDF,
+    markdown, text, or an ``.xlsx`` workbook — every format from the one model).
+
+    Raises
+    ------
+    ExportError
+        Unknown suffix, or the file cannot be written.
+    """
+    path = Path(path)
+    suffix = path.suffix.lower()
+    if suffix not in DOCUMENT_FORMATS:
+        raise ExportError("unknown output format", path=path, found=path.suffix,
+                          expected=f"one of {list(DOCUMENT_FORMATS)}")
+    if suffix == ".xlsx":
+        from calwork.report.workbook import render_workbook
+
+        return render_workbook(doc, path)
+    from calwork.report.plain import render_markdown, render_text
+
+    with atomic_target(path, what="report") as tmp:
+        if suffix == ".pdf":
+            render_pdf(doc, tmp)
+        elif suffix == ".md":
+            tmp.write_text(render_markdown(doc), encoding="utf-8")
+        elif suffix == ".txt":
+            tmp.write_text(render_text(doc), encoding="utf-8")
+        else:
+            tmp.write_text(render_html(doc), encoding="utf-8")
+    return path
 
 
 def write_report(reduction: Any, path: str | Path) -> Path:

@@ -13,7 +13,15 @@ import base64
 from html import escape
 from typing import Any
 
-from calwork.report.model import Document, Figure, Paragraph, Section, Table, prose_blocks
+from calwork.report.model import (
+    Document,
+    Figure,
+    Paragraph,
+    Section,
+    Table,
+    prose_blocks,
+    prose_sections,
+)
 
 __all__ = ["render_html"]
 
@@ -104,7 +112,7 @@ def _section(s: Section) -> str:
 def render_html(doc: Document) -> str:
     """The document as one self-contained HTML page."""
     toc = "".join(f'<li><a href="#{escape(s.anchor)}">{escape(s.title)}</a></li>'
-                  for s in doc.sections)
+                  for s in prose_sections(doc))
     body: list[Any] = [
         (f"<header><h1>{escape(doc.title)}</h1>"
         f'<p class="subtitle">{escape(doc.subtitle)}</p></header>'),
@@ -113,7 +121,7 @@ def render_html(doc: Document) -> str:
         body.append('<div class="simulated" role="note">This report contains SIMULATED DATA '
                     "(invented by calwork's simulator, not measurements).</div>")
     body.append(f"<nav><h2>Contents</h2><ol>{toc}</ol></nav>")
-    body.extend(_section(s) for s in doc.sections)
+    body.extend(_section(s) for s in prose_sections(doc))
     return ("<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\">"
             f"<title>{escape(doc.title)}</title><style>{_CSS}</style></head><body>\n"
             + "\n".join(body) + "\n</body></html>\n")

@@ -20,7 +20,7 @@ from dataclasses import dataclass, field
 from typing import Any
 
 __all__ = ["Calculation", "Document", "Figure", "Paragraph", "Readings", "Section", "Table",
-           "prose_blocks"]
+           "prose_blocks", "prose_sections"]
 
 
 @dataclass
@@ -84,6 +84,9 @@ class Section:
     anchor: str
     blocks: list[Block] = field(default_factory=list)
     simulated: bool = False
+    #: A sheet only the workbook needs (the live formulas of what another section already
+    #: shows); the prose formats leave it out.
+    workbook_only: bool = False
 
 
 @dataclass
@@ -102,3 +105,8 @@ def prose_blocks(section: Section) -> Iterator[Paragraph | Table | Figure]:
             yield from block.as_prose()
         elif not isinstance(block, Readings):
             yield block
+
+
+def prose_sections(doc: Document) -> list[Section]:
+    """The sections the prose formats show (all but the workbook-only ones)."""
+    return [s for s in doc.sections if not s.workbook_only]

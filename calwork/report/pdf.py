@@ -13,7 +13,8 @@ import textwrap
 from pathlib import Path
 from typing import Any
 
-from calwork.report.model import Document, Figure, Paragraph, Section, Table, prose_blocks
+from calwork.report import model
+from calwork.report.model import Document, Figure, Paragraph, Section, Table
 from calwork.report.plots import plot_style, simulated_stamp
 
 __all__ = ["render_pdf"]
@@ -135,7 +136,7 @@ def _section(pages: _Pages, s: Section, first: bool) -> None:
         pages.fig.text(_LEFT, pages.y, pages.doc.title + " — " + pages.doc.subtitle,
                        fontsize=9, va="top")
         pages.y -= 0.025
-    for block in prose_blocks(s):
+    for block in model.prose_blocks(s):
         if isinstance(block, Table):
             _table(pages, block, s.title)
         elif isinstance(block, Figure):
@@ -152,7 +153,7 @@ def render_pdf(doc: Document, path: str | Path) -> int:
                                                 "Subject": doc.subtitle,
                                                 "Creator": "calwork"}) as pdf:
         pages = _Pages(pdf, doc)
-        for i, section in enumerate(doc.sections):
+        for i, section in enumerate(model.prose_sections(doc)):
             _section(pages, section, i == 0)
         pages.finish()
         count = pdf.get_pagecount()

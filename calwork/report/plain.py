@@ -9,7 +9,7 @@ from __future__ import annotations
 import textwrap
 
 from calwork.core.text import format_table
-from calwork.report.model import Document, Figure, Paragraph, Table, prose_blocks
+from calwork.report.model import Document, Figure, Paragraph, Table, prose_blocks, prose_sections
 from calwork.report.sanitise import markdown_text
 
 __all__ = ["render_markdown", "render_text"]
@@ -24,7 +24,7 @@ def render_markdown(doc: Document) -> str:
     lines = [f"# {md(doc.title)}", ""]
     if doc.subtitle:
         lines += [md(doc.subtitle), ""]
-    for section in doc.sections:
+    for section in prose_sections(doc):
         lines += [f"## {md(section.title)}", ""]
         for block in prose_blocks(section):
             if isinstance(block, Paragraph):
@@ -49,7 +49,7 @@ def render_markdown(doc: Document) -> str:
 def render_text(doc: Document, *, width: int = 92) -> str:
     """The document as terminal text: titled sections, aligned tables."""
     out: list[str] = []
-    for section in doc.sections:
+    for section in prose_sections(doc):
         out += [section.title, ""]
         for block in prose_blocks(section):
             if isinstance(block, Paragraph):

@@ -135,13 +135,15 @@ def _network_sections(result: Any) -> list[Section]:
         rows.append([name, "undetermined" if v is None else f"{v:.3f}",
                      "" if u is None else f"{u:.3f}", "" if u is None else f"{k * u:.3f}"])
     solved = Section("Standard enthalpies of formation", "species", [Table(
-        ["species", "ΔfH° / kJ·mol⁻¹", "u (k = 1)", f"U (k = {k:g})"], rows)])
+        ["species", "ΔfH° / kJ·mol⁻¹", "u (k = 1)", f"U (k = {k:g})"], rows,
+        number_columns=(1, 2, 3))])
     res_rows = [[r.id, r.kind, f"{r.measured_kJ_per_mol:.3f}", f"{r.u_kJ_per_mol:.3f}",
                  f"{r.residual_kJ_per_mol:.3f}", f"{r.normalised:.2f}",
                  "" if r.standardised is None else f"{r.standardised:.2f}"]
                 for r in result.residuals]
     fit = Section("Residuals and consistency", "residuals", [Table(
-        ["row", "kind", "ΔrH / kJ·mol⁻¹", "u", "residual r", "r/u", "z"], res_rows)])
+        ["row", "kind", "ΔrH / kJ·mol⁻¹", "u", "residual r", "r/u", "z"], res_rows,
+        number_columns=(2, 3, 4, 5, 6))])
     p = "n/a" if result.p_value is None else f"{result.p_value:.3g}"
     rb = "n/a" if result.birge_ratio is None else f"{result.birge_ratio:.3f}"
     notes = [(f"χ² = {result.chi2:.4g}, ν = {result.dof}, p = {p}, Birge ratio = {rb} "
@@ -185,9 +187,37 @@ def _derivation_blocks(d: Any) -> list[Paragraph | Table]:
         Paragraph(head),
         Table(["factor", "row", "equation", "ΔrH / kJ·mol⁻¹", "factor × ΔrH / kJ·mol⁻¹"],
               [[format_factor(s.factor), s.id, s.equation, f"{s.delta_r_H_kJ_per_mol:.3f}",
-                f"{s.contribution_kJ_per_mol:+.3f}"] for s in d.steps]),
+                f"{s.contribution_kJ_per_mol:+.3f}"] for s in d.steps],
+              number_columns=(3, 4)),
         *(Paragraph(line) for line in d.worked_lines()),
     ]
+
+
+def derivation_calculation(d: Any, title: str = "Derivation") -> Any:
+    """The derivation as a calculation: each row's factor and ΔrH, the contribution as the
+    live formula factor × ΔrH, and the target as their SUM (the workbook writes the
+    formulas with calwork's values cached; the prose formats show the values)."""
+    from calwork.report.formulas import Ref, total
+    from calwork.report.grid import Grid, Text
+    from calwork.report.model import Calculation
+
+    grid = Grid(title)
+    grid.put(1, 1, f"Hess's law: {d.equation}", kind="title")
+    grid.header(2, ["row", "equation", "factor", "ΔrH / kJ·mol⁻¹",
+                    "factor × ΔrH / kJ·mol⁻¹"])
+    refs = []
+    for i, step in enumerate(d.steps, start=3):
+        grid.put(i, 1, Text(step.id))
+        grid.put(i, 2, Text(step.equation))
+        factor = grid.put(i, 3, step.factor, "0.000000")
+        value = grid.put(i, 4, step.delta_r_H_kJ_per_mol, "0.000")
+        refs.append(grid.put(i, 5, factor * value, "0.000"))
+    last = 3 + len(d.steps)
+    grid.put(last, 2, Text("ΔrH of the target (sum)"), kind="header")
+    grid.put(last, 5, total([r for r in refs if isinstance(r, Ref)]), "0.000")
+    grid.put(last + 1, 2, Text("u (k = 1), from the network's covariance"))
+    grid.put(last + 1, 5, d.u_delta_r_H_kJ_per_mol, "0.000")
+    return Calculation(grid)
 
 
 def network_document(result: Any, *, source: str, n_rows: int, target: Any = None,
@@ -202,11 +232,15 @@ def network_document(result: Any, *, source: str, n_rows: int, target: Any = Non
         if derivation is not None:
             sec.blocks += _derivation_blocks(derivation)
         sections.append(sec)
+        if derivation is not None:  # the same sum as live formulas, for the workbook
+            sections.append(Section("Derivation", "derivation",
+                                    [derivation_calculation(derivation)], workbook_only=True))
     return _doc(f"Hess network {source}", *sections)
 
 
-def cycle_document(result: Any) -> Document:
-    """A thermochemical cycle (:class:`calwork.solution.cycles.CycleResult`)."""
+def cycle_document(result: Any, derivation: Any = None) -> Document:
+    """A thermochemical cycle (:class:`calwork.solution.cycles.CycleResult`), with the
+    Hess's-law derivation of its target when given."""
     steps = Section(f"Cycle: {result.name or '(unnamed)'}", "cycle", [Table(
         ["id", "equation", "ΔrH / kJ·mol⁻¹", "u (k = 1)"],
         [[r.id, r.equation, f"{r.delta_r_H_kJ_per_mol:.3f}", f"{r.u_delta_r_H_kJ_per_mol:.3f}"]
@@ -219,7 +253,12 @@ def cycle_document(result: Any) -> Document:
     if result.target_reaction is not None:
         steps.blocks.append(_derived(result.target_reaction))
     steps.blocks += [Paragraph(w, "warning") for w in result.warnings]
-    return _doc(f"Cycle {result.name}", steps, *_network_sections(result.network))
+    extra = []
+    if derivation is not None:
+        steps.blocks += _derivation_blocks(derivation)
+        extra.append(Section("Derivation", "derivation", [derivation_calculation(derivation)],
+                             workbook_only=True))
+    return _doc(f"Cycle {result.name}", steps, *_network_sections(result.network), *extra)
 
 
 # --- QA ---------------------------------------------------------------------------------------
