@@ -113,3 +113,17 @@ def test_write_workbook_is_the_rendered_document(reduction, tmp_path):
         rows_a = [r for r in a[name].iter_rows(values_only=True) if "written at (UTC)" not in r]
         rows_b = [r for r in b[name].iter_rows(values_only=True) if "written at (UTC)" not in r]
         assert rows_a == rows_b, name
+
+
+def test_outputs_get_the_usual_file_mode(reduction, tmp_path):
+    """Reports and workbooks are written through a private temporary file, then given the
+    mode a new file gets under the user's umask (0644 under 022), not left at 0600."""
+    import os
+    import stat
+
+    old = os.umask(0o022)
+    try:
+        path = render_workbook(summary_document(reduction), tmp_path / "s.xlsx")
+    finally:
+        os.umask(old)
+    assert stat.S_IMODE(path.stat().st_mode) == 0o644

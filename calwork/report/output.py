@@ -13,6 +13,13 @@ from calwork.core.errors import ExportError
 __all__ = ["atomic_target"]
 
 
+def _umask() -> int:
+    """The process's file-creation mask (read by setting it and putting it back)."""
+    mask = os.umask(0o022)
+    os.umask(mask)
+    return mask
+
+
 @contextmanager
 def atomic_target(path: str | Path, *, what: str = "file") -> Iterator[Path]:
     """Yield a temporary path beside ``path``; rename it onto ``path`` if the block succeeds.
@@ -31,6 +38,9 @@ def atomic_target(path: str | Path, *, what: str = "file") -> Iterator[Path]:
     tmp = Path(name)
     try:
         yield tmp
+        # a temporary file is private (0600); the output gets the usual mode of a new file
+        # under the user's umask (0644 under the common 022)
+        os.chmod(tmp, 0o666 & ~_umask())
         os.replace(tmp, path)
     except OSError as exc:
         raise ExportError(f"cannot write the {what} ({exc.strerror or exc})", path=path) from None
