@@ -80,7 +80,11 @@ def test_qa_text_plot_and_rules(book, tmp_path, capsys):
 def test_qa_errors(book, capsys):
     code, _, err = _qa(capsys, "no-such-calorimeter", "--labbook", book)
     assert code == 2
-    assert "0 usable calibration run(s)" in err
+    assert "no runs of calorimeter 'no-such-calorimeter'" in err
+    assert "sim-bomb-1" in err  # the known calorimeters are listed
+    code, _, err = _qa(capsys, "SIM-BOMB-1", "--labbook", book)
+    assert code == 2
+    assert "did you mean 'sim-bomb-1'?" in err
     code, _, err = _qa(capsys, "sim-bomb-1", "--labbook", book, "--rules", "bogus")
     assert code == 2
     assert "rule must be one of" in err

@@ -62,6 +62,14 @@ def _qa(args: argparse.Namespace) -> int:
     rules = parse_rules(args.rules)
     filters = Filters(since=args.since, until=args.until)
     with open_labbook(args.labbook, user=args.user, timeout_s=args.timeout) as book:
+        known = sorted({r["calorimeter"] for r in book.runs() if r.get("calorimeter")})
+        if args.calorimeter not in known:
+            same = [k for k in known if k.lower() == args.calorimeter.lower()]
+            hint = f"; did you mean {same[0]!r}?" if same else ""
+            raise CalibrationError(
+                f"no runs of calorimeter {args.calorimeter!r} in the lab book{hint}",
+                found=args.calorimeter, expected=f"one of {known}" if known else
+                "a lab book with calibration runs")
         points, notes = book.calibration_series(args.calorimeter, filters)
         first_series = book.first_series_runs(args.calorimeter)
     if len(points) < 2:
