@@ -127,3 +127,20 @@ def test_outputs_get_the_usual_file_mode(reduction, tmp_path):
     finally:
         os.umask(old)
     assert stat.S_IMODE(path.stat().st_mode) == 0o644
+
+
+def test_run_plots_drawn_on_several_cores_are_the_same_images(reduction):
+    """The --out folder draws the run plots in forked workers; each image is byte for byte
+    the one drawn in this process, and the report reuses it instead of drawing it again."""
+    from calwork.report import plots
+    from calwork.report.texts import primary_rise
+
+    items = [(reduction.thermograms[r.run], primary_rise(r)) for r in reduction.runs
+             if r.run in reduction.thermograms]
+    plots._RISE_PNGS.clear()
+    plots.draw_rise_pngs(items)
+    parallel = {id(rise): plots._RISE_PNGS[id(rise)][1] for _, rise in items}
+    plots._RISE_PNGS.clear()
+    serial = {id(rise): plots.rise_png(th, rise) for th, rise in items}
+    assert parallel == serial
+    assert plots.rise_png(*items[0]) is serial[id(items[0][1])]  # drawn once, then reused

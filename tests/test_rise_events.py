@@ -140,8 +140,8 @@ def test_a_double_firing_fails_alone_in_a_batch_unless_the_sheet_says_which(two_
 def test_reduce_plots_the_reaction_of_a_solution_log(tmp_path, monkeypatch):
     import csv
 
-    import calwork.rise
     from calwork.report import folder as report_folder
+    from calwork.report import plots
 
     copy_sample_runs(tmp_path / "runs")
     sheet = tmp_path / "runs" / "runs.csv"
@@ -150,16 +150,19 @@ def test_reduce_plots_the_reaction_of_a_solution_log(tmp_path, monkeypatch):
     write_run_sheet(rows, sheet)
     drawn = {}
 
-    def capture(thermogram, result, path):
-        drawn[path.stem] = result
-        return path
+    def capture(thermogram, result):
+        drawn[id(result)] = result
+        return b"png"
 
-    monkeypatch.setattr(calwork.rise, "plot_rise", capture)
+    monkeypatch.setattr(plots, "rise_png", capture)
+    monkeypatch.setattr(plots, "draw_rise_pngs", lambda items: None)
     red = reduce_sheet(sheet)
     report_folder._plots(red, tmp_path, None)
     k01 = next(r for r in red.runs if r.run == "K01")
     reaction = k01.rise[k01.details["reaction_event_index"]]
-    assert drawn["K01"] is reaction
+    assert drawn.get(id(reaction)) is reaction  # the plot of K01 is the reaction's
+    assert (tmp_path / "K01.png").read_bytes() == b"png"
+    drawn = {"K01": reaction}
     assert drawn["K01"].corrected_rise_K < 0  # the endothermic dissolution, not a heater
 
 

@@ -12,9 +12,7 @@ from __future__ import annotations
 
 import io
 import math
-import tempfile
 from collections.abc import Callable
-from pathlib import Path
 from typing import Any
 
 from calwork.core.errors import CalworkError
@@ -249,18 +247,17 @@ def _readings_png(th: Any, title: str) -> bytes:
     return _png(draw, (8.0, 4.5))
 
 
-def _run_figure(run: Any, th: Any, tmp: Path) -> Figure | None:
+def _run_figure(run: Any, th: Any) -> Figure | None:
     if th is None:
         return None
-    from calwork.rise import RiseResult, plot_rise
+    from calwork.report.plots import rise_png
+    from calwork.rise import RiseResult
 
     sim = is_simulated(th)
     label = " (simulated data)" if sim else ""
     rise = primary_rise(run)
     if isinstance(rise, RiseResult):
-        path = tmp / f"run-{len(list(tmp.iterdir()))}.png"
-        plot_rise(th, rise, path)
-        return Figure(path.read_bytes(), f"Thermogram of run {run.run}{label}",
+        return Figure(rise_png(th, rise), f"Thermogram of run {run.run}{label}",
                       f"Run {run.run}{label}: readings, fore/main/after periods, fitted drift "
                       "model extended over the main period, residuals of the drift fits "
                       "(calwork.rise.plot_rise).", sim)
@@ -269,7 +266,7 @@ def _run_figure(run: Any, th: Any, tmp: Path) -> Figure | None:
                   f"Run {run.run}{label}: readings (no corrected rise to draw).", sim)
 
 
-def _run(run: Any, red: Any, anchor: str, tmp: Path) -> Section:
+def _run(run: Any, red: Any, anchor: str) -> Section:
     th = red.thermograms.get(run.run)
     sim = th is not None and is_simulated(th)
     sec = Section(f"Run {run.run}" + (" (simulated data)" if sim else ""), anchor,
@@ -305,7 +302,7 @@ def _run(run: Any, red: Any, anchor: str, tmp: Path) -> Section:
     if run.error:
         sec.blocks.append(Paragraph(f"error: {run.error}", "error"))
     sec.blocks.extend(Paragraph(w, "warning") for w in run.warnings)
-    figure = _run_figure(run, th, tmp)
+    figure = _run_figure(run, th)
     if figure is not None:
         sec.blocks.append(figure)
     return sec
@@ -329,8 +326,7 @@ def build_document(red: Any) -> Document:
     sections += [_calibration(c, red, _anchor("calibration", c.calorimeter, taken))
                  for c in red.calibrations]
     sections += [_sample(s, red, _anchor("sample", s.sample, taken)) for s in red.samples]
-    with tempfile.TemporaryDirectory(prefix="calwork-report-") as tmp:
-        sections += [_run(r, red, _anchor("run", r.run, taken), Path(tmp)) for r in red.runs]
+    sections += [_run(r, red, _anchor("run", r.run, taken)) for r in red.runs]
     prov = red.provenance
     subtitle = (f"run sheet {red.sheet_path or '(in memory)'}; corrected rise by {red.method}; "
                 f"calwork {prov.calwork_version if prov else calwork_version()}")

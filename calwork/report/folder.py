@@ -69,10 +69,13 @@ def write_outputs(red: Any, out_dir: str | Path, *, plots: bool = True,
 
 
 def _plots(red: Any, out: Path, on_problem: Callable[[str], None] | None) -> list[Path]:
+    from calwork.report.plots import draw_rise_pngs, rise_png
     from calwork.report.texts import primary_rise
-    from calwork.rise import plot_rise
 
     files = []
+    draw_rise_pngs([(red.thermograms[r.run], primary_rise(r)) for r in red.runs
+                    if r.run in red.thermograms
+                    and hasattr(primary_rise(r), "corrected_rise_K")])
     for r in red.runs:
         tg = red.thermograms.get(r.run)
         rise = primary_rise(r)  # for a multi-event (solution) log: the reaction's
@@ -80,7 +83,9 @@ def _plots(red: Any, out: Path, on_problem: Callable[[str], None] | None) -> lis
             continue
         path = out / f"{_safe(r.run)}.png"
         try:
-            plot_rise(tg, rise, path)
+            path.write_bytes(rise_png(tg, rise))
+        except OSError as exc:
+            raise ExportError(f"cannot write the plot ({exc.strerror})", path=path) from None
         except CalworkError as exc:
             if on_problem is None:
                 raise

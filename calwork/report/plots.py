@@ -19,6 +19,7 @@ __all__ = [
     "MARKERS",
     "OKABE_ITO",
     "plot_style",
+    "rise_png",
     "simulated_stamp",
 ]
 
@@ -68,3 +69,71 @@ def simulated_stamp(fig: Any) -> None:
     """Mark a figure as made from simulated data (large grey diagonal text)."""
     fig.text(0.5, 0.5, "SIMULATED DATA", fontsize=34, color="#999999", alpha=0.35,
              ha="center", va="center", rotation=25, zorder=0)
+
+
+#: PNG images of run plots already drawn, by the rise record (kept with it, so that its id
+#: is not reused): the --out folder and the report of one reduction draw each plot once.
+_RISE_PNGS: dict[int, tuple[Any, bytes]] = {}
+_RISE_PNG_CACHE = 256
+
+
+def rise_png(thermogram: Any, rise: Any) -> bytes:
+    """The run plot (:func:`calwork.rise.plot_rise`) of ``rise`` as PNG bytes, drawn once per
+    rise record."""
+    import io
+
+    from calwork.rise import plot_rise
+
+    found = _RISE_PNGS.get(id(rise))
+    if found is not None and found[0] is rise:
+        return found[1]
+    buffer = io.BytesIO()
+    plot_rise(thermogram, rise, buffer)
+    data = buffer.getvalue()
+    if len(_RISE_PNGS) >= _RISE_PNG_CACHE:
+        _RISE_PNGS.pop(next(iter(_RISE_PNGS)))
+    _RISE_PNGS[id(rise)] = (rise, data)
+    return data
+
+
+#: The (thermogram, rise) pairs a forked worker draws (inherited by fork; only indices and
+#: the PNG bytes cross between the processes).
+_PENDING: list[tuple[Any, Any]] = []
+
+
+def _draw_one(index: int) -> bytes:
+    import io
+
+    from calwork.rise import plot_rise
+
+    thermogram, rise = _PENDING[index]
+    buffer = io.BytesIO()
+    plot_rise(thermogram, rise, buffer)
+    return buffer.getvalue()
+
+
+def draw_rise_pngs(items: list[tuple[Any, Any]]) -> None:
+    """Draw the run plots of ``(thermogram, rise)`` pairs into the cache of :func:`rise_png`,
+    on every core of the machine (forked workers; the images are the same as drawn one by
+    one). Where no worker can be started, :func:`rise_png` draws each plot when asked."""
+    import multiprocessing
+    import os
+    from concurrent.futures import ProcessPoolExecutor
+
+    todo = [(th, rise) for th, rise in items if id(rise) not in _RISE_PNGS]
+    workers = min(os.cpu_count() or 1, 4, len(todo))
+    if workers < 2 or "fork" not in multiprocessing.get_all_start_methods():
+        return
+    _PENDING[:] = todo
+    try:
+        with ProcessPoolExecutor(workers, mp_context=multiprocessing.get_context("fork")) as pool:
+            images = list(pool.map(_draw_one, range(len(todo)),
+                                   chunksize=max(1, len(todo) // (4 * workers))))
+    except Exception:
+        return
+    finally:
+        _PENDING.clear()
+    for (_, rise), data in zip(todo, images, strict=True):
+        if len(_RISE_PNGS) >= _RISE_PNG_CACHE:
+            _RISE_PNGS.pop(next(iter(_RISE_PNGS)))
+        _RISE_PNGS[id(rise)] = (rise, data)

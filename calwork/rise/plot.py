@@ -33,8 +33,9 @@ def plot_rise(thermogram: Thermogram, result: RiseResult, path_or_ax: Any) -> An
     result
         Its :class:`~calwork.rise.result.RiseResult`.
     path_or_ax
-        A file name (``.png``, ``.pdf``, ``.svg``; the figure is written and closed) or a
-        matplotlib ``Axes`` to draw the thermogram panel into (no residual panel then).
+        A file name (``.png``, ``.pdf``, ``.svg``; the figure is written and closed), a binary
+        file object (PNG is written to it), or a matplotlib ``Axes`` to draw the thermogram
+        panel into (no residual panel then).
 
     Returns
     -------
@@ -55,13 +56,19 @@ def plot_rise(thermogram: Thermogram, result: RiseResult, path_or_ax: Any) -> An
         window = result.events[result.event - 1]
         thermogram = thermogram.window(window["window_start_s"], window["window_end_s"])
 
-    if isinstance(path_or_ax, (str, Path)):
+    if isinstance(path_or_ax, (str, Path)) or hasattr(path_or_ax, "write"):
         matplotlib.use("Agg", force=False)
         from matplotlib.figure import Figure
 
-        fig = Figure(figsize=(8.0, 6.0), layout="constrained")
+        # fixed margins (the labels have fixed sizes): a constrained layout cost a third of
+        # the drawing time of a run plot
+        fig = Figure(figsize=(8.0, 6.0))
+        fig.subplots_adjust(left=0.1, right=0.97, top=0.94, bottom=0.08, hspace=0.08)
         ax, axr = fig.subplots(2, 1, sharex=True, height_ratios=(3, 1))
         _draw(thermogram, result, ax, axr)
+        if hasattr(path_or_ax, "write"):
+            fig.savefig(path_or_ax, dpi=120, format="png")
+            return path_or_ax
         path = Path(path_or_ax)
         try:
             fig.savefig(path, dpi=120)
@@ -109,7 +116,10 @@ def _draw(th: Thermogram, res: RiseResult, ax, axr) -> None:
     ax.set_title(f"Corrected temperature rise ({res.method}{rule}): "
                  f"{res.corrected_rise_K:.6f} ± {res.u_corrected_rise_K:.2g} K (u)")
     ax.set_ylabel("temperature / K")
-    ax.legend(loc="best", fontsize=7, framealpha=0.85)
+    # the corner the drift periods leave free: above the fore period for a rise, below it
+    # for a fall (a 'best' search over thousands of readings is slow)
+    ax.legend(loc="upper left" if res.corrected_rise_K >= 0 else "lower left", fontsize=7,
+              framealpha=0.85)
     ax.grid(True, linewidth=0.3, color="0.8")
     if axr is None:
         ax.set_xlabel("time / min")
@@ -124,5 +134,5 @@ def _draw(th: Thermogram, res: RiseResult, ax, axr) -> None:
              marker="^", markersize=2.5, color=_VERMILION, label="after residuals")
     axr.set_ylabel("residual / mK")
     axr.set_xlabel("time / min")
-    axr.legend(loc="best", fontsize=7)
+    axr.legend(loc="upper right", fontsize=7, framealpha=0.85)
     axr.grid(True, linewidth=0.3, color="0.8")
