@@ -49,7 +49,7 @@ def run(args: argparse.Namespace) -> int:
     from calwork.report.plain import render_text
     from calwork.report.summary import summary_document
 
-    red = reduce_sheet(sample_sheet(), method=args.method)
+    red = reduce_sheet(sample_sheet(), method=args.method, progress=not args.json)
     out = Path(args.out)
     written = write_outputs(red, out, plots=not args.no_plots,
                             on_problem=lambda text: print(f"calwork demo: {text}",
