@@ -29,11 +29,7 @@ def write_document(doc: Any, path: str | Path) -> Path:
     ExportError
         Unknown suffix, or the file cannot be written.
     """
-    path = Path(path)
-    suffix = path.suffix.lower()
-    if suffix not in DOCUMENT_FORMATS:
-        raise ExportError("unknown output format", path=path, found=path.suffix,
-                          expected=f"one of {list(DOCUMENT_FORMATS)}")
+    path, suffix = _checked(path, DOCUMENT_FORMATS, "unknown output format")
     if suffix == ".xlsx":
         from calwork.report.workbook import render_workbook
 
@@ -70,15 +66,15 @@ def write_report(reduction: Any, path: str | Path) -> Path:
     ExportError
         Unknown suffix, or the file cannot be written.
     """
+    path, _ = _checked(path, REPORT_FORMATS, "a report is written as HTML or PDF")
+    return write_document(build_document(reduction), path)
+
+
+def _checked(path: str | Path, formats: tuple[str, ...], message: str) -> tuple[Path, str]:
+    """The path and its (lower-case) suffix, which must be one of ``formats``."""
     path = Path(path)
     suffix = path.suffix.lower()
-    if suffix not in REPORT_FORMATS:
-        raise ExportError("a report is written as HTML or PDF", path=path, found=path.suffix,
-                          expected=f"one of {list(REPORT_FORMATS)}")
-    doc = build_document(reduction)
-    with atomic_target(path, what="report") as tmp:
-        if suffix == ".pdf":
-            render_pdf(doc, tmp)
-        else:
-            tmp.write_text(render_html(doc), encoding="utf-8")
-    return path
+    if suffix not in formats:
+        raise ExportError(message, path=path, found=path.suffix,
+                          expected=f"one of {list(formats)}")
+    return path, suffix
