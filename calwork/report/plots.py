@@ -80,20 +80,28 @@ _RISE_PNG_CACHE = 256
 def rise_png(thermogram: Any, rise: Any) -> bytes:
     """The run plot (:func:`calwork.rise.plot_rise`) of ``rise`` as PNG bytes, drawn once per
     rise record."""
+    found = _RISE_PNGS.get(id(rise))
+    if found is not None and found[0] is rise:
+        return found[1]
+    data = _png_of(thermogram, rise)
+    _remember(rise, data)
+    return data
+
+
+def _png_of(thermogram: Any, rise: Any) -> bytes:
     import io
 
     from calwork.rise import plot_rise
 
-    found = _RISE_PNGS.get(id(rise))
-    if found is not None and found[0] is rise:
-        return found[1]
     buffer = io.BytesIO()
     plot_rise(thermogram, rise, buffer)
-    data = buffer.getvalue()
+    return buffer.getvalue()
+
+
+def _remember(rise: Any, data: bytes) -> None:
     if len(_RISE_PNGS) >= _RISE_PNG_CACHE:
         _RISE_PNGS.pop(next(iter(_RISE_PNGS)))
     _RISE_PNGS[id(rise)] = (rise, data)
-    return data
 
 
 #: The (thermogram, rise) pairs a forked worker draws (inherited by fork; only indices and
@@ -102,14 +110,7 @@ _PENDING: list[tuple[Any, Any]] = []
 
 
 def _draw_one(index: int) -> bytes:
-    import io
-
-    from calwork.rise import plot_rise
-
-    thermogram, rise = _PENDING[index]
-    buffer = io.BytesIO()
-    plot_rise(thermogram, rise, buffer)
-    return buffer.getvalue()
+    return _png_of(*_PENDING[index])
 
 
 def draw_rise_pngs(items: list[tuple[Any, Any]]) -> None:
@@ -134,6 +135,4 @@ def draw_rise_pngs(items: list[tuple[Any, Any]]) -> None:
     finally:
         _PENDING.clear()
     for (_, rise), data in zip(todo, images, strict=True):
-        if len(_RISE_PNGS) >= _RISE_PNG_CACHE:
-            _RISE_PNGS.pop(next(iter(_RISE_PNGS)))
-        _RISE_PNGS[id(rise)] = (rise, data)
+        _remember(rise, data)

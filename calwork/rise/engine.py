@@ -53,7 +53,7 @@ from calwork.rise.result import RiseResult
 from calwork.rise.selection import MethodOutput, Selection, select
 from calwork.rise.sparse import (
     interpolation_component_K,
-    reading_resolution_K,
+    record_resolution_K,
     resolution_component_K,
     student_factor,
 )
@@ -239,9 +239,7 @@ def _small_sample_parts(thermogram: Thermogram, sel: Selection, out: MethodOutpu
         warns.append(warning("few-degrees-of-freedom", f"the drift fits rest on {out.dof} "
                              "degrees of freedom: their scatter-based uncertainty is stated "
                              f"{factor:.3g} times wider (Student's t)"))
-    written = thermogram.metadata.get("reading_resolution")  # as the record wrote it
-    resolution = float(written) if written else reading_resolution_K(
-        thermogram.temperature_K, thermogram.metadata.get("temperature_unit"))
+    resolution = record_resolution_K(thermogram)
     if resolution is not None and resolution / math.sqrt(12.0) > out.sigma_K:
         budget["reading-resolution"] = resolution_component_K(
             resolution, out.fit_u_per_sigma_K, out.k_per_s, sel.main_weights_sq_s2())

@@ -56,6 +56,7 @@ from calwork.rise.diagnostics import (
     robust_noise_K,
     warning,
 )
+from calwork.rise.sparse import record_resolution_K
 
 __all__ = ["MIN_DRIFT_READINGS", "Periods", "detect_periods", "given_periods",
            "sparse_periods"]
@@ -435,7 +436,7 @@ def sparse_periods(thermogram: Thermogram, *, fire_time_s: float | None = None,
     where = {"path": thermogram.provenance.source_path}
     t, T = thermogram.time_s, thermogram.temperature_K
     n = t.size
-    q = _written_resolution(thermogram)
+    q = record_resolution_K(thermogram) or 0.0
     rate = np.diff(T) / np.diff(t)
     warnings: list[str] = []
     # the reading error: the resolution's half-step, or the scatter of the first readings
@@ -496,18 +497,6 @@ def sparse_periods(thermogram: Thermogram, *, fire_time_s: float | None = None,
             warnings=(*warnings, *_length_warnings(t, 0, i_f, a0, n)))
     except CalworkError as exc:
         raise exc.with_context(**where) from None
-
-
-def _written_resolution(thermogram: Thermogram) -> float:
-    """The resolution the record is written to, K (0 when unknown)."""
-    written = thermogram.metadata.get("reading_resolution")
-    if written:
-        return float(written)
-    from calwork.rise.sparse import reading_resolution_K
-
-    q = reading_resolution_K(thermogram.temperature_K,
-                             thermogram.metadata.get("temperature_unit"))
-    return q or 0.0
 
 
 def _line_scatter(t: np.ndarray, T: np.ndarray, *, worst: bool = False) -> float:

@@ -30,6 +30,7 @@ __all__ = [
     "RESOLUTION_STEPS_K",
     "interpolation_component_K",
     "reading_resolution_K",
+    "record_resolution_K",
     "resolution_component_K",
     "student_factor",
 ]
@@ -72,6 +73,16 @@ def reading_resolution_K(temperature_K: np.ndarray, unit: str | None) -> float |
         if _on_grid(head, q) and _on_grid(x, q):
             return q
     return None
+
+
+def record_resolution_K(thermogram: Any) -> float | None:
+    """The resolution of a record, K: as a hand-read record writes it (its decimals), else
+    detected from the values (:func:`reading_resolution_K`)."""
+    written = thermogram.metadata.get("reading_resolution")
+    if written:
+        return float(written)
+    return reading_resolution_K(thermogram.temperature_K,
+                                thermogram.metadata.get("temperature_unit"))
 
 
 def _on_grid(x: np.ndarray, q: float) -> bool:
