@@ -4,8 +4,7 @@ from __future__ import annotations
 
 import argparse
 
-from calwork.cli._common import print_json, with_safety_note
-from calwork.cli.network import _write_outputs
+from calwork.cli._common import print_json, with_safety_note, write_document_outputs
 from calwork.report.plain import render_text
 from calwork.report.views import cycle_document
 
@@ -64,7 +63,7 @@ def run(args: argparse.Namespace) -> int:
         # ΔfH° of the target: its formation from the elements ('0 = X' in a network)
         derivation = result.network.derivation(Reaction.formation(result.target))
     doc = cycle_document(result, derivation)
-    _write_outputs(doc, args)
+    write_document_outputs(doc, args)
     if args.json:
         print_json(result)
         return 0

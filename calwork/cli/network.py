@@ -5,7 +5,7 @@ from __future__ import annotations
 import argparse
 
 from calwork.cli._choices import WORST_OFFENDER_MODES
-from calwork.cli._common import print_json, with_safety_note
+from calwork.cli._common import print_json, with_safety_note, write_document_outputs
 from calwork.core.errors import NetworkError
 from calwork.report.plain import render_text
 from calwork.report.views import network_document
@@ -94,7 +94,7 @@ def run(args: argparse.Namespace) -> int:
         target = result.reaction_enthalpy(target)
     doc = network_document(result, source=str(args.file), n_rows=len(network.rows),
                            target=target, derivation=derivation)
-    _write_outputs(doc, args)
+    write_document_outputs(doc, args)
     if args.json:
         out = result.to_dict()
         out["file"] = str(args.file)
@@ -113,19 +113,3 @@ def run(args: argparse.Namespace) -> int:
     print(render_text(doc), end="")
     return 0
 
-
-def _write_outputs(doc, args: argparse.Namespace) -> None:
-    """The workbook and the report asked for (each format from the one document)."""
-    from calwork.core.errors import ExportError
-    from calwork.report.document import write_document
-
-    if args.xlsx:
-        if not str(args.xlsx).lower().endswith(".xlsx"):
-            raise ExportError("--xlsx writes an .xlsx workbook", path=args.xlsx,
-                              expected="a file name ending in .xlsx")
-        write_document(doc, args.xlsx)
-    if args.report:
-        if not str(args.report).lower().endswith((".html", ".htm", ".pdf")):
-            raise ExportError("--report writes HTML or PDF", path=args.report,
-                              expected="a file name ending in .html or .pdf")
-        write_document(doc, args.report)
