@@ -39,6 +39,9 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     p.add_argument("--xlsx", metavar="FILE", help="write a workbook (calwork.report)")
     p.add_argument("--report", metavar="FILE", help="write an HTML or PDF report (by suffix)")
     p.add_argument("--no-plots", action="store_true", help="with --out: skip the plots")
+    p.add_argument("--accept-calibration", action="store_true",
+                   help="exit 0 even when a calibration series fails its acceptance (RSD "
+                        "limit, Grubbs' outlier test); the results say so either way")
     p.add_argument("--rsd-limit", metavar="PERCENT", type=float, default=None,
                    help="acceptance limit on the relative standard deviation of a "
                    "calibration series, %% (default 0.1, common practice)")
@@ -75,4 +78,9 @@ def run(args: argparse.Namespace) -> int:
     failed = [r.run for r in red.runs if r.error]
     if failed and not args.json:
         print(f"\n{len(failed)} run(s) failed: {', '.join(failed)}", file=sys.stderr)
-    return 1 if failed else 0
+    refused = [f"{c.calorimeter} ({'; '.join(c.acceptance_problems)})"
+               for c in red.calibrations if c.acceptance_problems]
+    if refused and not args.accept_calibration:
+        print(f"calwork reduce: calibration series failing acceptance: {', '.join(refused)}; "
+              "give --accept-calibration to accept them", file=sys.stderr)
+    return 1 if failed or (refused and not args.accept_calibration) else 0

@@ -403,6 +403,19 @@ class CalibrationResult(_Record):
     #: shared by calibration and sample runs is propagated with its correlation.
     correction_per_rise_J_per_K: Mapping[str, float] = field(default_factory=dict)
 
+    @property
+    def acceptance_problems(self) -> tuple[str, ...]:
+        """Why the series fails its acceptance (the RSD above its limit, an outlier by
+        Grubbs' test); empty when it passes."""
+        out = []
+        if (self.rsd_limit_percent is not None and self.rsd_percent is not None
+                and self.rsd_percent > self.rsd_limit_percent):
+            out.append(f"RSD {self.rsd_percent:.3f} % above the limit "
+                       f"{self.rsd_limit_percent:g} %")
+        if self.outlier_test.get("outlier"):
+            out.append(f"Grubbs' test flags {self.outlier_test.get('suspect')} as an outlier")
+        return tuple(out)
+
     def __post_init__(self) -> None:
         _check_values(self)
         _check_budget(self.budget)

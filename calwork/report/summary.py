@@ -60,6 +60,8 @@ def summary_document(red: Any) -> Document:
           _fmt(getattr(r, "molar_enthalpy_kJ_per_mol", None), 4),  # solution runs only
           ", ".join(f"{k} {v:.2f}" for k, v in r.corrections_J.items() if v),
           r.error or ""] for r in red.runs])]))
+    failed_cals = {c.calorimeter: "; ".join(c.acceptance_problems) for c in red.calibrations
+                   if c.acceptance_problems}
     if red.samples:
         samples = Section("Samples", "samples")
         for s in red.samples:
@@ -73,6 +75,11 @@ def summary_document(red: Any) -> Document:
                                         f"{s.sample} ({s.formula or 'no formula'}), "
                                         f"{s.n_runs} run(s)"))
             samples.blocks.extend(Paragraph(w, "warning") for w in s.warnings)
+            if s.calorimeter in failed_cals:
+                samples.blocks.append(Paragraph(
+                    f"calibration-not-accepted: {s.sample} is computed from the calibration "
+                    f"series of {s.calorimeter}, which fails its acceptance "
+                    f"({failed_cals[s.calorimeter]})", "warning"))
         sections.append(samples)
     warns = list(red.warnings) + [f"{c.calorimeter}: {w}" for c in red.calibrations
                                   for w in c.warnings]
