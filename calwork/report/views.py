@@ -55,6 +55,16 @@ def _f(value: Any, digits: int) -> str:
     return "" if value is None else f"{value:.{digits}f}"
 
 
+def _small_K(value: float) -> tuple[str, str]:
+    """A small temperature (an uncertainty) in fixed notation with its unit: mK below
+    0.01 K (``0.090 mK``, not ``9e-05``), µK below 0.01 mK."""
+    if value >= 0.01:
+        return f"{value:.3g}", "K"
+    if value >= 1e-5:
+        return f"{value * 1e3:.2g}" if value * 1e3 >= 1 else f"{value * 1e3:.3f}", "mK"
+    return f"{value * 1e6:.3f}", "µK"
+
+
 # --- corrected rise ---------------------------------------------------------------------------
 def rise_document(result: Any) -> Document:
     """One corrected rise (:class:`calwork.rise.RiseResult`): value, u, periods, fit, budget."""
@@ -62,7 +72,7 @@ def rise_document(result: Any) -> Document:
     periods = r.periods
     rows = [
         ("corrected rise ΔT_c", f"{r.corrected_rise_K:.6f}", "K"),
-        ("u (k = 1)", f"{r.u_corrected_rise_K:.2g}", "K"),
+        ("u (k = 1)", *_small_K(r.u_corrected_rise_K)),
         ("method", r.method + (f" ({r.dickinson_rule})" if r.dickinson_rule else ""), ""),
         ("fire time", f"{r.fire_time_s:.1f}", f"s ({periods.fire_source})"),
         ("main period end", f"{r.main_end_s:.1f}", f"s ({periods.main_end_source})"),
@@ -81,7 +91,7 @@ def rise_document(result: Any) -> Document:
     ]
     if r.t_x_s is not None:
         rows.append(("t_x (Dickinson time)", f"{r.t_x_s:.1f}", "s"))
-    rows += [(f"u: {k}", f"{v:.2g}", "K") for k, v in r.uncertainty_budget.items()]
+    rows += [(f"u: {k}", *_small_K(v)) for k, v in r.uncertainty_budget.items()]
     if r.event is not None:
         rows.insert(0, ("event", f"{r.event} of {len(r.events)}",
                         r.events[r.event - 1]["kind"]))
