@@ -335,6 +335,21 @@ def test_fuel_outputs_and_simplifications(dataset):
         fuel["gross_v_as_analysed_J_per_g"] - 212.2 * 6.29, rel=1e-12)
     assert fuel["gross_v_as_analysed_MJ_per_kg"] == pytest.approx(
         fuel["gross_v_as_analysed_J_per_g"] / 1000)
+    # the terminal summary and the HTML report show the same calorific values as the JSON
+    from calwork.report.content import build_document
+    from calwork.report.html import render_html
+    from calwork.report.plain import render_text
+    from calwork.report.summary import summary_document
+
+    text = render_text(summary_document(red), width=120)
+    html = render_html(build_document(red))
+    for key, label in (("gross_v_as_analysed", "gross, constant volume, as analysed"),
+                       ("net_p_as_analysed", "net, constant pressure, as analysed")):
+        value = f"{fuel[key + '_J_per_g']:.1f}"
+        assert label in text
+        assert value in text
+        assert value in html
+    assert "hydrogen 0.0629" in text  # the basis input is named
 
     # without bomb data the chain says which simplification it used
     plain = [replace(i, bomb_volume_L=None, bomb_water_g=None) for i in infos]

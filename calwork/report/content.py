@@ -21,6 +21,7 @@ from calwork.core.results import BombRunResult
 from calwork.core.safety import SAFETY_NOTE
 from calwork.report.model import Document, Figure, Paragraph, Section, Table
 from calwork.report.plots import plot_style, simulated_stamp
+from calwork.report.summary import calorific_value_blocks
 from calwork.report.texts import (
     SIMULATED_NOTE,
     is_simulated,
@@ -211,6 +212,7 @@ def _sample(s: Any, red: Any, anchor: str) -> Section:
             f"ΔfH° = {_pm(s.delta_f_H_kJ_per_mol, s.u_delta_f_H_kJ_per_mol, 2)} kJ/mol (u); "
             f"U = {fmt(s.U_delta_f_H_kJ_per_mol, 2)} kJ/mol (k = {k:g}).")
     sec.blocks.extend(Paragraph(t) for t in lines)
+    sec.blocks += calorific_value_blocks(s, red.run_infos)
     if s.budget:
         sec.blocks.append(_budget_table(s.budget, *s.derived_budgets.values()))
     values = s.key_values_used.get("values") if s.key_values_used else None

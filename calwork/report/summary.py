@@ -10,7 +10,47 @@ from typing import Any
 from calwork.core.safety import SAFETY_NOTE
 from calwork.report.model import Document, Paragraph, Section, Table
 
-__all__ = ["summary_document"]
+__all__ = ["calorific_value_blocks", "summary_document"]
+
+#: The fuel outputs of a sample (``SampleResult.fuel``) by the words a fuel lab uses.
+_CALORIFIC = (
+    ("gross_v_as_analysed", "gross, constant volume, as analysed"),
+    ("gross_v_dry", "gross, constant volume, dry"),
+    ("gross_v_dry_ash_free", "gross, constant volume, dry ash-free"),
+    ("net_p_as_analysed", "net, constant pressure, as analysed"),
+    ("net_v_as_analysed", "net, constant volume, as analysed"),
+    ("net_p_dry", "net, constant pressure, dry"),
+    ("net_v_dry", "net, constant volume, dry"),
+)
+_INPUTS = (("moisture_mass_fraction", "moisture"), ("hydrogen_mass_fraction", "hydrogen"),
+           ("ash_mass_fraction", "ash"), ("oxygen_mass_fraction", "oxygen"),
+           ("nitrogen_mass_fraction", "nitrogen"))
+
+
+def calorific_value_blocks(sample: Any, infos: Any) -> list[Paragraph | Table]:
+    """The calorific values of a fuel sample (positive, by basis, in J/g, MJ/kg, cal_IT/g and
+    Btu_IT/lb where computed) and the analysis inputs they rest on; empty for a non-fuel."""
+    fuel = dict(sample.fuel)
+    if not fuel:
+        return []
+    rows = []
+    for key, label in _CALORIFIC:
+        value = fuel.get(f"{key}_J_per_g")
+        if value is None:
+            continue
+        rows.append([label, f"{value:.1f}", f"{value / 1000.0:.4f}",
+                     _fmt(fuel.get(f"{key}_cal_IT_per_g"), 2),
+                     _fmt(fuel.get(f"{key}_Btu_IT_per_lb"), 1)])
+    info = next((i for i in infos if getattr(i, "sample", None) == sample.sample), None)
+    given = [f"{label} {getattr(info, name):g}" for name, label in _INPUTS
+             if info is not None and getattr(info, name, None) is not None]
+    return [
+        Table(["calorific value", "J/g", "MJ/kg", "cal_IT/g", "Btu_IT/lb"], rows,
+              f"Calorific values of {sample.sample} (positive; fuel conventions)",
+              number_columns=(1, 2, 3, 4)),
+        Paragraph("Basis inputs (mass fractions, as analysed): "
+                  + (", ".join(given) if given else "none given"), "note"),
+    ]
 
 _SAMPLE_VALUES = ("massic_energy_J_per_g", "u_massic_energy_J_per_g",
                   "standard_massic_energy_J_per_g", "u_standard_massic_energy_J_per_g",
@@ -70,10 +110,10 @@ def summary_document(red: Any) -> Document:
             for budget in (s.budget, *s.derived_budgets.values()):
                 rows += [[f"u component of {budget.quantity}: {c.name}",
                           f"{_fmt(c.value, 4)} {c.unit}"] for c in budget.components]
-            rows += [[f"fuel: {k}", _fmt(v, 3)] for k, v in s.fuel.items()]
             samples.blocks.append(Table(["quantity", "value"], rows,
                                         f"{s.sample} ({s.formula or 'no formula'}), "
                                         f"{s.n_runs} run(s)"))
+            samples.blocks += calorific_value_blocks(s, red.run_infos)
             samples.blocks.extend(Paragraph(w, "warning") for w in s.warnings)
             if s.calorimeter in failed_cals:
                 samples.blocks.append(Paragraph(
