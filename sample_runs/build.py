@@ -220,7 +220,7 @@ def build_sample_runs(out_dir: str | Path, *, seed: int = 20260302) -> Path:
 
 def write_hand_read_example(path: str | Path, *, seed: int = 20260305) -> Path:
     """A benzoic-acid calibration read by hand (simulated): each minute before firing and
-    after the main period, each 30 s in it, to 0.001 °C, in the transcription format."""
+    after the main period, each 30 s in it, to 0.001 °C, in the hand-read record format."""
     from calwork.io.handread import write_hand_record
     from calwork.simulation import CalorimeterParams, CombustionPulse
     from calwork.simulation.handread import hand_read_record, reading_times_s
