@@ -180,7 +180,7 @@ def test_migrating_a_version_1_labbook(tmp_path):
     _v1_labbook(path)
     with open_labbook(path, user="migrator") as book:
         conn = book.connection
-        assert conn.execute("PRAGMA user_version").fetchone()[0] == 2
+        assert conn.execute("PRAGMA user_version").fetchone()[0] == schema.SCHEMA_VERSION
         (cal,) = book.calibrations()
         assert cal["calorimeter"] == "cal-A"
         assert cal["energy_equivalent_J_per_K"] == 10000.5
@@ -188,7 +188,7 @@ def test_migrating_a_version_1_labbook(tmp_path):
         log = book.audit_log()
         assert [e.action for e in log] == ["create", "add", "migrate"]
         assert log[-1].details["from"] == 1
-        assert log[-1].details["to"] == 2
+        assert log[-1].details["to"] == schema.SCHEMA_VERSION
         assert log[-1].user == "migrator"
         report = book.verify()
         assert report.ok, report.problems

@@ -100,8 +100,8 @@ def test_pdf_has_one_page_per_section(reduction, tmp_path):
     path = write_report(reduction, tmp_path / "report.pdf")
     data = path.read_bytes()
     assert data.startswith(b"%PDF")
-    # summary + each calibration + each sample series + each run
-    expected = 1 + len(reduction.calibrations) + len(reduction.samples) + len(reduction.runs)
+    # summary + review table + each calibration + each sample series + each run
+    expected = 2 + len(reduction.calibrations) + len(reduction.samples) + len(reduction.runs)
     assert _pdf_pages(data) == expected
 
 

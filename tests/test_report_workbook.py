@@ -163,8 +163,8 @@ def test_readings_round_trip(book, reduction):
 def test_layout_units_frozen_headers_widths(book):
     wb = openpyxl.load_workbook(book)
     expected = ["Summary", "Calibration runs", "Sample runs", "Corrections",
-                "Uncertainty budget", "Formation", "Provenance"]
-    assert wb.sheetnames[:7] == expected
+                "Uncertainty budget", "Formation", "Review", "Provenance"]
+    assert wb.sheetnames[:8] == expected
     for name in expected[1:6]:
         ws = wb[name]
         assert ws.freeze_panes == "B2", name

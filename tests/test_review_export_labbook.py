@@ -84,10 +84,11 @@ def test_deleted_calibrations_row_is_named(book, tmp_path, capsys):
 
 
 def test_edited_void_reason_is_named(book, tmp_path, capsys):
-    path = _tampered(book, tmp_path, "run_voids", "UPDATE run_voids SET reason = 'typo'")
+    path = _tampered(book, tmp_path, "run_events",
+                     "UPDATE run_events SET reason = 'typo' WHERE action = 'void'")
     code, problems = _verify(capsys, path)
     assert code == 1
-    assert any("run_voids row for run 'sample-02'" in p and "reason" in p
+    assert any("void of run 'sample-02'" in p and "reason" in p
                for p in problems), problems
 
 

@@ -29,7 +29,7 @@ from calwork.core.results import (
     SampleResult,
     failed_run,
 )
-from calwork.core.runinfo import BOMB_KINDS, RunInfo
+from calwork.core.runinfo import BOMB_KINDS, RunInfo, within_limits
 from calwork.core.statistics import DEFAULT_RSD_LIMIT_PERCENT
 from calwork.io import load_run_log
 from calwork.rise import corrected_rise
@@ -44,7 +44,8 @@ def _read_and_rise(info: RunInfo, method: str) -> tuple[Any, Any]:
     except CalworkError as exc:
         return exc, None
     try:
-        rise = corrected_rise(tg, method, event=info.event,
+        limited = within_limits(info, tg)
+        rise = corrected_rise(limited, info.rise_method or method, event=info.event,
                               fire_time_s=on_axis_s(info.fire_time_s, tg, column="fire_time_s"),
                               main_end_s=on_axis_s(info.main_end_s, tg, column="main_end_s"))
     except CalworkError as exc:

@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import argparse
-from dataclasses import replace
 
 from calwork.cli._common import print_json, with_safety_note
 from calwork.cli.labbook import _common
@@ -55,50 +54,15 @@ def register(subparsers: argparse._SubParsersAction) -> None:
 
 
 def _qa(args: argparse.Namespace) -> int:
-    from calwork.core.errors import CalibrationError
     from calwork.labbook import Filters, open_labbook
-    from calwork.qa import control_chart, parse_rules
+    from calwork.labbook.quality import calibration_chart
+    from calwork.qa import parse_rules
 
     rules = parse_rules(args.rules)
     filters = Filters(since=args.since, until=args.until)
     with open_labbook(args.labbook, user=args.user, timeout_s=args.timeout) as book:
-        known = sorted({r["calorimeter"] for r in book.runs() if r.get("calorimeter")})
-        if args.calorimeter not in known:
-            same = [k for k in known if k.lower() == args.calorimeter.lower()]
-            hint = f"; did you mean {same[0]!r}?" if same else ""
-            raise CalibrationError(
-                f"no runs of calorimeter {args.calorimeter!r} in the lab book{hint}",
-                found=args.calorimeter, expected=f"one of {known}" if known else
-                "a lab book with calibration runs")
-        points, notes = book.calibration_series(args.calorimeter, filters)
-        first_series = book.first_series_runs(args.calorimeter)
-    if len(points) < 2:
-        raise CalibrationError(
-            f"calorimeter {args.calorimeter!r} has {len(points)} usable calibration run(s) "
-            "in the lab book", expected="at least 2 active calibration runs")
-    labels = [p["run"] for p in points]
-    kwargs: dict = {}
-    if args.baseline is not None:
-        kwargs["baseline_n"] = args.baseline
-    else:
-        in_first = [lab for lab in labels if lab in set(first_series)]
-        if len(in_first) >= 2:
-            kwargs["baseline_labels"] = in_first
-        elif first_series:
-            notes.append("the first calibration series has fewer than 2 active runs here; "
-                         "all points form the baseline")
-        else:
-            notes.append("no calibration series is recorded for this calorimeter; all points "
-                         "form the baseline")
-    chart = control_chart(
-        [p["energy_equivalent_J_per_K"] for p in points], labels,
-        dates=[p["date"] for p in points], rules=rules,
-        title=f"energy equivalent of calorimeter {args.calorimeter}", **kwargs)
-    if kwargs.get("baseline_labels"):
-        chart = replace(chart,
-                        baseline_source="first calibration series recorded for the calorimeter")
-    if notes:
-        chart = replace(chart, notes=(*chart.notes, *notes))
+        chart = calibration_chart(book, args.calorimeter, filters, baseline_n=args.baseline,
+                                  rules=rules)
     if args.plot:
         from calwork.qa import plot_control_chart
 

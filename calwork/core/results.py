@@ -258,6 +258,10 @@ class RunResult(_Record):
     #: per run kind (:class:`BombRunDetails`, :class:`SolutionRunDetails`).
     details: RunDetails = field(default_factory=dict)  # type: ignore[assignment]
     provenance: Provenance | None = None
+    #: The period boundaries of the rise behind the numbers, s on the log's axis, and where
+    #: each came from (``fire_source``/``main_end_source``: detected, given, heater-channel):
+    #: taken from the rise record when there is one, kept when read back from JSON.
+    periods: Mapping[str, Any] = field(default_factory=dict)
 
     def __post_init__(self) -> None:
         if type(self) is RunResult:
@@ -268,7 +272,9 @@ class RunResult(_Record):
             raise ValueError(f"{type(self).__name__} serves the run kinds {list(self.KINDS)}, "
                              f"not {self.kind!r}")
         object.__setattr__(self, "details", _details_for(self.kind, self.details))
-        _freeze(self, "corrections_J")
+        if not self.periods:
+            object.__setattr__(self, "periods", _periods_of(self))
+        _freeze(self, "corrections_J", "periods")
         object.__setattr__(self, "warnings", tuple(self.warnings))
 
     def to_dict(self) -> dict[str, Any]:
@@ -359,8 +365,27 @@ _RUN_JSON_KEYS = (
     "massic_energy_J_per_g", "standard_massic_energy_J_per_g", "washburn_J",
     "heater_energy_J", "reaction_heat_J", "molar_enthalpy_kJ_per_mol",
     "u_molar_enthalpy_kJ_per_mol", "final_molality_mol_per_kg", "dilution_ratio",
-    "reference_temperature_K", "warnings", "error", "details", "provenance")
+    "reference_temperature_K", "warnings", "error", "details", "periods", "provenance")
 assert set(_RUN_JSON_KEYS) == _ALL_RUN_FIELDS - {"rise"}, "a run field is missing from its JSON"
+
+
+#: The boundary keys a run record keeps from its rise's periods.
+_PERIOD_KEYS = ("fore_period_s", "fire_time_s", "main_end_s", "after_period_s",
+                "fire_source", "main_end_source")
+
+
+def _periods_of(run: Any) -> dict[str, Any]:
+    """The boundaries of the run's rise (for a multi-event log, the reaction event's,
+    ``details.reaction_event_index``, else the first), or ``{}`` without a rise."""
+    rise = getattr(run, "rise", None)
+    if isinstance(rise, tuple | list):
+        index = getattr(run.details, "reaction_event_index", None)
+        rise = (rise[index] if isinstance(index, int) and 0 <= index < len(rise)
+                else rise[0] if rise else None)
+    periods = getattr(rise, "periods", None)
+    if periods is None:
+        return {}
+    return {k: jsonable(getattr(periods, k)) for k in _PERIOD_KEYS}
 
 
 def run_result(kind: str, **values: Any) -> RunResult:
@@ -511,9 +536,13 @@ class Reduction:
     run_infos: tuple[Any, ...] = ()
     #: Thermograms read, by run id (not serialised; for plots and workbooks).
     thermograms: Mapping[str, Any] = field(default_factory=dict, repr=False)
+    #: For runs read back from a lab book: each run's review record by run id (``state``,
+    #: ``version``, ``approved_by``, ``approved_utc``, ``overrides`` in force...); empty for
+    #: a reduction of a sheet on disk.
+    review: Mapping[str, Mapping[str, Any]] = field(default_factory=dict)
 
     def __post_init__(self) -> None:
-        _freeze(self, "covariance", "thermograms")
+        _freeze(self, "covariance", "thermograms", "review")
         object.__setattr__(self, "run_infos", tuple(self.run_infos))
         for name in ("calibrations", "runs", "samples", "warnings"):
             object.__setattr__(self, name, tuple(getattr(self, name)))
@@ -528,7 +557,7 @@ class Reduction:
             "sheet_path": self.sheet_path,
             "warnings": list(self.warnings),
             "provenance": None if self.provenance is None else self.provenance.to_dict(),
-        }
+        } | ({"review": jsonable(self.review)} if self.review else {})
 
 
 def failed_run(info: Any, exc: Any, *, rise: Any = None) -> RunResult:

@@ -7,9 +7,10 @@ from collections.abc import Mapping
 from dataclasses import dataclass, field, fields
 from pathlib import Path
 from types import MappingProxyType
+from typing import Any
 
 from calwork.core.errors import RunError
-from calwork.core.logtime import LogTime, parse_log_time
+from calwork.core.logtime import LogTime, on_axis_s, parse_log_time
 
 __all__ = [
     "BOMB_KINDS",
@@ -19,8 +20,10 @@ __all__ = [
     "RUN_KINDS",
     "RUN_SHEET_COLUMNS",
     "SOLUTION_KINDS",
+    "TIME_COLUMNS",
     "RunInfo",
     "column_problem",
+    "within_limits",
 ]
 
 #: Run kinds of the oxygen-bomb chain (:func:`calwork.bomb.pipeline.reduce_bomb_runs`).
@@ -84,6 +87,9 @@ EXTENSION_COLUMNS: dict[str, type] = {
     "main_end_s": LogTime,             # override of the detected end of the main period
     #                                    (seconds, a time with a unit or a clock time in the
     #                                    log's notation: calwork.core.logtime)
+    "fore_start_s": LogTime,           # readings before this time are left out (a limit)
+    "after_end_s": LogTime,            # readings after this time are left out (a limit)
+    "rise_method": str,                # this run's corrected-rise method (else the reduction's)
     "event": int,                      # which heat event of a multi-event log (1-based)
     "sensor": str,                     # 'pt100', 'pt1000', 'steinhart-hart' for resistance logs
     "hydrogen_mass_fraction": float,   # fuel outputs (net calorific value)
@@ -94,6 +100,9 @@ EXTENSION_COLUMNS: dict[str, type] = {
     "sulfur_convention": str,          # 'fuel' (SO2(g)) or 'thermochemical' (H2SO4·115H2O)
 }
 
+
+#: Columns holding a time on the log's axis (seconds, a time with a unit or a clock time).
+TIME_COLUMNS = ("fire_time_s", "main_end_s", "fore_start_s", "after_end_s")
 
 #: Quantities that must be > 0 where given.
 POSITIVE_COLUMNS = frozenset({
@@ -181,6 +190,9 @@ class RunInfo:
     #: that the chain places on the log's axis
     fire_time_s: float | LogTime | None = None
     main_end_s: float | LogTime | None = None
+    fore_start_s: float | LogTime | None = None
+    after_end_s: float | LogTime | None = None
+    rise_method: str | None = None
     event: int | None = None
     sensor: str | None = None
     hydrogen_mass_fraction: float | None = None
@@ -200,7 +212,7 @@ class RunInfo:
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "extra", MappingProxyType(dict(self.extra)))
-        for name in ("fire_time_s", "main_end_s"):  # a time as written (a stored row, the API)
+        for name in TIME_COLUMNS:  # a time as written (a stored row, the API)
             value = getattr(self, name)
             if isinstance(value, str):
                 object.__setattr__(self, name, parse_log_time(value, column=name))
@@ -226,3 +238,34 @@ class RunInfo:
             for f in fields(self)
             if f.name in names and getattr(self, f.name) is not None
         }
+
+
+def within_limits(info: RunInfo, thermogram: Any) -> Any:
+    """The readings of ``thermogram`` between the run's ``fore_start_s`` and ``after_end_s``
+    (each a limit when given: readings before the first and after the second are left out,
+    e.g. a disturbance before the fore period or a lid opened after the run); the whole
+    record when neither is given.
+
+    Raises
+    ------
+    RunError
+        The limits are out of order, or fewer than two readings lie between them.
+    """
+    if info.fore_start_s is None and info.after_end_s is None:
+        return thermogram
+    t = thermogram.time_s
+    start = on_axis_s(info.fore_start_s, thermogram, column="fore_start_s")
+    end = on_axis_s(info.after_end_s, thermogram, column="after_end_s")
+    lo = float(t[0]) if start is None else float(start)
+    hi = float(t[-1]) if end is None else float(end)
+    if not hi > lo:
+        raise RunError("the after-period end must come after the fore-period start",
+                       run=info.run, column="after_end_s", found=(lo, hi),
+                       expected="fore_start_s < after_end_s on the log's time axis")
+    limited = thermogram.window(lo, hi)
+    if limited.n_points < 2:
+        raise RunError("fewer than two readings lie between fore_start_s and after_end_s",
+                       run=info.run, column="fore_start_s", found=(lo, hi),
+                       expected=f"limits inside the record ({float(t[0]):g} to "
+                       f"{float(t[-1]):g} s)")
+    return limited

@@ -13,10 +13,18 @@ from calwork.io.sensors import (
     steinhart_hart_resistance_ohm,
     steinhart_hart_temperature_K,
 )
-from calwork.io.sheets import load_run_log, read_run_sheet, unknown_columns
+from calwork.io.sheets import (
+    AMENDABLE_COLUMNS,
+    amended_run,
+    load_run_log,
+    read_run_sheet,
+    unknown_columns,
+)
 from calwork.io.writers import write_log, write_run_sheet
 
 __all__ = [
+    "AMENDABLE_COLUMNS",
+    "amended_run",
     "cvd_resistance_ohm",
     "cvd_temperature_C",
     "load_run_log",

@@ -14,6 +14,7 @@ import io
 import math
 import re
 from collections.abc import Iterable, Mapping
+from dataclasses import replace
 from datetime import date, datetime
 from pathlib import Path, PurePosixPath, PureWindowsPath
 from typing import Any
@@ -44,7 +45,9 @@ from calwork.io.sensors import SENSORS
 from calwork.plausibility import PLAUSIBLE_COLUMNS, check_plausible
 
 __all__ = [
+    "AMENDABLE_COLUMNS",
     "SENSOR_COEFFICIENT_COLUMNS",
+    "amended_run",
     "load_run_log",
     "read_run_sheet",
     "unknown_columns",
@@ -425,6 +428,58 @@ def read_run_sheet(path: str | Path, *, strict: bool = True) -> list[RunInfo]:
     if path.suffix.lower() == ".toml":
         return _build(_toml_records(text, path), path, strict)
     return _build(_table_records(_csv_rows(text, path), path), path, strict)
+
+
+#: Run-sheet columns an amendment may change: every contract and extension column except the
+#: run id and the kind (a different run or kind is a new run: void this one, add that one).
+AMENDABLE_COLUMNS = tuple(name for name in _TYPES if name not in ("run", "kind"))
+
+
+def amended_run(info: RunInfo, changes: Mapping[str, Any], *,
+                source: str = "amendment") -> RunInfo:
+    """``info`` with the run-sheet cells in ``changes`` replaced, each read and checked
+    exactly as the sheet reader reads that column (numbers, units' plausibility, times in
+    the log's notation, log paths inside the sheet's folder); a blank value clears the cell.
+
+    Parameters
+    ----------
+    info
+        The run as read from its sheet.
+    changes
+        Column name (as in the sheet, case-insensitive) → cell text (or a number).
+    source
+        Named as the "file" of an error (e.g. ``'--set'``).
+
+    Raises
+    ------
+    SheetError, LogPathError, UnitError
+        An unknown or unchangeable column, or a value the sheet would refuse, naming the
+        column, what was found and what was expected.
+
+    Examples
+    --------
+    >>> from calwork.core.runinfo import RunInfo
+    >>> run = RunInfo(run="c1", kind="combustion", mass_g=0.9821)
+    >>> amended_run(run, {"mass_g": "0.9812", "fire_time_s": "5:12"}).mass_g
+    0.9812
+    """
+    values: dict[str, Any] = {}
+    for key, raw in changes.items():
+        name = _BY_KEY.get(str(key).strip().lower())
+        where = {"path": source, "line": info.line, "column": str(key), "run": info.run}
+        if name is None:
+            raise SheetError("not a run-sheet column", found=key,
+                             expected=f"one of {list(AMENDABLE_COLUMNS)}", **where)
+        if name not in AMENDABLE_COLUMNS:
+            raise SheetError(f"the {name} of a recorded run cannot be amended", found=raw,
+                             expected="a new run (void this one and record the new one)",
+                             **where)
+        value = _typed(name, raw, {**where, "column": name})
+        if name == "log" and value is not None:
+            folder = (info.sheet_path.parent if info.sheet_path is not None else Path.cwd())
+            values["log_path"] = _resolve_log(value, folder, {**where, "column": "log"})
+        values[name] = value
+    return replace(info, **values)
 
 
 def unknown_columns(runs: Iterable[RunInfo]) -> list[str]:

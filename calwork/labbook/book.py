@@ -6,7 +6,7 @@ import functools
 import json
 import os
 import sqlite3
-from collections.abc import Callable
+from collections.abc import Callable, Mapping
 from pathlib import Path
 from typing import Any, TypeVar
 
@@ -17,7 +17,8 @@ from calwork.core.errors import (
     LabbookIntegrityError,
 )
 from calwork.core.results import Reduction
-from calwork.labbook import audit, ingest, queries, store
+from calwork.labbook import amend_sheet as _amend_sheet
+from calwork.labbook import audit, ingest, lifecycle, queries, store
 from calwork.labbook import backup as _backup
 from calwork.labbook import export as _export
 from calwork.labbook import recompute as _recompute
@@ -102,7 +103,57 @@ class Labbook:
     def void(self, run: str, *, reason: str) -> audit.AuditEntry:
         """Mark ``run`` void with a reason (audited; the run stays on record) and re-reduce
         its sheet without it, so later series exclude it."""
-        return ingest.void_run(self._conn, self.path, run, reason=reason, user=self.user)
+        return lifecycle.void_run(self._conn, self.path, run, reason=reason, user=self.user)
+
+    @_guarded
+    def restore(self, run: str, *, reason: str) -> audit.AuditEntry:
+        """Undo a void with a reason (audited) and re-reduce the sheet with the run."""
+        return lifecycle.restore_run(self._conn, self.path, run, reason=reason,
+                                     user=self.user)
+
+    @_guarded
+    def amend(self, run: str, changes: Mapping[str, Any], *,
+              reason: str) -> lifecycle.AmendResult:
+        """Record a new version of ``run`` with the run-sheet cells ``changes`` (column →
+        cell text) overridden, and re-reduce its sheet (see :mod:`calwork.labbook.lifecycle`)."""
+        return lifecycle.amend_run(self._conn, self.path, run, changes, reason=reason,
+                                   user=self.user)
+
+    @_guarded
+    def approve(self, run: str, *, note: str = "",
+                expect_version: int | None = None) -> audit.AuditEntry:
+        """Approve the current version of ``run`` (refused if it is not ``expect_version``)."""
+        return lifecycle.approve_run(self._conn, self.path, run, user=self.user, note=note,
+                                     expect_version=expect_version)
+
+    @_guarded
+    def amend_from_sheet(self, sheet: str | os.PathLike[str], *,
+                         reason: str) -> list[lifecycle.AmendResult]:
+        """Record each changed row of a corrected sheet whose runs are already recorded as an
+        amendment of that run (see :func:`calwork.labbook.amend_sheet.amend_from_sheet`)."""
+        return _amend_sheet.amend_from_sheet(self._conn, self.path, sheet, reason=reason,
+                                             user=self.user)
+
+    @_guarded
+    def set_setting(self, key: str, value: str, *, reason: str = "") -> audit.AuditEntry:
+        """Change a lab-book setting (``four_eyes``: ``on``/``off``), audited."""
+        return lifecycle.set_setting(self._conn, self.path, key, value, user=self.user,
+                                     reason=reason)
+
+    @_guarded
+    def setting(self, key: str) -> str:
+        """The current value of a lab-book setting."""
+        return lifecycle.setting(self._conn, key)
+
+    @_guarded
+    def states(self, runs: list[str] | None = None) -> dict[str, lifecycle.RunState]:
+        """State, version, overrides and approvals of each run (or of ``runs``)."""
+        return lifecycle.run_states(self._conn, runs)
+
+    @_guarded
+    def versions(self, run: str) -> list[dict[str, Any]]:
+        """The versions of ``run``: cells, result and the change from the version before."""
+        return queries.run_versions(self._conn, run)
 
     # --- reading ------------------------------------------------------------------------------
     @_guarded
@@ -189,7 +240,7 @@ class Labbook:
     def counts(self) -> dict[str, int]:
         """Row counts of the main tables."""
         out = {}
-        for table in ("blobs", "sheets", "files", "runs", "run_voids", "reductions",
+        for table in ("blobs", "sheets", "files", "runs", "run_events", "reductions",
                       "results", "calibrations", "audit"):
             out[table] = self._conn.execute(f"SELECT COUNT(*) FROM {table}").fetchone()[0]
         return out

@@ -6,7 +6,6 @@ import contextlib
 import json
 import sqlite3
 from collections.abc import Mapping
-from dataclasses import fields
 from pathlib import Path
 from typing import Any
 
@@ -14,7 +13,9 @@ from calwork.core.errors import CalworkError, LabbookError
 from calwork.core.results import CalibrationResult, Reduction, RunResult, SampleResult
 from calwork.core.runinfo import RunInfo
 from calwork.labbook.blobs import get_blob, write_inside
+from calwork.labbook.lifecycle import run_states
 from calwork.labbook.queries import Filters, list_calibrations, list_runs, list_samples
+from calwork.labbook.runlog import stored_info
 
 __all__ = ["export_raw", "rebuild_reduction"]
 
@@ -45,24 +46,20 @@ def _build(cls: type, data: Mapping[str, Any]) -> Any:
     return cls.from_dict(data)
 
 
-def _info(row: Mapping[str, Any], sheet_path: str | None) -> RunInfo:
-    names = {f.name for f in fields(RunInfo)}
-    kwargs = {k: v for k, v in row.items() if k in names and k not in ("log_path",)}
-    log = row.get("log_path")
-    return RunInfo(**kwargs, log_path=None if log is None else Path(log),
-                   sheet_path=None if sheet_path is None else Path(sheet_path))
-
-
 def rebuild_reduction(conn: sqlite3.Connection, filters: Filters | None = None, *,
                       thermograms: bool = True) -> Reduction:
     """A :class:`~calwork.core.results.Reduction` of the selected active runs from the store.
 
     Run, calibration and sample records are the stored (current) results; ``run_infos`` are
-    the stored sheet rows; with ``thermograms`` the logs are read back from the stored bytes.
+    the stored sheet rows with the amendments in force; ``review`` holds each run's state,
+    version and approval; with ``thermograms`` the logs are read back from the stored bytes.
     """
     filters = filters or Filters()
+    from calwork.io import amended_run
+
     runs = list_runs(conn, filters, include_void=False)
     wanted = [r["run"] for r in runs]
+    states = run_states(conn, wanted)
     records, infos, methods, sheets = [], [], set(), set()
     for run in wanted:
         res, row_json, sheet_id, original, method = conn.execute(
@@ -71,7 +68,9 @@ def rebuild_reduction(conn: sqlite3.Connection, filters: Filters | None = None, 
             " JOIN current_reductions red ON red.id = res.reduction_id WHERE r.run = ?",
             (run,)).fetchone()
         records.append(_build(RunResult, json.loads(res)))
-        infos.append(_info(json.loads(row_json), original))
+        info = stored_info(json.loads(row_json), original)
+        in_force = {k: v for k, v in states[run].overrides.items() if k != "log"}
+        infos.append(amended_run(info, in_force) if in_force else info)
         methods.add(method)
         sheets.add(sheet_id)
     wanted_cals = {(c["reduction_id"], c["calorimeter"])
@@ -89,6 +88,8 @@ def rebuild_reduction(conn: sqlite3.Connection, filters: Filters | None = None, 
         method=methods.pop() if len(methods) == 1 else "mixed" if methods else "newton-fit",
         sheet_path=None, run_infos=tuple(infos), thermograms=traces,
         warnings=(f"rebuilt from the lab book ({len(sheets)} sheet(s))",),
+        review={run: {k: v for k, v in states[run].to_dict().items() if k != "events"}
+                for run in wanted},
     )
 
 

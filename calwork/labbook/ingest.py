@@ -1,12 +1,10 @@
-"""Recording a run sheet (``add``) and voiding a run (``void``), each in one transaction.
+"""Recording a run sheet (``add``) in one transaction.
 
 ``add`` reads the sheet and every log it names, reduces the sheet with
 :func:`calwork.reduce.reduce_sheet`, checks that no file changed meanwhile, and then — inside a
 single ``BEGIN IMMEDIATE`` transaction — stores the raw bytes, the sheet's folder layout, the
-runs, the results (failed runs with their error) and one audit entry. ``void`` re-reduces the
-sheet without the void runs from the *stored* bytes and records the new results as the next
-version of the sheet's reduction, so later series (QA, calibrations) exclude the run while
-every earlier number stays on record.
+runs, the results (failed runs with their error) and one audit entry. What happens to a
+recorded run afterwards (amend, approve, void, restore) is :mod:`calwork.labbook.lifecycle`.
 """
 
 from __future__ import annotations
@@ -21,7 +19,6 @@ from typing import Any
 
 from calwork.core.errors import (
     InputFileError,
-    LabbookBusyError,
     LabbookError,
     LogPathError,
     check_choice,
@@ -30,11 +27,11 @@ from calwork.core.provenance import sha256_bytes
 from calwork.core.results import jsonable
 from calwork.labbook import audit
 from calwork.labbook.blobs import put_blob
-from calwork.labbook.reducing import ReducedSheet, reduce_from_path, reduce_stored
+from calwork.labbook.reducing import ReducedSheet, reduce_from_path
 from calwork.labbook.store import crash_point, write_transaction
 
 __all__ = ["AddResult", "add_sheet", "bundle_digest", "date_key", "info_row", "results_digest",
-           "runs_digest", "stored_bundle_digest", "void_run"]
+           "runs_digest", "stored_bundle_digest"]
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -161,7 +158,8 @@ def _conflicts(conn: sqlite3.Connection, infos: Sequence[Any]) -> None:
             raise LabbookError(
                 f"run id already recorded from sheet #{row[1]} {row[2]} (added {row[3]}) "
                 "with different raw data; run ids are unique in a lab book — give new runs "
-                "new ids", path=info.sheet_path, line=info.line, run=row[0], column="run",
+                "new ids, or record a corrected sheet with `labbook add --amend --reason "
+                "TEXT`", path=info.sheet_path, line=info.line, run=row[0], column="run",
             )
 
 
@@ -339,55 +337,6 @@ def results_digest(reduction_json: str, result_hashes: Sequence[str]) -> str:
     """SHA-256 binding a reduction's summary and its results (recorded in the audit log)."""
     return sha256_bytes(audit.canonical_json(
         [sha256_bytes(reduction_json.encode()), list(result_hashes)]).encode())
-
-
-def void_run(conn: sqlite3.Connection, path: Path, run: str, *, reason: str,
-             user: str) -> audit.AuditEntry:
-    """Mark ``run`` void (audited) and record the sheet's reduction without the void runs."""
-    reason = (reason or "").strip()
-    if not reason:
-        raise LabbookError("voiding a run needs a reason", run=run,
-                           expected="--reason TEXT")
-    row = conn.execute(
-        "SELECT r.id, r.sheet_id, v.voided_utc, v.voided_by FROM runs r"
-        " LEFT JOIN run_voids v ON v.run_id = r.id WHERE r.run = ?", (run,),
-    ).fetchone()
-    if row is None:
-        raise LabbookError("run is not in the lab book", run=run, path=path)
-    run_pk, sheet_id, voided_utc, voided_by = row
-    if voided_utc is not None:
-        raise LabbookError(f"run is already void (since {voided_utc}, by {voided_by})",
-                           run=run)
-    current = conn.execute(
-        "SELECT id, version, method FROM current_reductions WHERE sheet_id = ?", (sheet_id,)
-    ).fetchone()
-    active = [r for (r,) in conn.execute(
-        "SELECT run FROM runs WHERE sheet_id = ? AND id NOT IN (SELECT run_id FROM run_voids)"
-        " AND id != ? ORDER BY id", (sheet_id, run_pk))]
-    reduced = reduce_stored(conn, sheet_id, active, method=current[2], full_sheet=False)
-    with write_transaction(conn, path):
-        again = conn.execute(
-            "SELECT id FROM current_reductions WHERE sheet_id = ?", (sheet_id,)).fetchone()
-        voided = conn.execute("SELECT 1 FROM run_voids WHERE run_id = ?", (run_pk,)).fetchone()
-        if again[0] != current[0] or voided:
-            raise LabbookBusyError("the sheet changed while the run was being voided; retry",
-                                   run=run, path=path)
-        now = audit.utc_now()
-        run_ids = dict(conn.execute("SELECT run, id FROM runs WHERE sheet_id = ?", (sheet_id,)))
-        red_id, digest = insert_reduction(conn, sheet_id, current[1] + 1, reduced, run_ids,
-                                          now, user)
-        entry = audit.append(
-            conn, user=user, action="void", obj=f"run:{run}", reason=reason, ts_utc=now,
-            details={"run": run, "sheet": sheet_id, "reduction": red_id,
-                     "version": current[1] + 1, "active_runs": active,
-                     "results_sha256": digest,
-                     "results_meta_sha256": results_meta_digest(conn, red_id)},
-        )
-        conn.execute(
-            "INSERT INTO run_voids (run_id, reason, voided_utc, voided_by, audit_id)"
-            " VALUES (?, ?, ?, ?, ?)", (run_pk, reason, now, user, entry.id),
-        )
-    return entry
 
 
 def loads(text: str | None) -> Any:

@@ -15,9 +15,10 @@ from typing import Any
 from calwork.core.errors import LabbookError, ValueCellError, check_choice
 from calwork.core.runinfo import RUN_KINDS
 from calwork.labbook import audit
+from calwork.labbook.lifecycle import STATES, run_states
 
 __all__ = ["Filters", "calibration_series", "history", "list_calibrations", "list_runs",
-           "list_samples", "natural_key", "show_run"]
+           "list_samples", "natural_key", "run_versions", "show_run"]
 
 #: Run kinds whose per-run energy equivalent is a calibration point (bomb; electrical).
 CALIBRATION_KINDS = ("calibration", "electrical")
@@ -39,17 +40,21 @@ def _iso_bound(text: str | None, name: str) -> str | None:
 
 @dataclass(frozen=True, kw_only=True)
 class Filters:
-    """Selection of runs: by calorimeter, sample, kind and an inclusive date range."""
+    """Selection of runs: by calorimeter, sample, kind, state and an inclusive date range."""
 
     calorimeter: str | None = None
     sample: str | None = None
     kind: str | None = None
     since: str | None = None
     until: str | None = None
+    #: only runs in this state (``recorded``, ``approved`` or ``void``)
+    state: str | None = None
 
     def __post_init__(self) -> None:
         if self.kind is not None:
             check_choice("kind", self.kind, RUN_KINDS)
+        if self.state is not None:
+            check_choice("state", self.state, STATES)
         object.__setattr__(self, "since", _iso_bound(self.since, "since"))
         object.__setattr__(self, "until", _iso_bound(self.until, "until"))
 
@@ -74,10 +79,10 @@ def natural_key(text: str) -> tuple:
 
 _RUN_SQL = """
 SELECT r.id, r.run, r.kind, r.calorimeter, r.sample, r.date, r.date_key, r.sheet_id,
-       s.file_name, v.reason, v.voided_utc, v.voided_by,
+       s.file_name,
        (SELECT res.json FROM results res JOIN reductions red ON red.id = res.reduction_id
         WHERE res.run_id = r.id AND res.type = 'run' ORDER BY red.version DESC LIMIT 1)
-FROM runs r JOIN sheets s ON s.id = r.sheet_id LEFT JOIN run_voids v ON v.run_id = r.id
+FROM runs r JOIN sheets s ON s.id = r.sheet_id
 """
 
 
@@ -92,17 +97,24 @@ def list_runs(conn: sqlite3.Connection, filters: Filters | None = None, *,
             where.append(f"r.{column} = ?")
             params.append(value)
     sql = _RUN_SQL + (" WHERE " + " AND ".join(where) if where else "")
+    states = run_states(conn)
     out = []
     for row in conn.execute(sql, params):
-        (pk, run, kind, cal, sample, date_text, key, sheet_id, sheet_name,
-         reason, voided_utc, voided_by, result) = row
-        if not filters.date_ok(key) or (reason is not None and not include_void):
+        (pk, run, kind, cal, sample, date_text, key, sheet_id, sheet_name, result) = row
+        st = states[run]
+        if not filters.date_ok(key) or (st.state == "void" and not include_void):
+            continue
+        if filters.state is not None and st.state != filters.state:
             continue
         rec = json.loads(result) if result else {}
         out.append({
             "run": run, "kind": kind, "calorimeter": cal, "sample": sample, "date": date_text,
-            "date_key": key, "status": "void" if reason is not None else "active",
-            "void_reason": reason, "voided_utc": voided_utc, "voided_by": voided_by,
+            "date_key": key, "status": "void" if st.state == "void" else "active",
+            "state": st.state, "version": st.version, "approved_by": st.approved_by,
+            "approved_utc": st.approved_utc, "approval_lapsed": st.approval_lapsed,
+            "amended": sorted(st.overrides),
+            "void_reason": st.void_reason, "voided_utc": st.voided_utc,
+            "voided_by": st.voided_by,
             "sheet_id": sheet_id, "sheet": sheet_name,
             "corrected_rise_K": rec.get("corrected_rise_K"),
             "energy_equivalent_J_per_K": rec.get("energy_equivalent_J_per_K"),
@@ -136,7 +148,8 @@ def list_calibrations(conn: sqlite3.Connection, filters: Filters | None = None
         by_cal.setdefault(cal, []).append({
             "calorimeter": cal, "energy_equivalent_J_per_K": eps,
             "u_energy_equivalent_J_per_K": u, "n_runs": n,
-            "rsd_percent": rec.get("rsd_percent"), "valid_from": start, "valid_until": None,
+            "rsd_percent": rec.get("rsd_percent"), "outlier_test": rec.get("outlier_test"),
+            "valid_from": start, "valid_until": None,
             "first_run": first, "last_run": last, "runs": rec.get("runs"),
             "sheet_id": sheet_id, "reduction_id": red_id, "version": version,
         })
@@ -211,8 +224,7 @@ def show_run(conn: sqlite3.Connection, run: str) -> dict[str, Any]:
         ).fetchone()
         log = dict(zip(("rel_path", "original_path", "sha256", "size_bytes",
                         "stored_bytes", "codec"), f, strict=True))
-    void = conn.execute("SELECT reason, voided_utc, voided_by, audit_id FROM run_voids"
-                        " WHERE run_id = ?", (pk,)).fetchone()
+    st = run_states(conn, [run])[run]
     versions = conn.execute(
         "SELECT red.id, red.version, red.method, red.calwork_version, red.created_utc,"
         " red.created_by, res.json, res.constants_json, res.json_sha256 FROM results res"
@@ -223,9 +235,10 @@ def show_run(conn: sqlite3.Connection, run: str) -> dict[str, Any]:
                            (sheet_id,)).fetchone()[0]
     return {
         "run": run, "kind": kind, "calorimeter": cal, "sample": sample, "date": date_text,
-        "status": "void" if void else "active",
-        "void": None if void is None else dict(zip(
-            ("reason", "voided_utc", "voided_by", "audit_id"), void, strict=True)),
+        "status": "void" if st.state == "void" else "active",
+        "void": None if st.state != "void" else {
+            "reason": st.void_reason, "voided_utc": st.voided_utc, "voided_by": st.voided_by},
+        "state": {k: v for k, v in st.to_dict().items() if k != "events"},
         "sheet": {"id": sheet_id, "file_name": sheet[0], "original_path": sheet[1],
                   "sha256": sheet[2], "added_utc": sheet[3], "added_by": sheet[4],
                   "size_bytes": sheet[5], "stored_bytes": sheet[6], "codec": sheet[7],
@@ -241,6 +254,45 @@ def show_run(conn: sqlite3.Connection, run: str) -> dict[str, Any]:
         "result_versions": [{"reduction_id": v[0], "version": v[1], "created_utc": v[4]}
                             for v in versions],
     }
+
+
+_RESULT_KEYS = ("corrected_rise_K", "u_corrected_rise_K", "energy_equivalent_J_per_K",
+                "massic_energy_J_per_g", "molar_enthalpy_kJ_per_mol", "error")
+
+
+def run_versions(conn: sqlite3.Connection, run: str) -> list[dict[str, Any]]:
+    """The versions of ``run``, oldest first: who made each and why, the cells it changed
+    (``changes``: column → [before, after]), the overrides in force, and its result as
+    first reduced (the run's row in the reduction its version created)."""
+    pk, sheet_id = _run_row(conn, run)[:2]
+    added = conn.execute("SELECT added_utc, added_by FROM sheets WHERE id = ?",
+                         (sheet_id,)).fetchone()
+    first = conn.execute("SELECT id FROM reductions WHERE sheet_id = ? AND version = 1",
+                         (sheet_id,)).fetchone()[0]
+
+    def result(reduction_id: int | None) -> dict[str, Any] | None:
+        row = conn.execute("SELECT json, json_sha256 FROM results WHERE reduction_id = ?"
+                           " AND run_id = ? AND type = 'run'", (reduction_id, pk)).fetchone()
+        if row is None:
+            return None
+        rec = audit.json_of(row[0], f"result of run {run}")
+        out = {k: rec.get(k) for k in _RESULT_KEYS if rec.get(k) is not None}
+        return out | {"json_sha256": row[1], "reduction_id": reduction_id}
+
+    versions = [{"version": 1, "action": "recorded", "created_utc": added[0],
+                 "created_by": added[1], "reason": "", "changes": {}, "overrides": {},
+                 "result": result(first)}]
+    for e in run_states(conn, [run])[run].events:
+        if e["action"] != "amend":
+            continue
+        fields_ = e["fields"] or {}
+        versions.append({"version": e["version"], "action": "amended",
+                         "created_utc": e["ts_utc"], "created_by": e["user"],
+                         "reason": e["reason"], "changes": fields_.get("changes") or {},
+                         "overrides": fields_.get("overrides") or {},
+                         "source": fields_.get("source"),
+                         "result": result(e["reduction_id"]), "audit_id": e["audit_id"]})
+    return versions
 
 
 def history(conn: sqlite3.Connection, run: str) -> list[audit.AuditEntry]:

@@ -165,7 +165,8 @@ def _recompute_one(conn: sqlite3.Connection, row: tuple, tolerance: float) -> _T
     tally.runs = len(run_ids)
     try:
         again = reduce_stored(conn, sheet_id, run_ids, method=method,
-                              full_sheet=bool(full_sheet))
+                              full_sheet=bool(full_sheet),
+                              overrides=json.loads(summary_text).get("overrides"))
     except CalworkError as exc:
         tally.differences.append(Difference(
             sheet_id=sheet_id, reduction_id=red_id, record="reduction", field="(whole sheet)",

@@ -53,13 +53,18 @@ def relocate(obj: Any, old: str, new: str) -> Any:
 
 
 def to_records(reduction: Any, *, method: str, expected: Sequence[tuple[str, str]],
-               full_sheet: bool, moved: tuple[str, str] | None = None) -> ReducedSheet:
+               full_sheet: bool, moved: tuple[str, str] | None = None,
+               overrides: Mapping[str, Mapping[str, Any]] | None = None) -> ReducedSheet:
     """Turn a :class:`~calwork.core.results.Reduction` into lab-book rows.
 
     ``expected`` lists ``(run id, kind)`` of the runs handed to the reduction; a run missing
-    from its output is kept as a failed record (a run never disappears).
+    from its output is kept as a failed record (a run never disappears). ``overrides`` (the
+    amended sheet cells the reduction used, by run) are kept in the summary, so that
+    ``recompute`` repeats the reduction exactly.
     """
     data = jsonable(reduction.to_dict())
+    if overrides:
+        data["overrides"] = {run: dict(cells) for run, cells in sorted(overrides.items())}
     if moved is not None:
         data = relocate(data, *moved)
     results: list[tuple[str, str, dict[str, Any]]] = []
@@ -114,14 +119,21 @@ def materialised(conn: sqlite3.Connection, sheet_id: int) -> Iterator[tuple[Path
 
 
 def reduce_stored(conn: sqlite3.Connection, sheet_id: int, run_ids: Sequence[str], *,
-                  method: str, full_sheet: bool) -> ReducedSheet:
-    """Reduce a stored sheet (all its runs, or only ``run_ids``) from the stored bytes."""
-    from calwork.io import read_run_sheet
+                  method: str, full_sheet: bool,
+                  overrides: Mapping[str, Mapping[str, Any]] | None = None) -> ReducedSheet:
+    """Reduce a stored sheet (all its runs, or only ``run_ids``) from the stored bytes, with
+    the amended cells ``overrides`` (run → column → cell text) in place of the sheet's."""
+    from calwork.io import amended_run, read_run_sheet
     from calwork.reduce import reduce_runs, reduce_sheet
 
+    overrides = {run: cells for run, cells in (overrides or {}).items() if cells}
     with materialised(conn, sheet_id) as (sheet, original_dir):
         moved = (str(sheet.parent), original_dir)
         infos = read_run_sheet(sheet)
+        if overrides:
+            full_sheet = False
+            infos = [amended_run(i, overrides[i.run]) if i.run in overrides else i
+                     for i in infos]
         if full_sheet:
             reduction = reduce_sheet(sheet, method=method)
             chosen = list(infos)
@@ -136,4 +148,6 @@ def reduce_stored(conn: sqlite3.Connection, sheet_id: int, run_ids: Sequence[str
                                     results=())
             reduction = reduce_runs(chosen, method=method)
         return to_records(reduction, method=method, full_sheet=full_sheet, moved=moved,
-                          expected=[(i.run, i.kind) for i in chosen])
+                          expected=[(i.run, i.kind) for i in chosen],
+                          overrides={r: c for r, c in overrides.items()
+                                     if r in {i.run for i in chosen}})

@@ -11,8 +11,12 @@ Tables (all insert-only except ``meta``; SQLite triggers reject UPDATE and DELET
 ``sheets``       one row per recorded run sheet (its blob, original path, parsed rows)
 ``files``        the sheet's folder layout: sheet and log files by relative path, with blob hash
 ``runs``         one row per run (run ids are unique in a lab book)
-``run_voids``    a run is void when it has a row here (an audited state change, never a delete)
-``reductions``   one row per reduction of a sheet; ``version`` grows when voiding re-reduces
+``run_events``   the run's life: ``amend`` (a new version with overridden sheet cells),
+                 ``approve``, ``void`` and ``restore``, each with who, when and why (v3; the
+                 v2 ``run_voids`` rows moved here)
+``settings``     lab-book settings (e.g. four-eyes approval), newest row per key wins (v3)
+``reductions``   one row per reduction of a sheet; ``version`` grows with every re-reduction
+                 (void, restore, amendment)
 ``results``      RunResult / CalibrationResult / SampleResult JSON with method and constants
 ``calibrations`` energy equivalents per calorimeter with the run range and start of validity
 ``audit``        the append-only, hash-chained audit log
@@ -38,7 +42,7 @@ APPLICATION_ID = 0x43574C42
 #: Value of the ``meta`` row ``magic``.
 MAGIC = "calwork-labbook"
 #: Schema version written by this calwork.
-SCHEMA_VERSION = 2
+SCHEMA_VERSION = 3
 
 _V1 = """
 CREATE TABLE meta (key TEXT PRIMARY KEY, value TEXT NOT NULL);
@@ -145,6 +149,19 @@ _IMMUTABLE = (
     "blobs", "sheets", "files", "runs", "run_voids", "reductions", "results", "calibrations",
 )
 
+
+def _insert_only(tables: tuple[str, ...]) -> str:
+    return "".join(
+        f"""
+CREATE TRIGGER {t}_no_update BEFORE UPDATE ON {t}
+    BEGIN SELECT RAISE(ABORT, 'calwork lab book: {t} rows are never changed'); END;
+CREATE TRIGGER {t}_no_delete BEFORE DELETE ON {t}
+    BEGIN SELECT RAISE(ABORT, 'calwork lab book: {t} rows are never deleted'); END;
+"""
+        for t in tables
+    )
+
+
 _V2 = """
 CREATE TABLE calibrations (
     id INTEGER PRIMARY KEY,
@@ -159,20 +176,42 @@ CREATE TABLE calibrations (
     last_run TEXT
 );
 CREATE INDEX calibrations_calorimeter ON calibrations (calorimeter, valid_from);
-""" + "".join(
-    f"""
-CREATE TRIGGER {t}_no_update BEFORE UPDATE ON {t}
-    BEGIN SELECT RAISE(ABORT, 'calwork lab book: {t} rows are never changed'); END;
-CREATE TRIGGER {t}_no_delete BEFORE DELETE ON {t}
-    BEGIN SELECT RAISE(ABORT, 'calwork lab book: {t} rows are never deleted'); END;
-"""
-    for t in _IMMUTABLE
-)
+""" + _insert_only(_IMMUTABLE)
+
+
+#: Tables added (insert-only) by version 3.
+_IMMUTABLE_V3 = ("run_events", "settings")
+
+_V3 = """
+CREATE TABLE run_events (
+    id INTEGER PRIMARY KEY,
+    run_id INTEGER NOT NULL REFERENCES runs(id),
+    action TEXT NOT NULL CHECK (action IN ('amend', 'approve', 'void', 'restore')),
+    version INTEGER NOT NULL CHECK (version >= 1),
+    reason TEXT NOT NULL,
+    fields_json TEXT NOT NULL,
+    reduction_id INTEGER REFERENCES reductions(id),
+    result_sha256 TEXT,
+    ts_utc TEXT NOT NULL,
+    user TEXT NOT NULL,
+    audit_id INTEGER NOT NULL UNIQUE
+);
+CREATE INDEX run_events_run ON run_events (run_id, id);
+CREATE TABLE settings (
+    id INTEGER PRIMARY KEY,
+    key TEXT NOT NULL,
+    value TEXT NOT NULL,
+    ts_utc TEXT NOT NULL,
+    user TEXT NOT NULL,
+    audit_id INTEGER NOT NULL UNIQUE
+);
+""" + _insert_only(_IMMUTABLE_V3)
 
 #: Triggers every current lab book must have (``verify`` reports missing ones).
 EXPECTED_TRIGGERS = frozenset(
     ["audit_no_update", "audit_no_delete"]
-    + [f"{t}_no_{op}" for t in _IMMUTABLE for op in ("update", "delete")]
+    + [f"{t}_no_{op}" for t in (*_IMMUTABLE, *_IMMUTABLE_V3) if t != "run_voids"
+       for op in ("update", "delete")]
 )
 
 
@@ -210,6 +249,20 @@ def _migrate_1_to_2(conn: sqlite3.Connection) -> None:
         )
 
 
+def _migrate_2_to_3(conn: sqlite3.Connection) -> None:
+    for statement in _statements(_V3):
+        conn.execute(statement)
+    # the voids of version 2 become the first events of their runs (same who, when, why and
+    # audit entry), and their table goes: a void can now be followed by a restore
+    conn.execute(
+        "INSERT INTO run_events (run_id, action, version, reason, fields_json, reduction_id,"
+        " result_sha256, ts_utc, user, audit_id) SELECT run_id, 'void', 1, reason, '{}', NULL,"
+        " NULL, voided_utc, voided_by, audit_id FROM run_voids ORDER BY audit_id")
+    conn.execute("DROP TRIGGER run_voids_no_update")
+    conn.execute("DROP TRIGGER run_voids_no_delete")
+    conn.execute("DROP TABLE run_voids")
+
+
 def _statements(script: str) -> list[str]:
     """Split a DDL script into statements (triggers contain ``;`` inside BEGIN ... END)."""
     out, buf = [], []
@@ -231,6 +284,8 @@ MIGRATIONS: tuple[tuple[int, str, Callable[[sqlite3.Connection], None]], ...] = 
     (1, "initial schema", _migrate_0_to_1),
     (2, "calibrations table with validity; insert-only triggers on every table",
      _migrate_1_to_2),
+    (3, "run life cycle: amendments, approvals, voids and restores as run events; settings",
+     _migrate_2_to_3),
 )
 
 

@@ -12,8 +12,11 @@ Checks, each naming the failing row id or blob:
    column is still caught);
 6. every sheet has its ``add`` audit entry with the same bundle hash (recomputed from the
    ``files`` rows) and the same ``runs`` rows (a changed run row is named: its columns must
-   agree with its stored sheet row and with its hashed results), and every void has its
-   ``void`` audit entry with the same reason, user and time (and vice versa);
+   agree with its stored sheet row and with its hashed results);
+8. every run event (amendment, approval, void, restore) and every setting repeats the audit
+   entry that recorded it — action, run, who, when, why and the SHA-256 of the whole row
+   (version, changed cells, overrides, approved result, reduction) — and every such audit
+   entry has its row;
 7. every ``calibrations`` row (the energy equivalents that ``labbook list`` and QA read)
    agrees with the hashed calibration result it points at, and every calibration result has
    its row.
@@ -39,6 +42,7 @@ from calwork.labbook.ingest import (
     sheet_record_digest,
     stored_bundle_digest,
 )
+from calwork.labbook.lifecycle import event_digest, run_states
 from calwork.labbook.schema import EXPECTED_TRIGGERS, migrate
 
 __all__ = ["VerifyReport", "verify"]
@@ -85,14 +89,69 @@ def _check_blobs(conn: sqlite3.Connection, problems: list[str]) -> int:
 
 
 def _audit_by(entries: list[audit.AuditEntry], action: str) -> dict[Any, audit.AuditEntry]:
-    key = {"add": "sheet", "void": "run"}[action]
+    key = {"add": "sheet"}[action]
     return {e.details.get(key): e for e in entries if e.action == action}
+
+
+#: Audit actions that record a run event (a ``run_events`` row each).
+_EVENT_ACTIONS = ("amend", "approve", "void", "restore")
+
+
+def _check_events(conn: sqlite3.Connection, entries: list[audit.AuditEntry],
+                  problems: list[str]) -> int:
+    """Each run event (amendment, approval, void, restore) and each setting row must repeat
+    the audit entry that recorded it (its action, run, who, when and why, and the digest of
+    the whole row), and each such audit entry must have its row."""
+    by_id = {e.id: e for e in entries}
+    seen: set[int] = set()
+    n = 0
+    for (eid, run, action, version, reason, fields_json, red_id, res_sha, ts, user,
+         audit_id) in conn.execute(
+            "SELECT e.id, r.run, e.action, e.version, e.reason, e.fields_json,"
+            " e.reduction_id, e.result_sha256, e.ts_utc, e.user, e.audit_id FROM run_events e"
+            " LEFT JOIN runs r ON r.id = e.run_id ORDER BY e.id"):
+        n += 1
+        seen.add(audit_id)
+        entry = by_id.get(audit_id)
+        label = f"run_events row {eid} ({action} of run {run!r})"
+        if entry is None or entry.action != action or entry.object != f"run:{run}":
+            problems.append(f"{label}: no matching {action} audit entry")
+            continue
+        if (reason, ts, user) != (entry.reason, entry.ts_utc, entry.user):
+            problems.append(f"{label}: reason, time or user differ from audit row {entry.id}")
+        recorded = entry.details.get("event_sha256")
+        if recorded is not None and recorded != event_digest(
+                run, action, version, reason, fields_json, red_id, res_sha, ts, user):
+            problems.append(f"{label}: its version, changed fields, overrides, approved "
+                            f"result or reduction differ from those recorded by audit row "
+                            f"{entry.id}")
+        if red_id is not None and entry.details.get("reduction") != red_id:
+            problems.append(f"{label}: points at reductions row {red_id}, audit row "
+                            f"{entry.id} recorded {entry.details.get('reduction')}")
+    problems.extend(f"audit row {e.id}: records a {e.action} of {e.object} but no run event "
+                    "row holds it" for e in entries
+                    if e.action in _EVENT_ACTIONS and e.id not in seen)
+    settings_seen: set[int] = set()
+    for sid, key, value, ts, user, audit_id in conn.execute(
+            "SELECT id, key, value, ts_utc, user, audit_id FROM settings ORDER BY id"):
+        settings_seen.add(audit_id)
+        entry = by_id.get(audit_id)
+        if entry is None or entry.action != "setting" or (
+                entry.details.get("key"), entry.details.get("value"), entry.ts_utc,
+                entry.user) != (key, value, ts, user):
+            problems.append(f"settings row {sid} ({key} = {value}): not as recorded by an "
+                            "audit entry")
+    problems.extend(f"audit row {e.id}: records setting {e.details.get('key')} but no "
+                    "settings row holds it" for e in entries
+                    if e.action == "setting" and e.id not in settings_seen)
+    return n
 
 
 def _check_results(conn: sqlite3.Connection, entries: list[audit.AuditEntry],
                    problems: list[str]) -> int:
     by_reduction = {e.details.get("reduction"): e for e in entries
-                    if e.action in ("add", "void")}
+                    if e.action in ("add", "void", "restore", "amend")
+                    and e.details.get("reduction") is not None}
     n = 0
     hashes: dict[int, list[str]] = {}
     for res_id, red_id, kind, key, text, digest in conn.execute(
@@ -104,8 +163,10 @@ def _check_results(conn: sqlite3.Connection, entries: list[audit.AuditEntry],
             problems.append(f"results row {res_id} ({kind} {key}): JSON does not match its "
                             "SHA-256 (edited)")
         hashes.setdefault(red_id, []).append(actual)
+    present = set()
     for red_id, text, digest, sheet_id in conn.execute(
             "SELECT id, json, json_sha256, sheet_id FROM reductions"):
+        present.add(red_id)
         if sha256_bytes(text.encode()) != digest:
             problems.append(f"reductions row {red_id}: JSON does not match its SHA-256")
         entry = by_reduction.get(red_id)
@@ -120,6 +181,11 @@ def _check_results(conn: sqlite3.Connection, entries: list[audit.AuditEntry],
             problems.append(f"reductions row {red_id} (sheet #{sheet_id}): the stored method, "
                             "calwork version or constants differ from those recorded by audit "
                             f"row {entry.id}")
+    problems.extend(f"results of reductions row {red_id}: the reduction is missing"
+                    for red_id in sorted(set(hashes) - present))
+    problems.extend(f"audit row {e.id} ({e.action} {e.object}): the reduction it recorded "
+                    f"(reductions row {red_id}) is missing"
+                    for red_id, e in sorted(by_reduction.items()) if red_id not in present)
     return n
 
 
@@ -153,24 +219,7 @@ def _check_records(conn: sqlite3.Connection, entries: list[audit.AuditEntry],
             problems.append(f"runs of sheet #{sheet_id}: rows differ from those recorded by "
                             f"audit row {entry.id}")
             problems += _changed_runs(conn, sheet_id)
-    voids = _audit_by(entries, "void")
-    seen = set()
     n_voids = 0
-    for run, audit_id, reason, when, who in conn.execute(
-            "SELECT r.run, v.audit_id, v.reason, v.voided_utc, v.voided_by FROM run_voids v"
-            " JOIN runs r ON r.id = v.run_id"):
-        n_voids += 1
-        seen.add(run)
-        entry = voids.get(run)
-        if entry is None or entry.id != audit_id:
-            problems.append(f"run_voids row for run {run!r}: no matching void audit entry")
-        elif (reason, when, who) != (entry.reason, entry.ts_utc, entry.user):
-            # ingest.void_run writes the row with the audit entry's reason, time and user
-            problems.append(f"run_voids row for run {run!r}: reason, time or user differ from "
-                            f"audit row {entry.id}")
-    for run, entry in voids.items():
-        if run not in seen:
-            problems.append(f"audit row {entry.id}: voids run {run!r} but the run is not void")
     n_runs = conn.execute("SELECT COUNT(*) FROM runs").fetchone()[0]
     return n_sheets, n_runs, n_voids
 
@@ -321,8 +370,12 @@ def verify(conn: sqlite3.Connection, *, expect_head: str | None = None) -> Verif
     n_sheets, n_runs, n_voids = _noting(problems, (0, 0, 0),
                                         lambda: _check_records(conn, entries, problems))
     _noting(problems, None, lambda: _check_calibrations(conn, problems))
+    n_events = _noting(problems, 0, lambda: _check_events(conn, entries, problems))
+    n_voids = _noting(problems, 0, lambda: sum(
+        s.state == "void" for s in run_states(conn).values()))
     counts = {"audit entries": len(entries), "blobs": n_blobs, "sheets": n_sheets,
-              "runs": n_runs, "void runs": n_voids, "results": n_results}
+              "runs": n_runs, "void runs": n_voids, "run events": n_events,
+              "results": n_results}
     last = conn.execute("SELECT id, hash FROM audit ORDER BY id DESC LIMIT 1").fetchone()
     if expect_head is not None:
         wanted = expect_head.strip().lower()

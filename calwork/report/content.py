@@ -21,7 +21,7 @@ from calwork.core.results import BombRunResult
 from calwork.core.safety import SAFETY_NOTE
 from calwork.report.model import Document, Figure, Paragraph, Section, Table
 from calwork.report.plots import plot_style, simulated_stamp
-from calwork.report.summary import calorific_value_blocks
+from calwork.report.summary import calorific_value_blocks, review_table
 from calwork.report.texts import (
     SIMULATED_NOTE,
     is_simulated,
@@ -323,8 +323,13 @@ def _anchor(prefix: str, text: str, taken: set[str]) -> str:
 
 def build_document(red: Any) -> Document:
     """The report of ``red`` as sections (summary, calibrations, samples, runs)."""
-    taken: set[str] = {"summary"}
-    sections = [_summary(red)]
+    taken: set[str] = {"summary", "review"}
+    sections = [_summary(red), Section("Review state and period boundaries", "review", [
+        Paragraph("State (recorded, approved, void) and version of each run as the lab book "
+                  "holds them ('not recorded' for a sheet reduced from disk), and where each "
+                  "period boundary came from: detected by calwork, given in the run sheet, "
+                  "amended in the lab book, or none (the whole record)."),
+        review_table(red)])]
     sections += [_calibration(c, red, _anchor("calibration", c.calorimeter, taken))
                  for c in red.calibrations]
     sections += [_sample(s, red, _anchor("sample", s.sample, taken)) for s in red.samples]

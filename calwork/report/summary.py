@@ -10,7 +10,8 @@ from typing import Any
 from calwork.core.safety import SAFETY_NOTE
 from calwork.report.model import Document, Paragraph, Section, Table
 
-__all__ = ["calorific_value_blocks", "summary_document"]
+__all__ = ["boundary_origins", "calorific_value_blocks", "outlier_test_text", "review_table",
+           "summary_document"]
 
 #: The fuel outputs of a sample (``SampleResult.fuel``) by the words a fuel lab uses.
 _CALORIFIC = (
@@ -25,6 +26,56 @@ _CALORIFIC = (
 _INPUTS = (("moisture_mass_fraction", "moisture"), ("hydrogen_mass_fraction", "hydrogen"),
            ("ash_mass_fraction", "ash"), ("oxygen_mass_fraction", "oxygen"),
            ("nitrogen_mass_fraction", "nitrogen"))
+
+
+_SOURCES = {"detected": "detected", "heater-channel": "heater channel", "given": "sheet"}
+
+
+def _origin(name: str, source: str | None, info: Any, review: Any) -> str:
+    """Where a period boundary came from: detected, the sheet, an amendment, a remark in a
+    hand-read record, the heater channel (limits: the sheet, an amendment, or none)."""
+    overrides = (review or {}).get("overrides") or {}
+    if overrides.get(name, "") != "":
+        return f"amended (v{review.get('version')})"
+    given = info is not None and getattr(info, name, None) is not None
+    if source is None:  # a limit, not a detected boundary
+        return "sheet" if given else "whole record"
+    if source == "given" and not given:
+        return "record remark"
+    return _SOURCES.get(source, source)
+
+
+def boundary_origins(periods: Any, info: Any, review: Any) -> dict[str, str]:
+    """Where each of a run's four period boundaries came from (see :func:`review_table`)."""
+    periods = periods or {}
+    return {
+        "fore_start_s": _origin("fore_start_s", None, info, review),
+        "fire_time_s": _origin("fire_time_s", periods.get("fire_source"), info, review)
+        if periods else "—",
+        "main_end_s": _origin("main_end_s", periods.get("main_end_source"), info, review)
+        if periods else "—",
+        "after_end_s": _origin("after_end_s", None, info, review),
+    }
+
+
+def review_table(red: Any) -> Table:
+    """Per run: its state and version, who approved it, and where each period boundary came
+    from (the same table in the report and the workbook)."""
+    infos = {getattr(i, "run", None): i for i in red.run_infos}
+    rows = []
+    for run in red.runs:
+        review = red.review.get(run.run) or {}
+        origins = boundary_origins(run.periods, infos.get(run.run), review)
+        approved = (f"{review['approved_by']} ({review.get('approved_utc') or ''})"
+                    if review.get("approved_by") else "")
+        if review.get("approval_lapsed"):
+            approved = "lapsed: result changed since approval"
+        rows.append([
+            run.run, review.get("state") or "not recorded",
+            str(review.get("version") or ""), approved, *origins.values()])
+    return Table(["run", "state", "version", "approved by", "fore-period start",
+                  "firing", "end of main period", "after-period end"], rows,
+                 number_columns=(2,))
 
 
 def calorific_value_blocks(sample: Any, infos: Any) -> list[Paragraph | Table]:
@@ -69,7 +120,10 @@ def _fmt(value: Any, digits: int = 4) -> str:
     return str(value)
 
 
-def _outlier_test(t: Any) -> str:
+def outlier_test_text(t: Any) -> str:
+    """A Grubbs test result in words (``G = … vs …`` and the outlier, or why not applied)."""
+    if not t:
+        return ""
     if not t.get("applied"):
         return str(t.get("reason", ""))
     text = f"G = {t['G']:.3f} vs {t['G_critical']:.3f}"
@@ -89,7 +143,7 @@ def summary_document(red: Any) -> Document:
             ["calorimeter", "ε / J K⁻¹", "u(ε) / J K⁻¹", "n", "RSD / %", "outlier test"],
             [[c.calorimeter, _fmt(c.energy_equivalent_J_per_K, 2),
               _fmt(c.u_energy_equivalent_J_per_K, 2), str(c.n_runs),
-              _fmt(c.rsd_percent, 4), _outlier_test(c.outlier_test)]
+              _fmt(c.rsd_percent, 4), outlier_test_text(c.outlier_test)]
              for c in red.calibrations])]))
     sections.append(Section("Runs", "runs", [Table(
         ["run", "kind", "sample", "ΔT_c / K", "ε / J K⁻¹", "Δu / J g⁻¹", "ΔH / kJ mol⁻¹",

@@ -17,6 +17,7 @@ from typing import Any
 from calwork.report.model import Document, Paragraph, Section, Table
 
 __all__ = [
+    "amend_document",
     "audit_document",
     "control_chart_document",
     "cycle_document",
@@ -33,6 +34,7 @@ __all__ = [
     "periods_document",
     "recompute_document",
     "rise_document",
+    "run_versions_document",
     "simulated_logs_document",
     "validation_document",
     "verify_document",
@@ -394,15 +396,26 @@ def simulated_logs_document(written: Sequence[Any], out: str) -> Document:
 
 
 # --- the lab book -----------------------------------------------------------------------------
+def _state_cell(run: Mapping[str, Any]) -> str:
+    """``approved (ana)``, ``recorded``, ``recorded (approval lapsed)``, ``void``."""
+    state = run.get("state") or run.get("status")
+    if state == "approved" and run.get("approved_by"):
+        return f"approved ({run['approved_by']})"
+    if state == "recorded" and run.get("approval_lapsed"):
+        return "recorded (approval lapsed)"
+    return str(state)
+
+
 def labbook_list_document(runs: Sequence[Mapping[str, Any]], cals: Sequence[Mapping[str, Any]],
                           samples: Sequence[Mapping[str, Any]]) -> Document:
     """The runs, calibrations and samples a lab-book listing found."""
     sections = [
         Section(f"runs ({len(runs)})", "runs", [Table(
-            ["run", "kind", "calorimeter", "sample", "date", "status", "sheet", "rise_K",
-             "epsilon_J_per_K", "massic_J_per_g", "error"],
-            [[r["run"], r["kind"], r["calorimeter"], r["sample"], r["date"], r["status"],
-              r["sheet_id"], _g(r["corrected_rise_K"]), _g(r["energy_equivalent_J_per_K"], 8),
+            ["run", "kind", "calorimeter", "sample", "date", "state", "version", "sheet",
+             "rise_K", "epsilon_J_per_K", "massic_J_per_g", "error"],
+            [[r["run"], r["kind"], r["calorimeter"], r["sample"], r["date"],
+              _state_cell(r), r.get("version", 1), r["sheet_id"], _g(r["corrected_rise_K"]),
+              _g(r["energy_equivalent_J_per_K"], 8),
               _g(r["massic_energy_J_per_g"], 8), (r["error"] or "")[:40]] for r in runs])]),
         Section(f"calibrations ({len(cals)})", "calibrations", [Table(
             ["calorimeter", "epsilon_J_per_K", "u_J_per_K", "n", "valid_from", "valid_until",
@@ -441,9 +454,18 @@ def labbook_list_document(runs: Sequence[Mapping[str, Any]], cals: Sequence[Mapp
 def labbook_run_document(info: Mapping[str, Any]) -> Document:
     """One recorded run: its sheet row, log, state and current result."""
     sheet, log, void = info["sheet"], info["log"], info["void"]
-    status = f"status: {info['status']}"
+    state = info.get("state") or {}
+    status = f"state: {state.get('state', info['status'])}, version {state.get('version', 1)}"
     if void:
-        status += f" — {void['reason']} ({void['voided_utc']}, {void['voided_by']})"
+        status += f" — void: {void['reason']} ({void['voided_utc']}, {void['voided_by']})"
+    if state.get("approved_by"):
+        status += (f" — approved by {state['approved_by']} ({state['approved_utc']})"
+                   + (f": {state['approval_note']}" if state.get("approval_note") else ""))
+    if state.get("approval_lapsed"):
+        status += f" — {state['approval_lapsed']}"
+    if state.get("overrides"):
+        status += " — amended cells: " + ", ".join(
+            f"{k}={v if v != '' else '(blank)'}" for k, v in state["overrides"].items())
     lines = [
         (f"run {info['run']} ({info['kind']}), calorimeter {info['calorimeter']}, "
          f"sample {info['sample']}, date {info['date']}"),
@@ -503,6 +525,53 @@ def audit_document(run: str, entries: Sequence[Any]) -> Document:
         ["entry", "time (UTC)", "user", "action", "object", "reason"],
         [[f"#{e.id}", e.ts_utc, e.user, e.action, e.object, e.reason or ""]
          for e in entries])]))
+
+
+def run_versions_document(run: str, versions: Sequence[Mapping[str, Any]],
+                          entries: Sequence[Any] = ()) -> Document:
+    """The versions of a recorded run with the change from each to the next, then its audit
+    entries (``labbook history``)."""
+    rows = []
+    for v in versions:
+        res = v.get("result") or {}
+        value = (res.get("error") and f"failed: {res['error']}") or "; ".join(
+            f"{k} = {_g(res[k], 8)}" for k in ("corrected_rise_K", "energy_equivalent_J_per_K",
+                                              "massic_energy_J_per_g",
+                                              "molar_enthalpy_kJ_per_mol") if k in res)
+        rows.append([str(v["version"]), v["action"], v["created_utc"], v["created_by"],
+                     v.get("reason") or "", value])
+    blocks: list[Any] = [Table(["version", "made", "time (UTC)", "user", "reason", "result"],
+                               rows)]
+    for v in versions[1:]:
+        changes = v.get("changes") or {}
+        blocks.append(Paragraph(
+            f"version {v['version'] - 1} → {v['version']}: " + "; ".join(
+                f"{k}: {old if old != '' else '(blank)'} → {new if new != '' else '(blank)'}"
+                for k, (old, new) in changes.items())
+            + (f" (from corrected sheet {v['source']['sheet']})" if v.get("source") else "")))
+    sections = [Section(f"Versions of run {run}", "versions", blocks)]
+    if entries:
+        sections.append(audit_document(run, entries).sections[0])
+    return _doc(f"History of {run}", *sections)
+
+
+def amend_document(results: Sequence[Any]) -> Document:
+    """What amendments recorded (:class:`calwork.labbook.lifecycle.AmendResult`)."""
+    if not results:
+        return _doc("Lab book", Section("Nothing amended", "amend", [Paragraph(
+            "every row agrees with the version of its run in force; nothing was recorded")]))
+    blocks: list[Any] = []
+    for r in results:
+        blocks.append(Paragraph(
+            f"run {r.run}: version {r.version} recorded (audit entry #{r.audit_id}); "
+            + "; ".join(f"{k}: {a if a != '' else '(blank)'} → {b if b != '' else '(blank)'}"
+                        for k, (a, b) in r.changes.items())))
+        if r.also_changed:
+            blocks.append(Paragraph(f"  re-reduced with it: {', '.join(r.also_changed)} "
+                                    "(same sheet: calibration series and samples follow)"))
+        if r.error:
+            blocks.append(Paragraph(f"  run {r.run} now fails: {r.error}", "error"))
+    return _doc("Lab book", Section("Amended", "amend", blocks))
 
 
 def recompute_document(report: Any) -> Document:

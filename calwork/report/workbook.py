@@ -47,6 +47,7 @@ from calwork.report.model import (
 from calwork.report.output import atomic_target
 from calwork.report.plan import Plan
 from calwork.report.sanitise import safe_sheet_title
+from calwork.report.summary import review_table
 from calwork.report.texts import SIMULATED_NOTE, is_simulated, rise_method, simulated_runs
 from calwork.report.wb_readings import write_log_sheet
 from calwork.report.wb_results import (
@@ -66,11 +67,12 @@ from calwork.report.wb_runs import (
 __all__ = ["render_workbook", "workbook_document", "write_workbook"]
 
 PROVENANCE = "Provenance"
+REVIEW = "Review"
 
 
 #: The sheets of a reduction's workbook before the per-run log sheets, in order.
 RESULT_SHEETS = ("Summary", "Calibration runs", "Sample runs", "Corrections",
-                 "Uncertainty budget", "Formation", "Solution runs", PROVENANCE)
+                 "Uncertainty budget", "Formation", "Solution runs", REVIEW, PROVENANCE)
 
 
 def _provenance_section(plan: Plan, log_titles: dict[str, str]) -> Section:
@@ -163,6 +165,7 @@ def workbook_document(reduction: Any, *, include_readings: bool = True,
     plan = plan_workbook(reduction, log_titles=log_titles)
     sections = [Section(title, title.lower().replace(" ", "-"), [Calculation(grid)])
                 for title, grid in plan.grids.items() if grid.cells]
+    sections.append(Section(REVIEW, "review", [review_table(reduction)]))
     sections.append(_provenance_section(plan, log_titles))
     by_id = {r.run: r for r in reduction.runs}
     sections += [Section(title, f"log-{rid}", [Readings(

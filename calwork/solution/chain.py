@@ -51,7 +51,7 @@ from calwork.core.results import (
     SolutionRunResult,
     failed_run,
 )
-from calwork.core.runinfo import SOLUTION_KINDS, RunInfo
+from calwork.core.runinfo import SOLUTION_KINDS, RunInfo, within_limits
 from calwork.core.statistics import series_statistics
 from calwork.core.thermogram import Thermogram
 from calwork.core.uncertainty import Budget, root_sum_square
@@ -336,7 +336,8 @@ def reduce_solution_runs(
         read[info.run] = tg
         try:
             analyses[info.run] = (analyse_log(
-                tg, method=method, heater_power_W_sheet=info.heater_power_W,
+                within_limits(info, tg), method=info.rise_method or method,
+                heater_power_W_sheet=info.heater_power_W,
                 heater_on_s=info.heater_on_s, heater_off_s=info.heater_off_s,
                 standard_resistor_ohm=info.standard_resistor_ohm,
                 fire_time_s=on_axis_s(info.fire_time_s, tg, column="fire_time_s"),
@@ -352,7 +353,7 @@ def reduce_solution_runs(
     for info in (i for i in pending if i.kind == "electrical"):
         analysis, tg = analyses[info.run]
         try:
-            result, budget = _electrical_run(info, analysis, tg, method)
+            result, budget = _electrical_run(info, analysis, tg, info.rise_method or method)
         except CalworkError as exc:
             results[info.run] = failed_run(info, exc)
             continue
@@ -365,7 +366,8 @@ def reduce_solution_runs(
     for info in (i for i in pending if i.kind == "blank"):
         analysis, tg = analyses[info.run]
         try:
-            result = _blank_run(info, analysis, tg, method, series.get(_calorimeter(info)))
+            result = _blank_run(info, analysis, tg, info.rise_method or method,
+                                series.get(_calorimeter(info)))
         except CalworkError as exc:
             results[info.run] = failed_run(info, exc)
             continue
@@ -387,7 +389,8 @@ def reduce_solution_runs(
                 raise CalibrationError("no electrical calibration series for the calorimeter",
                                        column="calorimeter", found=info.calorimeter)
             results[info.run] = _solution_run(
-                info, analysis, tg, method, series.get(name), blanks.get(name), opts,
+                info, analysis, tg, info.rise_method or method, series.get(name),
+                blanks.get(name), opts,
                 blanks_with_vapour=no_volume.get(name, ()))
         except CalworkError as exc:
             results[info.run] = failed_run(info, exc)

@@ -9,6 +9,9 @@ logs and a run sheet with its own run ids and dates. Because blobs are content-a
 shared logs are stored once: the size figures are therefore given both as measured and as
 projected for a lab book in which every log is different (compressed log + per-run records).
 
+Also: amending one calibration run (its sheet re-reduced, the series and samples follow)
+and approving it, in the full lab book.
+
 Goals: recompute >= 100 runs/s; lab book < 1.5x the raw log bytes.
 """
 
@@ -101,6 +104,17 @@ def main(argv: list[str] | None = None) -> int:
             log_stored = book.connection.execute(
                 "SELECT SUM(length(b.data)) FROM blobs b WHERE EXISTS (SELECT 1 FROM files f"
                 " WHERE f.sha256 = b.sha256 AND f.role = 'log')").fetchone()[0]
+            run = f"s{n_sheets // 2:03d}-cal-01"
+            mass = book.show(run)["sheet"]["row"]["mass_g"]
+            t0 = time.perf_counter()
+            amended = book.amend(run, {"mass_g": f"{mass + 0.0005:.4f}"}, reason="benchmark")
+            t_amend = time.perf_counter() - t0
+            n_sheet = book.connection.execute(
+                "SELECT COUNT(*) FROM runs r JOIN runs q ON q.sheet_id = r.sheet_id"
+                " WHERE r.run = ?", (run,)).fetchone()[0]
+            t0 = time.perf_counter()
+            book.approve(run, expect_version=2)
+            t_approve = time.perf_counter() - t0
             book.connection.execute("PRAGMA wal_checkpoint(TRUNCATE)")
         size = path.stat().st_size
         raw_logs = raw_per_sheet * n_sheets  # raw log bytes referenced by the runs
@@ -113,6 +127,9 @@ def main(argv: list[str] | None = None) -> int:
               f"runs/s ({report.numbers} numbers compared; all agree)")
         print(f"verify:      {t_ver:.1f} s ({'ok' if ok else 'FAILED'}); list of {n_listed} "
               f"runs + QA series of {len(points)} calibrations: {t_list:.2f} s")
+        print(f"amend:       one calibration run of a {n_runs}-run lab book in {t_amend:.2f} s "
+              f"({n_sheet} runs of its sheet re-reduced, {1 + len(amended.also_changed)} "
+              f"results changed); approve {t_approve * 1e3:.0f} ms")
         print(f"lab book:    {size / 1e6:.1f} MB = {size / n_runs / 1024:.2f} KiB per run; "
               f"raw log bytes {raw_logs / 1e6:.1f} MB = {raw_per_run / 1024:.2f} KiB per run "
               f"-> {size / raw_logs:.3f}x as measured (shared logs stored once: "
