@@ -22,8 +22,8 @@ LAYERS = {
     "bomb": 5, "solution": 5, "simulation": 5,  # energy chains; the simulator
     "reduce": 6,          # the run-sheet dispatcher
     "labbook": 7, "report": 7,
-    "cli": 8,
-    "web": 9,
+    "web": 8,             # the review workbench (ASGI app over the lab book)
+    "cli": 9,             # the command line starts everything, the workbench included
     "sample_runs": 10,    # the builder of the bundled simulated runs (a developer tool)
 }
 

@@ -30,6 +30,7 @@ SUBCOMMANDS = (
     "cycle",
     "labbook",
     "qa",
+    "serve",
 )
 
 

@@ -54,7 +54,7 @@ from calwork.hess.network import Network
 from calwork.hess.reactions import Reaction
 from calwork.hess.species import parse_species
 
-__all__ = ["NETWORK_COLUMNS", "OPTIONAL_COLUMNS", "read_network_file"]
+__all__ = ["NETWORK_COLUMNS", "OPTIONAL_COLUMNS", "read_network_file", "read_network_text"]
 
 NETWORK_COLUMNS = ("id", "equation", "delta_r_H_kJ_per_mol", "u_delta_r_H_kJ_per_mol")
 OPTIONAL_COLUMNS = ("temperature_K", "source", "note", "notes", "anchor")
@@ -272,6 +272,19 @@ def read_network_file(path: str | Path) -> Network:
         raise InputFileError("network file is not UTF-8 text", path=path) from None
     except OSError as exc:
         raise InputFileError(f"cannot read network file ({exc.strerror})", path=path) from None
+    return read_network_text(text, path)
+
+
+def read_network_text(text: str, name: str | Path = "network.csv") -> Network:
+    """Read a network from text in the CSV or TOML form (by the suffix of ``name``, which
+    error messages name as the file), e.g. typed into the workbench's Hess page.
+
+    Raises
+    ------
+    NetworkError, EquationError, BalanceError, ValueCellError
+        With the name, the line and the column of the problem.
+    """
+    path = Path(name)
     if path.suffix.lower() == ".toml":
         return _read_toml(path, text)
     return _read_csv(path, text)

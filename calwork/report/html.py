@@ -23,7 +23,7 @@ from calwork.report.model import (
     prose_sections,
 )
 
-__all__ = ["render_html"]
+__all__ = ["render_html", "render_html_sections"]
 
 _CSS = """
 body { font-family: sans-serif; max-width: 62rem; margin: 1.5rem auto; padding: 0 1rem;
@@ -107,6 +107,12 @@ def _section(s: Section) -> str:
             parts.append(_paragraph(block))
     parts.append("</section>")
     return "\n".join(parts)
+
+
+def render_html_sections(doc: Document) -> str:
+    """The document's sections as an HTML fragment (escaped), to place inside a page of
+    one's own, e.g. the workbench's."""
+    return "\n".join(_section(s) for s in prose_sections(doc))
 
 
 def render_html(doc: Document) -> str:
