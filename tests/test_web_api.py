@@ -433,3 +433,28 @@ def test_serve_refuses_a_short_token(book, capsys):
     err = capsys.readouterr().err
     assert code == 2
     assert "at least 16 characters" in err
+
+
+def test_a_multi_event_log_lists_its_events_and_previews_each(tmp_path):
+    folder = tmp_path / "solution"
+    simulate_scenario("solution", folder, runs=1, seed=45)
+    book = tmp_path / "sol.sqlite"
+    with open_labbook(book, create=True, user="ana") as b:
+        b.add_sheet(folder / "runs.csv")
+    with TestClient(create_app(book)) as c:
+        c.headers["X-CSRF-Token"] = c.get("/api/session").json()["csrf_token"]
+        run = c.get("/api/runs").json()["runs"][0]
+        data = c.get(f"/api/runs/{run['run']}").json()
+        kinds = [e["kind"] for e in data["events"]]
+        assert kinds == ["heater", "event", "heater"]  # calibration, dissolution, calibration
+        rises = {}
+        for event in data["events"]:
+            response = c.post(f"/api/runs/{run['run']}/preview", json={"event": event["index"]})
+            assert response.status_code == 200, response.text
+            rises[event["index"]] = response.json()["corrected_rise_K"]
+        # heating by the two electrical calibrations, cooling by the endothermic dissolution
+        assert rises[1] > 0
+        assert rises[3] > 0
+        assert rises[2] == pytest.approx(run["corrected_rise_K"],
+                                         abs=3 * data["u_corrected_rise_K"])
+        assert "heat event" in c.get(f"/runs/{run['run']}").text

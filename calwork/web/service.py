@@ -250,9 +250,13 @@ class Workbench:
         info, tg = stored.info, stored.thermogram
         if tg is None:
             raise LabbookError("the run has no log to preview", run=run)
+        event = settings.get("event", info.event)
+        event = None if event in (None, "") else int(event)
+        # another heat event of the log: the boundaries in force belong to the old one
+        other_event = "event" in settings and event != info.event
         values = {}
         for name in BOUNDARIES:
-            raw = settings.get(name, getattr(info, name))
+            raw = settings.get(name, None if other_event else getattr(info, name))
             if isinstance(raw, str):
                 raw = parse_log_time(raw, column=name) if raw.strip() else None
             values[name] = on_axis_s(raw, tg, column=name)
@@ -270,8 +274,6 @@ class Workbench:
         if method not in METHODS:
             raise ChoiceError("unknown rise method", column="method", found=method,
                               expected=list(METHODS))
-        event = settings.get("event", info.event)
-        event = None if event in (None, "") else int(event)
         limited = within_limits(replace(info, fore_start_s=values["fore_start_s"],
                                         after_end_s=values["after_end_s"]), tg)
         rises = {}
