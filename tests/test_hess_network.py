@@ -263,11 +263,9 @@ def test_key_values_table_convention():
     assert "Xe2(g)" not in kv
 
 
-def test_large_network_says_which_uncertainties_it_did_not_compute():
-    # 2 100 isomers (above the full-covariance size): each linked to the first and to its
-    # neighbour, the first one known; values follow from the differences
-    rng = np.random.default_rng(5)
-    n = 2100
+def _isomer_network(n: int, seed: int = 5):
+    """``n`` isomers, each linked to the first and to its neighbour, the first one known."""
+    rng = np.random.default_rng(seed)
     names = [f"C4H10(g,isomer{k})" for k in range(n)]
     truth = rng.normal(-130.0, 5.0, n)
     rows = [F(names[0], truth[0], 0.5, id="known")]
@@ -277,14 +275,44 @@ def test_large_network_says_which_uncertainties_it_did_not_compute():
                       id=f"b{k}"))
     net = Network(determinations=tuple(r for r in rows if r.id != "known"),
                   priors=(rows[0],))
-    res = solve_network(net, key_values=False, worst_offender="none")
+    return net, names
+
+
+def test_large_network_gives_every_species_its_exact_uncertainty():
+    # 2 100 isomers: above the size whose full covariance is formed, solved by the sparse
+    # path; every variance comes from the factorised normal matrix (selected inversion)
+    n = 2100
+    net, names = _isomer_network(n)
+    res = solve_network(net, key_values=False, worst_offender="none", method="sparse")
     assert res.undetermined == ()
-    assert all(v is not None for v in res.values.values())
+    assert not [w for w in res.warnings if w.startswith("uncertainties-not-computed")]
+    assert len(res.uncertainties) == n
+    # the same network by the dense SVD path (cov = (AᵀWA)⁺), an independent computation
+    dense = solve_network(net, key_values=False, worst_offender="none", method="dense")
+    for name in names:
+        assert res.uncertainties[name] == pytest.approx(dense.uncertainties[name], rel=1e-9)
+    # and by the conjugate-gradient covariance of two species asked for by name
+    picked = [names[1], names[1500]]
+    by_cg = solve_network(net, key_values=False, worst_offender="none", method="sparse",
+                          covariance_species=picked)
+    for p in picked:
+        assert by_cg.uncertainties[p] == pytest.approx(dense.uncertainties[p], rel=1e-8)
+
+
+def test_large_network_says_which_uncertainties_it_did_not_compute(monkeypatch):
+    from calwork.hess import selinv
+
+    monkeypatch.setattr(selinv, "MAX_FACTOR_ENTRIES", 1000)  # as if wired at random
+    monkeypatch.setattr(selinv, "DENSE_MAX", 0)
+    n = 2100
+    net, names = _isomer_network(n)
+    res = solve_network(net, key_values=False, worst_offender="none", method="sparse")
     note = [w for w in res.warnings if w.startswith("uncertainties-not-computed")]
     assert len(note) == 1
     assert f"{n} of {n} determined species" in note[0]
+    assert "would need about" in note[0]
     picked = [names[1], names[1500]]
-    res = solve_network(net, key_values=False, worst_offender="none",
+    res = solve_network(net, key_values=False, worst_offender="none", method="sparse",
                         covariance_species=picked)
     assert all(res.uncertainties[p] > 0 for p in picked)
     assert f"{n - 2} of {n} determined species" in next(

@@ -13,6 +13,7 @@ instead of being given a value.
 
 from __future__ import annotations
 
+from collections import Counter
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field, replace
 from types import MappingProxyType
@@ -99,7 +100,7 @@ class Network:
         object.__setattr__(self, "heat_capacities", MappingProxyType(
             {species_or_parse(k): v for k, v in dict(self.heat_capacities).items()}))
         ids = [r.id for r in self.rows]
-        dup = sorted({i for i in ids if ids.count(i) > 1})
+        dup = sorted(i for i, k in Counter(ids).items() if k > 1)  # linear: 10⁵ rows and more
         if dup:
             raise NetworkError("row ids must be unique", found=dup)
         object.__setattr__(self, "anchors", frozenset(str(a) for a in self.anchors))
@@ -384,22 +385,25 @@ def solve_network(
             sel[k, names.index(w)] = 1.0
         cov = sol.covariance_of(sel)
     variances = {}
+    reasons: list[str] = []
     if small:
         for comp in sol.components:
             for k, col in enumerate(comp.columns):
                 if sol.determined[col]:
                     variances[names[col]] = float(comp.cov[k, k])
     else:
-        variances = {w: float(cov[k, k]) for k, w in enumerate(cov_names)}
+        every, reasons = sol.all_variances()
+        variances = {names[i]: float(every[i]) for i in range(n)
+                     if sol.determined[i] and np.isfinite(every[i])}
+        variances.update({w: float(cov[k, k]) for k, w in enumerate(cov_names)})
     values = {names[i]: (float(sol.x[i]) if sol.determined[i] else None) for i in range(n)}
     missing_u = [w for w in determined if w not in variances]
     if missing_u:
         warnings.append(
             f"uncertainties-not-computed: {len(missing_u)} of {len(determined)} determined "
-            f"species have no uncertainty: the network has {n} unknowns and its covariance "
-            f"is formed only up to {FULL_COVARIANCE_MAX} (each species beyond costs one "
-            "sparse solve); ask for the species you need (covariance_species, or "
-            "`calwork network --uncertainty-of SPECIES`)")
+            "species have no uncertainty: " + "; ".join(reasons or ["not computed"])
+            + "; ask for the species you need (covariance_species, or "
+            "`calwork network --uncertainty-of SPECIES`: one sparse solve each)")
     mc = None
     if monte_carlo:
         mc = monte_carlo_check(sol, names, variances, int(monte_carlo), seed, coverage_factor)

@@ -90,6 +90,33 @@ class LinearSolution:
         """Most conjugate-gradient iterations any sparse component needed (0: all dense)."""
         return max((c.iterations for c in self.components), default=0)
 
+    def all_variances(self) -> tuple[np.ndarray, list[str]]:
+        """The variance of every unknown (``NaN`` where not computed) and why any were not:
+        dense components from their covariance, sparse full-rank components exactly from
+        the diagonal of the inverse of their normal matrix (:mod:`calwork.hess.selinv`)."""
+        from calwork.hess.selinv import feasible, inverse_diagonal
+
+        out = np.full(self.x.size, np.nan)
+        reasons: list[str] = []
+        for comp in self.components:
+            if comp.cov is not None:
+                out[comp.columns] = np.diag(comp.cov)
+                continue
+            if comp.null_basis.size:
+                reasons.append(f"a part of {comp.columns.size} unknowns leaves "
+                               f"{comp.null_basis.shape[1]} direction(s) undetermined")
+                continue
+            ok, why = feasible(comp.normal)
+            if not ok:
+                reasons.append(f"a part of {comp.columns.size} unknowns is wired so widely "
+                               f"(rows linking species at random) that {why}")
+                continue
+            try:
+                out[comp.columns] = inverse_diagonal(comp.normal)
+            except np.linalg.LinAlgError as exc:
+                reasons.append(f"a part of {comp.columns.size} unknowns: {exc}")
+        return out, reasons
+
     def null_projection(self, c: np.ndarray) -> float:
         """Norm of the part of ``c`` (over all unknowns) the data do not determine."""
         total = 0.0
