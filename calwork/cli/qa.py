@@ -55,7 +55,7 @@ def register(subparsers: argparse._SubParsersAction) -> None:
 
 def _qa(args: argparse.Namespace) -> int:
     from calwork.labbook import Filters, open_labbook
-    from calwork.labbook.quality import calibration_chart
+    from calwork.labbook.quality import calibration_chart, void_calibration_points
     from calwork.qa import parse_rules
 
     rules = parse_rules(args.rules)
@@ -63,10 +63,11 @@ def _qa(args: argparse.Namespace) -> int:
     with open_labbook(args.labbook, user=args.user, timeout_s=args.timeout) as book:
         chart = calibration_chart(book, args.calorimeter, filters, baseline_n=args.baseline,
                                   rules=rules)
+        void = void_calibration_points(book, args.calorimeter)
     if args.plot:
         from calwork.qa import plot_control_chart
 
-        plot_control_chart(chart, args.plot)
+        plot_control_chart(chart, args.plot, void=void)
     if args.json:
         print_json({"calorimeter": args.calorimeter, **chart.to_dict(),
                     "plot": args.plot})

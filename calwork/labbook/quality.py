@@ -8,7 +8,16 @@ from typing import Any
 
 from calwork.core.errors import CalibrationError
 
-__all__ = ["calibration_chart"]
+__all__ = ["calibration_chart", "void_calibration_points"]
+
+
+def void_calibration_points(book: Any, calorimeter: str) -> list[tuple[str, str | None, float]]:
+    """The void calibration runs of ``calorimeter`` as ``(run, date, ε)`` (for drawing them
+    hollow beside the chart; they are not part of it)."""
+    return [(r["run"], r["date"], r["energy_equivalent_J_per_K"])
+            for r in book.runs(include_void=True)
+            if r["calorimeter"] == calorimeter and r["state"] == "void"
+            and r["epsilon_is_calibration"] and r["energy_equivalent_J_per_K"] is not None]
 
 
 def calibration_chart(book: Any, calorimeter: str, filters: Any = None, *,

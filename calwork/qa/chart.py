@@ -42,11 +42,16 @@ D2_N2 = 2.0 / math.sqrt(math.pi)
 #: ASTM D240 §8.1: the energy equivalent is the mean of not less than six standardisation
 #: tests (docs/methods.md §6.1, seen).
 MIN_BASELINE_RUNS = 6
+#: Fewer baseline points than this give no control limits worth judging by (common SPC
+#: practice; a chart with limits from 2–4 points of its own signals nothing).
+MIN_POINTS_FOR_LIMITS = 5
 
 
 @dataclass(frozen=True, kw_only=True)
 class Recommendation:
-    """What to do: ``action`` is ``'recalibrate'``, ``'investigate'`` or ``'in control'``."""
+    """What to do: ``action`` is ``'recalibrate'``, ``'investigate'``, ``'in control'`` or
+    ``'too few for control limits'`` (a baseline of fewer than
+    :data:`MIN_POINTS_FOR_LIMITS` points)."""
 
     action: str
     reason: str
@@ -257,6 +262,12 @@ def control_chart(values: Sequence[float], labels: Sequence[str] | None = None, 
         baseline_source=source, warning_limits=(mean - 2 * std, mean + 2 * std),
         action_limits=(mean - 3 * std, mean + 3 * std), mr_mean=mr_mean,
         mr_upper_limit=D4_N2 * mr_mean, sigma_from_moving_range=mr_mean / D2_N2,
-        violations=tuple(violations), recommendation=_recommend(violations, n),
+        violations=tuple(violations),
+        recommendation=(_recommend(violations, n) if len(base) >= MIN_POINTS_FOR_LIMITS
+                        else Recommendation(
+                            action="too few for control limits",
+                            reason=f"the baseline has {len(base)} points; control limits need "
+                                   f"at least {MIN_POINTS_FOR_LIMITS} (the limits shown are "
+                                   "from those points only, not a judgement)")),
         rules=tuple(rules), notes=tuple(notes), title=title,
     )
