@@ -226,3 +226,14 @@ def test_simulated_label_and_safety_note(book):
     assert "3 MPa" in text
     assert "does not make a procedure safe" in text
     assert math.isfinite(wb["Log C1"]["B2"].value)
+
+
+def test_every_sheet_prints_one_page_wide_with_its_headers_repeated(book):
+    wb = openpyxl.load_workbook(book)
+    for ws in wb.worksheets:
+        assert ws.sheet_properties.pageSetUpPr.fitToPage, ws.title
+        assert (ws.page_setup.fitToWidth, ws.page_setup.fitToHeight) == (1, 0), ws.title
+        if ws.freeze_panes:
+            row = int("".join(ch for ch in ws.freeze_panes if ch.isdigit()))
+            if row > 1:
+                assert ws.print_title_rows == f"$1:${row - 1}", ws.title

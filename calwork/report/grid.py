@@ -31,8 +31,8 @@ from openpyxl.writer.excel import ExcelWriter
 from calwork.report.formulas import Expr, Ref
 from calwork.report.sanitise import cell_text, is_formula_like
 
-__all__ = ["Grid", "Text", "grid_of_section", "new_workbook", "number_of", "save_workbook",
-           "text_cell"]
+__all__ = ["Grid", "Text", "grid_of_section", "new_workbook", "number_of", "print_setup",
+           "save_workbook", "text_cell"]
 
 #: Plain numbers (inputs and fitted values) are dark blue, formulas black: the usual
 #: spreadsheet-modelling cue for "you may change this" versus "this is computed".
@@ -236,6 +236,7 @@ class Grid:
             ws.column_dimensions[get_column_letter(col)].width = width
         if self.freeze:
             ws.freeze_panes = self.freeze
+        print_setup(ws)  # before the first row: the fit-to-page flag heads the sheet's XML
         values = cached.setdefault(self.title, {})
         styles = _Styles()
         rows: dict[int, list[tuple[int, _Entry]]] = {}
@@ -353,6 +354,19 @@ class _PatchingZip(zipfile.ZipFile):
         # large parts are readings: the fastest deflate level costs ~12 % in size, saves 2/3
         # of the compression time
         self.writestr(arcname, data, compresslevel=1 if len(data) > _LARGE_PART else None)
+
+
+def print_setup(ws: Any) -> None:
+    """Print a sheet one page wide (as many pages tall as it needs), with the rows above its
+    frozen panes — its title and column headers — repeated on every page."""
+    ws.sheet_properties.pageSetUpPr.fitToPage = True
+    ws.page_setup.fitToWidth = 1
+    ws.page_setup.fitToHeight = 0
+    frozen = getattr(ws, "freeze_panes", None)
+    if frozen:
+        row = int(re.sub(r"[A-Z]+", "", str(frozen)) or 1)
+        if row > 1:
+            ws.print_title_rows = f"1:{row - 1}"
 
 
 def save_workbook(wb: Workbook, path: str | Path, cached: Mapping[str, Mapping[str, float]],

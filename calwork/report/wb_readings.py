@@ -30,7 +30,7 @@ from openpyxl.chart import Reference, ScatterChart, Series
 from openpyxl.styles import Font, PatternFill
 
 from calwork.core.errors import CalworkError, ExportError
-from calwork.report.grid import text_cell
+from calwork.report.grid import print_setup, text_cell
 from calwork.report.plots import OKABE_ITO
 from calwork.report.sanitise import cell_text
 from calwork.report.texts import SIMULATED_NOTE, is_simulated, primary_rise
@@ -194,6 +194,7 @@ def write_log_sheet(wb: Any, title: str, run: Any, th: Any, *, method: str | Non
     for col, width in (("A", 12), ("B", 16), ("C", 3), ("D", 34), ("E", 66)):
         ws.column_dimensions[col].width = width
     ws.freeze_panes = "A2"
+    print_setup(ws)
     rise = primary_rise(run)
     t = np.asarray(th.time_s, dtype=float)
     T = np.asarray(th.temperature_K, dtype=float)
