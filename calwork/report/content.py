@@ -24,6 +24,7 @@ from calwork.report.plots import plot_style, simulated_stamp
 from calwork.report.summary import calorific_value_blocks, review_table
 from calwork.report.texts import (
     SIMULATED_NOTE,
+    component_label,
     is_simulated,
     primary_rise,
     simulated_runs,
@@ -64,14 +65,11 @@ def _budget_table(*budgets: Any) -> Table:
     """The components of each budget with their units, and each budget's combined u."""
     rows = []
     for budget in budgets:
-        for c in budget.components:
-            name = c.name
-            for suffix in ("_J_per_K", "_J_per_g", "_kJ_per_mol", "_percent"):
-                name = name.removesuffix(suffix)
-            rows.append([name.replace("_", " "), "component", fmt(c.value, 4, sig=True),
-                         c.unit])
-        rows.append([f"u({budget.quantity})", "combined", fmt(budget.total(), 4, sig=True),
-                     budget.unit])
+        rows.extend([component_label(c.name, budget.quantity), "component",
+                     fmt(c.value, 4, sig=True), c.unit] for c in budget.components)
+        symbol = component_label("", budget.quantity).split(":")[0]
+        rows.append([f"{symbol}: combined ({budget.quantity})", "combined",
+                     fmt(budget.total(), 4, sig=True), budget.unit])
     return Table(["component", "", "standard uncertainty u (k = 1)", "unit"], rows,
                  "Uncertainty budget (standard uncertainties, k = 1; GUM propagation)")
 

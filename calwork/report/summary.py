@@ -9,6 +9,7 @@ from typing import Any
 
 from calwork.core.safety import SAFETY_NOTE
 from calwork.report.model import Document, Paragraph, Section, Table
+from calwork.report.texts import SAMPLE_LABELS, component_label
 
 __all__ = ["boundary_origins", "calorific_value_blocks", "outlier_test_text", "review_table",
            "summary_document"]
@@ -159,10 +160,10 @@ def summary_document(red: Any) -> Document:
     if red.samples:
         samples = Section("Samples", "samples")
         for s in red.samples:
-            rows = [[key, _fmt(getattr(s, key, None), 3)] for key in _SAMPLE_VALUES
-                    if getattr(s, key, None) is not None]
+            rows = [[SAMPLE_LABELS.get(key, key), _fmt(getattr(s, key, None), 3)]
+                    for key in _SAMPLE_VALUES if getattr(s, key, None) is not None]
             for budget in (s.budget, *s.derived_budgets.values()):
-                rows += [[f"u component of {budget.quantity}: {c.name}",
+                rows += [[component_label(c.name, budget.quantity),
                           f"{_fmt(c.value, 4)} {c.unit}"] for c in budget.components]
             samples.blocks.append(Table(["quantity", "value"], rows,
                                         f"{s.sample} ({s.formula or 'no formula'}), "

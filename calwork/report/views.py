@@ -412,21 +412,21 @@ def labbook_list_document(runs: Sequence[Mapping[str, Any]], cals: Sequence[Mapp
     sections = [
         Section(f"runs ({len(runs)})", "runs", [Table(
             ["run", "kind", "calorimeter", "sample", "date", "state", "version", "sheet",
-             "rise_K", "epsilon_J_per_K", "massic_J_per_g", "error"],
+             "ΔT_c / K", "ε / J K⁻¹", "Δu / J g⁻¹", "error"],
             [[r["run"], r["kind"], r["calorimeter"], r["sample"], r["date"],
               _state_cell(r), r.get("version", 1), r["sheet_id"], _g(r["corrected_rise_K"]),
               _g(r["energy_equivalent_J_per_K"], 8),
               _g(r["massic_energy_J_per_g"], 8), (r["error"] or "")[:40]] for r in runs])]),
         Section(f"calibrations ({len(cals)})", "calibrations", [Table(
-            ["calorimeter", "epsilon_J_per_K", "u_J_per_K", "n", "valid_from", "valid_until",
+            ["calorimeter", "ε / J K⁻¹", "u(ε) / J K⁻¹", "n", "valid from", "valid until",
              "runs", "sheet"],
             [[c["calorimeter"], _g(c["energy_equivalent_J_per_K"], 8),
               _g(c["u_energy_equivalent_J_per_K"], 3), c["n_runs"], c["valid_from"],
               c["valid_until"] or "(current)", f"{c['first_run']}..{c['last_run']}",
               c["sheet_id"]] for c in cals])]),
         Section(f"samples ({len(samples)})", "samples", [Table(
-            ["sample", "formula", "n", "massic_J_per_g", "u_J_per_g", "dfH_kJ_per_mol",
-             "u_kJ_per_mol", "sheet"],
+            ["sample", "formula", "n", "Δu / J g⁻¹", "u(Δu) / J g⁻¹", "ΔfH° / kJ mol⁻¹",
+             "u(ΔfH°) / kJ mol⁻¹", "sheet"],
             [[s["sample"], s.get("formula"), s.get("n_runs"),
               _g(s.get("massic_energy_J_per_g"), 8), _g(s.get("u_massic_energy_J_per_g"), 3),
               _g(s.get("delta_f_H_kJ_per_mol"), 6), _g(s.get("u_delta_f_H_kJ_per_mol"), 3),
@@ -435,8 +435,8 @@ def labbook_list_document(runs: Sequence[Mapping[str, Any]], cals: Sequence[Mapp
     solution = [s for s in samples if s.get("kind", "combustion") != "combustion"]
     if solution:  # their results are molar enthalpies, blank in the table above
         sections.append(Section(f"solution samples ({len(solution)})", "solution", [Table(
-            ["sample", "formula", "n", "dH_kJ_per_mol", "u_kJ_per_mol", "molality_mol_per_kg",
-             "dH_inf_kJ_per_mol", "u_inf_kJ_per_mol", "sheet"],
+            ["sample", "formula", "n", "ΔH / kJ mol⁻¹", "u(ΔH) / kJ mol⁻¹",
+             "molality / mol kg⁻¹", "ΔH∞ / kJ mol⁻¹", "u(ΔH∞) / kJ mol⁻¹", "sheet"],
             [[s["sample"], s.get("formula"), s.get("n_runs"),
               _g(s.get("molar_enthalpy_kJ_per_mol"), 6),
               _g(s.get("u_molar_enthalpy_kJ_per_mol"), 3),

@@ -163,6 +163,7 @@ async def samples(request: Request) -> HTMLResponse:
     from calwork.report.html import render_html_sections
     from calwork.report.model import Document, Section
     from calwork.report.summary import calorific_value_blocks
+    from calwork.report.texts import component_label
 
     bench = request.app.state.bench
     items = await run_in_threadpool(bench.samples)
@@ -180,21 +181,13 @@ async def samples(request: Request) -> HTMLResponse:
     for s in items:
         s["fuel_html"] = fuel_html(s)
         budget = s.get("budget") or {}
-        s["budget_parts"] = [(_plain(str(c.get("name"))), float(c["value"]))
+        s["budget_parts"] = [(component_label(str(c.get("name")), str(budget.get("quantity")
+                                                                       or "")),
+                              float(c["value"]))
                              for c in budget.get("components") or []
                              if isinstance(c.get("value"), int | float)]
         s["budget_unit"] = budget.get("unit") or ""
     return _render(request, "samples.html", samples=items)
-
-
-def _plain(name: str) -> str:
-    """A budget component's name without its unit suffix (``calibration_J_per_g`` →
-    ``calibration``)."""
-    for suffix in ("_J_per_g", "_kJ_per_mol", "_J_per_K", "_J", "_K"):
-        if name.endswith(suffix):
-            name = name[: -len(suffix)]
-            break
-    return name.replace("_", " ")
 
 
 async def hess(request: Request) -> HTMLResponse:
