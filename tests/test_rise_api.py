@@ -146,6 +146,15 @@ def test_plot_rise_writes_a_png_and_draws_into_axes(tmp_path, record, result):
     assert {"fore period", "main period", "after period", "readings"} <= set(labels)
     dk = corrected_rise(record, "dickinson", dickinson_rule="60-percent")
     assert rise.plot_rise(record, dk, tmp_path / "dk.png").exists()
+    # the plot names what it is of, and draws °C as inspect and the workbench do
+    ax = Figure().subplots()
+    rise.plot_rise(record, result, ax, label="BA-07")
+    assert ax.get_title().startswith("BA-07: ")
+    assert ax.get_ylabel() == "temperature / °C"
+    T_C = [v for line in ax.get_lines() if line.get_label() == "readings"
+           for v in line.get_ydata()]
+    # 0 °C = 273.15 K by definition of the Celsius scale
+    assert min(T_C) == pytest.approx(float(record.temperature_K.min()) - 273.15, abs=1e-9)
 
 
 def test_validate_methods_small_run():

@@ -125,12 +125,13 @@ def _plot(thermogram: Thermogram, path: str) -> None:
 
     fig = Figure(figsize=(8, 4.5), layout="constrained")
     ax = fig.add_subplot()
-    ax.plot(thermogram.time_s, thermogram.temperature_C, ".", ms=2, label="calorimeter")
+    minutes = (thermogram.time_s - thermogram.time_s[0]) / 60.0  # as the rise plot draws it
+    ax.plot(minutes, thermogram.temperature_C, ".", ms=2, label="calorimeter")
     if "jacket_K" in thermogram.channels:
-        ax.plot(thermogram.time_s, thermogram.channels["jacket_K"] - CELSIUS_ZERO_K, "-", lw=1,
+        ax.plot(minutes, thermogram.channels["jacket_K"] - CELSIUS_ZERO_K, "-", lw=1,
                 label="jacket")
         ax.legend()
-    ax.set_xlabel("time / s")
+    ax.set_xlabel("time / min (from the first reading)")
     ax.set_ylabel("temperature / °C")
     ax.set_title(Path(thermogram.provenance.source_path or "log").name)
     try:

@@ -257,7 +257,7 @@ def _run_figure(run: Any, th: Any) -> Figure | None:
     label = " (simulated data)" if sim else ""
     rise = primary_rise(run)
     if isinstance(rise, RiseResult):
-        return Figure(rise_png(th, rise), f"Thermogram of run {run.run}{label}",
+        return Figure(rise_png(th, rise, run.run), f"Thermogram of run {run.run}{label}",
                       f"Run {run.run}{label}: readings, fore/main/after periods, fitted drift "
                       "model extended over the main period, residuals of the drift fits "
                       "(calwork.rise.plot_rise).", sim)

@@ -73,7 +73,7 @@ def _plots(red: Any, out: Path, on_problem: Callable[[str], None] | None) -> lis
     from calwork.report.texts import primary_rise
 
     files = []
-    draw_rise_pngs([(red.thermograms[r.run], primary_rise(r)) for r in red.runs
+    draw_rise_pngs([(red.thermograms[r.run], primary_rise(r), r.run) for r in red.runs
                     if r.run in red.thermograms
                     and hasattr(primary_rise(r), "corrected_rise_K")])
     for r in red.runs:
@@ -83,7 +83,7 @@ def _plots(red: Any, out: Path, on_problem: Callable[[str], None] | None) -> lis
             continue
         path = out / f"{_safe(r.run)}.png"
         try:
-            path.write_bytes(rise_png(tg, rise))
+            path.write_bytes(rise_png(tg, rise, r.run))
         except OSError as exc:
             raise ExportError(f"cannot write the plot ({exc.strerror})", path=path) from None
         except CalworkError as exc:

@@ -77,24 +77,24 @@ _RISE_PNGS: dict[int, tuple[Any, bytes]] = {}
 _RISE_PNG_CACHE = 256
 
 
-def rise_png(thermogram: Any, rise: Any) -> bytes:
-    """The run plot (:func:`calwork.rise.plot_rise`) of ``rise`` as PNG bytes, drawn once per
-    rise record."""
+def rise_png(thermogram: Any, rise: Any, label: str | None = None) -> bytes:
+    """The run plot (:func:`calwork.rise.plot_rise`) of ``rise`` as PNG bytes, titled with
+    ``label`` (the run id), drawn once per rise record."""
     found = _RISE_PNGS.get(id(rise))
     if found is not None and found[0] is rise:
         return found[1]
-    data = _png_of(thermogram, rise)
+    data = _png_of(thermogram, rise, label)
     _remember(rise, data)
     return data
 
 
-def _png_of(thermogram: Any, rise: Any) -> bytes:
+def _png_of(thermogram: Any, rise: Any, label: str | None = None) -> bytes:
     import io
 
     from calwork.rise import plot_rise
 
     buffer = io.BytesIO()
-    plot_rise(thermogram, rise, buffer)
+    plot_rise(thermogram, rise, buffer, label=label)
     return buffer.getvalue()
 
 
@@ -104,24 +104,25 @@ def _remember(rise: Any, data: bytes) -> None:
     _RISE_PNGS[id(rise)] = (rise, data)
 
 
-#: The (thermogram, rise) pairs a forked worker draws (inherited by fork; only indices and
-#: the PNG bytes cross between the processes).
-_PENDING: list[tuple[Any, Any]] = []
+#: The (thermogram, rise, label) items a forked worker draws (inherited by fork; only
+#: indices and the PNG bytes cross between the processes).
+_PENDING: list[tuple[Any, ...]] = []
 
 
 def _draw_one(index: int) -> bytes:
     return _png_of(*_PENDING[index])
 
 
-def draw_rise_pngs(items: list[tuple[Any, Any]]) -> None:
-    """Draw the run plots of ``(thermogram, rise)`` pairs into the cache of :func:`rise_png`,
-    on every core of the machine (forked workers; the images are the same as drawn one by
-    one). Where no worker can be started, :func:`rise_png` draws each plot when asked."""
+def draw_rise_pngs(items: list[tuple[Any, ...]]) -> None:
+    """Draw the run plots of ``(thermogram, rise, label)`` items into the cache of
+    :func:`rise_png` on every core of the machine (forked workers; the images are the same
+    as drawn one by one). Where no worker can be started, :func:`rise_png` draws each plot
+    when asked."""
     import multiprocessing
     import os
     from concurrent.futures import ProcessPoolExecutor
 
-    todo = [(th, rise) for th, rise in items if id(rise) not in _RISE_PNGS]
+    todo = [item for item in items if id(item[1]) not in _RISE_PNGS]
     workers = min(os.cpu_count() or 1, 4, len(todo))
     if workers < 2 or "fork" not in multiprocessing.get_all_start_methods():
         return
@@ -134,5 +135,5 @@ def draw_rise_pngs(items: list[tuple[Any, Any]]) -> None:
         return
     finally:
         _PENDING.clear()
-    for (_, rise), data in zip(todo, images, strict=True):
-        _remember(rise, data)
+    for item, data in zip(todo, images, strict=True):
+        _remember(item[1], data)

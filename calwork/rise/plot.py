@@ -12,6 +12,7 @@ from typing import Any
 
 import numpy as np
 
+from calwork.core.constants import CELSIUS_ZERO_K
 from calwork.core.errors import ExportError
 from calwork.core.thermogram import Thermogram
 from calwork.rise.result import RiseResult
@@ -23,7 +24,8 @@ _BLACK, _ORANGE, _SKY, _GREEN, _BLUE, _VERMILION = (
     "#000000", "#E69F00", "#56B4E9", "#009E73", "#0072B2", "#D55E00")
 
 
-def plot_rise(thermogram: Thermogram, result: RiseResult, path_or_ax: Any) -> Any:
+def plot_rise(thermogram: Thermogram, result: RiseResult, path_or_ax: Any, *,
+              label: str | None = None) -> Any:
     """Draw a thermogram with its periods, drift model and corrected rise.
 
     Parameters
@@ -36,6 +38,8 @@ def plot_rise(thermogram: Thermogram, result: RiseResult, path_or_ax: Any) -> An
         A file name (``.png``, ``.pdf``, ``.svg``; the figure is written and closed), a binary
         file object (PNG is written to it), or a matplotlib ``Axes`` to draw the thermogram
         panel into (no residual panel then).
+    label
+        What the plot is of, first in its title (a run id); default: the log's file name.
 
     Returns
     -------
@@ -65,7 +69,7 @@ def plot_rise(thermogram: Thermogram, result: RiseResult, path_or_ax: Any) -> An
         fig = Figure(figsize=(8.0, 6.0))
         fig.subplots_adjust(left=0.1, right=0.97, top=0.94, bottom=0.08, hspace=0.08)
         ax, axr = fig.subplots(2, 1, sharex=True, height_ratios=(3, 1))
-        _draw(thermogram, result, ax, axr)
+        _draw(thermogram, result, ax, axr, label)
         if hasattr(path_or_ax, "write"):
             fig.savefig(path_or_ax, dpi=120, format="png")
             return path_or_ax
@@ -75,27 +79,33 @@ def plot_rise(thermogram: Thermogram, result: RiseResult, path_or_ax: Any) -> An
         except (OSError, ValueError) as exc:
             raise ExportError(f"cannot write the plot: {exc}", path=path) from None
         return path
-    _draw(thermogram, result, path_or_ax, None)
+    _draw(thermogram, result, path_or_ax, None, label)
     return path_or_ax
 
 
-def _draw(th: Thermogram, res: RiseResult, ax, axr) -> None:
+def _draw(th: Thermogram, res: RiseResult, ax, axr, label: str | None = None) -> None:
     t = th.time_s
-    T = th.temperature_K
+    T = th.temperature_K - CELSIUS_ZERO_K  # drawn in °C, as inspect and the workbench draw
     t0 = float(t[0])
+
+    def fore_c(tt):
+        return res.fore_curve(tt) - CELSIUS_ZERO_K
+
+    def after_c(tt):
+        return res.after_curve(tt) - CELSIUS_ZERO_K
     x = (t - t0) / 60.0
 
     def xm(v: float) -> float:
         return (v - t0) / 60.0
 
     spikes = np.isin(t, np.asarray(res.periods.spikes_s))
-    for (a, b), label, colour, hatch in (
+    for (a, b), period, colour, hatch in (
         (res.fore_period_s, "fore period", _SKY, "//"),
         ((res.fire_time_s, res.main_end_s), "main period", _ORANGE, ".."),
         (res.after_period_s, "after period", _GREEN, "\\\\"),
     ):
         ax.axvspan(xm(a), xm(b), facecolor=colour, alpha=0.18, hatch=hatch, edgecolor=colour,
-                   linewidth=0.0, label=label)
+                   linewidth=0.0, label=period)
     ax.plot(x[~spikes], T[~spikes], linestyle="none", marker="o", markersize=2.5,
             color=_BLACK, label="readings")
     if spikes.any():
@@ -103,36 +113,38 @@ def _draw(th: Thermogram, res: RiseResult, ax, axr) -> None:
                 color=_VERMILION, label="spikes (left out)")
     tt = np.linspace(res.fore_period_s[0], res.main_end_s, 200)
     ta = np.linspace(res.fire_time_s, res.after_period_s[1], 200)
-    ax.plot(xm(tt), res.fore_curve(tt), linestyle="--", color=_BLUE, linewidth=1.4,
+    ax.plot(xm(tt), fore_c(tt), linestyle="--", color=_BLUE, linewidth=1.4,
             label="fore drift (extended)")
-    ax.plot(xm(ta), res.after_curve(ta), linestyle="-.", color=_VERMILION, linewidth=1.4,
+    ax.plot(xm(ta), after_c(ta), linestyle="-.", color=_VERMILION, linewidth=1.4,
             label="after drift (extended)")
     if res.t_x_s is not None:
-        lo, hi = res.fore_curve(res.t_x_s), res.after_curve(res.t_x_s)
+        lo, hi = fore_c(res.t_x_s), after_c(res.t_x_s)
         ax.plot([xm(res.t_x_s)] * 2, [lo, hi], color=_BLACK, linewidth=2.5, linestyle="-",
                 marker="_", markersize=12,
                 label=f"ΔT_c = {res.corrected_rise_K:.5f} K at t_x")
     rule = f", {res.dickinson_rule}" if res.dickinson_rule else ""
-    ax.set_title(f"Corrected temperature rise ({res.method}{rule}): "
-                 f"{res.corrected_rise_K:.6f} ± {res.u_corrected_rise_K:.2g} K (u)")
-    ax.set_ylabel("temperature / K")
+    source = th.provenance.source_path
+    name = label or (Path(source).stem if source else "")
+    ax.set_title((f"{name}: " if name else "") + f"ΔT_c ({res.method}{rule}) = "
+                 f"{res.corrected_rise_K:.6f} K, u = {res.u_corrected_rise_K * 1e3:.2g} mK")
+    ax.set_ylabel("temperature / °C")
     # the corner the drift periods leave free: above the fore period for a rise, below it
     # for a fall (a 'best' search over thousands of readings is slow)
     ax.legend(loc="upper left" if res.corrected_rise_K >= 0 else "lower left", fontsize=7,
               framealpha=0.85)
     ax.grid(True, linewidth=0.3, color="0.8")
     if axr is None:
-        ax.set_xlabel("time / min")
+        ax.set_xlabel("time / min (from the first reading)")
         return
     keep = ~spikes
     fore = keep & (t >= res.fore_period_s[0]) & (t <= res.fore_period_s[1])
     after = keep & (t >= res.after_period_s[0]) & (t <= res.after_period_s[1])
     axr.axhline(0.0, color="0.5", linewidth=0.8)
-    axr.plot(x[fore], (T[fore] - res.fore_curve(t[fore])) * 1e3, linestyle="none",
+    axr.plot(x[fore], (T[fore] - fore_c(t[fore])) * 1e3, linestyle="none",
              marker="o", markersize=2.5, color=_BLUE, label="fore residuals")
-    axr.plot(x[after], (T[after] - res.after_curve(t[after])) * 1e3, linestyle="none",
+    axr.plot(x[after], (T[after] - after_c(t[after])) * 1e3, linestyle="none",
              marker="^", markersize=2.5, color=_VERMILION, label="after residuals")
     axr.set_ylabel("residual / mK")
-    axr.set_xlabel("time / min")
+    axr.set_xlabel("time / min (from the first reading)")
     axr.legend(loc="upper right", fontsize=7, framealpha=0.85)
     axr.grid(True, linewidth=0.3, color="0.8")
