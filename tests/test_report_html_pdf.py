@@ -32,7 +32,8 @@ def html(reduction, tmp_path_factory):
 
 def test_html_is_self_contained(html):
     assert html.startswith("<!DOCTYPE html>")
-    assert "http" not in html  # no links, no external resources of any kind
+    text = re.sub(r"data:image/png;base64,[A-Za-z0-9+/=]+", "", html)  # the embedded images
+    assert "http" not in text  # no links, no external resources of any kind
     sources = re.findall(r'src="([^"]*)"', html)
     assert sources
     assert all(s.startswith("data:image/png;base64,") for s in sources)

@@ -150,12 +150,12 @@ def test_reduce_plots_the_reaction_of_a_solution_log(tmp_path, monkeypatch):
     write_run_sheet(rows, sheet)
     drawn = {}
 
-    def capture(thermogram, result):
+    def capture(thermogram, result, label=None):
         drawn[id(result)] = result
         return b"png"
 
     monkeypatch.setattr(plots, "rise_png", capture)
-    monkeypatch.setattr(plots, "draw_rise_pngs", lambda items: None)
+    monkeypatch.setattr(plots, "draw_rise_pngs", lambda items, wait=True: None)
     red = reduce_sheet(sheet)
     report_folder._plots(red, tmp_path, None)
     k01 = next(r for r in red.runs if r.run == "K01")

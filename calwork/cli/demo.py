@@ -45,17 +45,25 @@ def register(subparsers: argparse._SubParsersAction) -> None:
 def run(args: argparse.Namespace) -> int:
     from calwork.reduce import reduce_sheet
     from calwork.report import write_report, write_workbook
-    from calwork.report.folder import write_outputs
+    from calwork.report.content import draw_control_charts
+    from calwork.report.folder import rise_plot_items, write_outputs
     from calwork.report.plain import render_text
+    from calwork.report.plots import draw_rise_pngs
     from calwork.report.summary import summary_document
 
     red = reduce_sheet(sample_sheet(), method=args.method, progress=not args.json)
     out = Path(args.out)
+    workbook = out / "calwork-demo.xlsx"
+    # the run plots are drawn by worker processes while this one writes the workbook
+    finish = (lambda: None) if args.no_plots else draw_rise_pngs(rise_plot_items(red),
+                                                                  wait=False)
+    out.mkdir(parents=True, exist_ok=True)
+    write_workbook(red, workbook)
+    draw_control_charts(red)
+    finish()
     written = write_outputs(red, out, plots=not args.no_plots,
                             on_problem=lambda text: print(f"calwork demo: {text}",
                                                           file=sys.stderr))
-    workbook = out / "calwork-demo.xlsx"
-    write_workbook(red, workbook)
     html = out / "report.html"
     write_report(red, html)
     written += [workbook, html]

@@ -30,7 +30,7 @@ from calwork.report.texts import (
     simulated_runs,
 )
 
-__all__ = ["build_document", "fmt"]
+__all__ = ["build_document", "draw_control_charts", "fmt"]
 
 
 def fmt(value: Any, digits: int = 4, *, sig: bool = False) -> str:
@@ -114,7 +114,29 @@ def _summary(red: Any) -> Section:
     return sec
 
 
+#: Control-chart images already drawn, by calibration record (kept with it).
+_CHART_PNGS: dict[int, tuple[Any, tuple[bytes | None, str]]] = {}
+
+
+def draw_control_charts(red: Any) -> None:
+    """Draw the control chart of each calibration of ``red`` now (e.g. while worker
+    processes draw the run plots); the report then takes them as drawn."""
+    for cal in red.calibrations:
+        _control_chart_png(cal, red)
+
+
 def _control_chart_png(cal: Any, red: Any) -> tuple[bytes | None, str]:
+    found = _CHART_PNGS.get(id(cal))
+    if found is not None and found[0] is cal:
+        return found[1]
+    drawn = _draw_control_chart(cal, red)
+    if len(_CHART_PNGS) > 64:
+        _CHART_PNGS.clear()
+    _CHART_PNGS[id(cal)] = (cal, drawn)
+    return drawn
+
+
+def _draw_control_chart(cal: Any, red: Any) -> tuple[bytes | None, str]:
     from calwork.qa import control_chart, plot_control_chart
 
     infos = {i.run: i for i in red.run_infos}

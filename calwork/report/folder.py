@@ -14,7 +14,7 @@ from calwork.report.plain import render_markdown
 from calwork.report.sanitise import csv_text
 from calwork.report.summary import summary_document
 
-__all__ = ["write_outputs"]
+__all__ = ["rise_plot_items", "write_outputs"]
 
 _RUN_COLUMNS = ("run", "kind", "sample", "calorimeter", "corrected_rise_K",
                 "u_corrected_rise_K", "energy_equivalent_J_per_K", "massic_energy_J_per_g",
@@ -68,14 +68,21 @@ def write_outputs(red: Any, out_dir: str | Path, *, plots: bool = True,
     return written
 
 
+def rise_plot_items(red: Any) -> list[tuple[Any, Any, str]]:
+    """``(thermogram, rise, run id)`` of every run plot of a reduction (for
+    :func:`calwork.report.plots.draw_rise_pngs`)."""
+    from calwork.report.texts import primary_rise
+
+    return [(red.thermograms[r.run], primary_rise(r), r.run) for r in red.runs
+            if r.run in red.thermograms and hasattr(primary_rise(r), "corrected_rise_K")]
+
+
 def _plots(red: Any, out: Path, on_problem: Callable[[str], None] | None) -> list[Path]:
     from calwork.report.plots import draw_rise_pngs, rise_png
     from calwork.report.texts import primary_rise
 
     files = []
-    draw_rise_pngs([(red.thermograms[r.run], primary_rise(r), r.run) for r in red.runs
-                    if r.run in red.thermograms
-                    and hasattr(primary_rise(r), "corrected_rise_K")])
+    draw_rise_pngs(rise_plot_items(red))
     for r in red.runs:
         tg = red.thermograms.get(r.run)
         rise = primary_rise(r)  # for a multi-event (solution) log: the reaction's

@@ -9,6 +9,7 @@ marker or hatching, so that nothing depends on colour alone. The thermogram figu
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from contextlib import contextmanager
 from typing import Any
 
@@ -113,11 +114,16 @@ def _draw_one(index: int) -> bytes:
     return _png_of(*_PENDING[index])
 
 
-def draw_rise_pngs(items: list[tuple[Any, ...]]) -> None:
+def draw_rise_pngs(items: list[tuple[Any, ...]], *, wait: bool = True) -> Callable[[], None]:
     """Draw the run plots of ``(thermogram, rise, label)`` items into the cache of
     :func:`rise_png` on every core of the machine (forked workers; the images are the same
     as drawn one by one). Where no worker can be started, :func:`rise_png` draws each plot
-    when asked."""
+    when asked.
+
+    With ``wait=False`` the workers draw while the caller goes on (writing a workbook, say);
+    the returned function waits for them and fills the cache (call it before the plots are
+    needed; calling it again does nothing).
+    """
     import multiprocessing
     import os
     from concurrent.futures import ProcessPoolExecutor
@@ -125,15 +131,30 @@ def draw_rise_pngs(items: list[tuple[Any, ...]]) -> None:
     todo = [item for item in items if id(item[1]) not in _RISE_PNGS]
     workers = min(os.cpu_count() or 1, 4, len(todo))
     if workers < 2 or "fork" not in multiprocessing.get_all_start_methods():
-        return
+        return lambda: None
     _PENDING[:] = todo
     try:
-        with ProcessPoolExecutor(workers, mp_context=multiprocessing.get_context("fork")) as pool:
-            images = list(pool.map(_draw_one, range(len(todo)),
-                                   chunksize=max(1, len(todo) // (4 * workers))))
+        pool = ProcessPoolExecutor(workers, mp_context=multiprocessing.get_context("fork"))
+        images = pool.map(_draw_one, range(len(todo)),
+                          chunksize=max(1, len(todo) // (4 * workers)))
     except Exception:
-        return
-    finally:
         _PENDING.clear()
-    for item, data in zip(todo, images, strict=True):
-        _remember(item[1], data)
+        return lambda: None
+    done = []
+
+    def finish() -> None:
+        if done:
+            return
+        done.append(True)
+        try:
+            for item, data in zip(todo, images, strict=True):
+                _remember(item[1], data)
+        except Exception:  # a plot a worker could not draw is drawn when asked
+            pass
+        finally:
+            pool.shutdown(wait=True, cancel_futures=True)
+            _PENDING.clear()
+
+    if wait:
+        finish()
+    return finish
