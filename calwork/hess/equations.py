@@ -120,19 +120,17 @@ def _split_sides(text: str) -> tuple[str, str, int]:
 
 
 def _find_outside_states(text: str, token: str) -> list[int]:
-    out, depth = [], 0
-    i = 0
-    while i < len(text):
-        ch = text[i]
-        if ch in "([":
-            depth += 1
-        elif ch in ")]":
-            depth -= 1
-        elif depth == 0 and text.startswith(token, i):
+    """Where ``token`` occurs outside parentheses and brackets (a state may hold '=')."""
+    out = []
+    i = text.find(token)
+    while i >= 0:
+        head = text[:i]
+        depth = head.count("(") + head.count("[") - head.count(")") - head.count("]")
+        if depth == 0:
             out.append(i)
-            i += len(token)
-            continue
-        i += 1
+            i = text.find(token, i + len(token))
+        else:
+            i = text.find(token, i + 1)
     return out
 
 
@@ -192,13 +190,19 @@ def _parse_side(text: str, offset: int, whole: str) -> list[tuple[Species, Fract
 
 def imbalance(stoichiometry: Mapping[Species, Fraction]) -> dict[str, Fraction]:
     """Products minus reactants of every element (and ``'charge'``) that does not cancel."""
-    totals: dict[str, Fraction] = {}
+    totals: dict[str, Fraction | int] = {}
     for sp, c in stoichiometry.items():
+        # whole numbers (the usual case) in int arithmetic: Fraction products are slow
+        whole = c.numerator if getattr(c, "denominator", 1) == 1 else None
         for el, count in sp.elements.items():
-            totals[el] = totals.get(el, Fraction(0)) + c * count
+            if whole is not None and getattr(count, "denominator", 1) == 1:
+                term: Fraction | int = whole * int(count)
+            else:
+                term = c * count
+            totals[el] = totals.get(el, 0) + term
         if sp.charge:
-            totals["charge"] = totals.get("charge", Fraction(0)) + c * sp.charge
-    return {k: v for k, v in sorted(totals.items()) if v != 0}
+            totals["charge"] = totals.get("charge", 0) + c * sp.charge
+    return {k: Fraction(v) for k, v in sorted(totals.items()) if v != 0}
 
 
 def check_balance(stoichiometry: Mapping[Species, Fraction], text: str = "") -> None:

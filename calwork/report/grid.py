@@ -18,6 +18,7 @@ import re
 import zipfile
 from collections.abc import Callable, Mapping, Sequence
 from contextlib import suppress
+from copy import copy
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
@@ -259,21 +260,17 @@ class Grid:
             return None
         if isinstance(content, Text):
             cell = text_cell(ws, content.text)
-            styles.apply(cell, entry.kind)
-            if "\n" in cell.value:
-                cell.alignment = Alignment(wrap_text=True, vertical="top")
-            return cell
-        if isinstance(content, Expr):
+            key = ("text", entry.kind, "\n" in cell.value, cell.quotePrefix)
+        elif isinstance(content, Expr):
             cell = WriteOnlyCell(ws, value=content.formula(self.title))
             if math.isfinite(content.value):
                 values[f"{get_column_letter(c)}{r}"] = content.value
-            styles.apply(cell, "formula")
+            key = ("formula", entry.fmt)
         else:
             value = float(content)
             cell = WriteOnlyCell(ws, value=value if math.isfinite(value) else None)
-            styles.apply(cell, "input")
-        if entry.fmt:
-            cell.number_format = entry.fmt
+            key = ("input", entry.fmt)
+        styles.style(cell, key, entry)
         return cell
 
 
@@ -302,6 +299,25 @@ class _Styles:
             "input": Font(color=INPUT_COLOUR),
         }
         self.wrap = Alignment(wrap_text=True, vertical="top")
+        self.done: dict[tuple, Any] = {}
+
+    def style(self, cell: WriteOnlyCell, key: tuple, entry: Any) -> None:
+        """Give ``cell`` the style of its ``key`` (kind of content, number format, ...):
+        set attribute by attribute the first time, copied as a whole after that (setting
+        styles one by one is most of the time of writing a large sheet)."""
+        done = self.done.get(key)
+        if done is not None:
+            cell._style = copy(done)
+            return
+        if key[0] == "text":
+            self.apply(cell, entry.kind)
+            if key[2]:
+                cell.alignment = Alignment(wrap_text=True, vertical="top")
+        else:
+            self.apply(cell, key[0])
+            if entry.fmt:
+                cell.number_format = entry.fmt
+        self.done[key] = copy(cell._style)
 
     def apply(self, cell: WriteOnlyCell, kind: str) -> None:
         font = self.fonts.get(kind)
