@@ -458,3 +458,40 @@ def test_a_multi_event_log_lists_its_events_and_previews_each(tmp_path):
         assert rises[2] == pytest.approx(run["corrected_rise_K"],
                                          abs=3 * data["u_corrected_rise_K"])
         assert "heat event" in c.get(f"/runs/{run['run']}").text
+
+
+#: The injection strings the report and workbook tests use.
+INJECTIONS = ('<script>alert("x")</script>=HYPERLINK("http://example.invalid","x")',
+              "<img src=x onerror=alert(1)>")
+
+
+def test_the_report_tests_injection_strings_render_as_text(tmp_path):
+    import csv
+
+    folder = tmp_path / "hostile"
+    simulate_scenario("bomb", folder, runs=1, seed=47)
+    sheet = folder / "runs.csv"
+    with sheet.open(newline="") as fh:
+        rows = list(csv.DictReader(fh))
+    for row in rows:
+        if row["kind"] == "combustion":
+            row["sample"] = INJECTIONS[0]
+        row["notes"] = INJECTIONS[1]
+    with sheet.open("w", newline="") as fh:
+        writer = csv.DictWriter(fh, fieldnames=list(rows[0]))
+        writer.writeheader()
+        writer.writerows(rows)
+    book = tmp_path / "hostile.sqlite"
+    with open_labbook(book, create=True, user="ana") as b:
+        b.add_sheet(sheet)
+    with TestClient(create_app(book)) as c:
+        c.headers["X-CSRF-Token"] = c.get("/api/session").json()["csrf_token"]
+        assert c.post("/api/runs/sample-01/amend", json={
+            "set": {"fuse_burnt_cm": "7.5"}, "reason": INJECTIONS[0], "version": 1,
+        }).status_code == 200
+        for url in ("/", "/samples", "/runs/sample-01", "/runs/cal-01"):
+            html = c.get(url).text
+            for text in INJECTIONS:
+                assert text not in html, (url, text)
+            assert "&lt;script&gt;alert(" in html or "&lt;img src=x" in html, url
+            assert "<script>alert" not in html, url

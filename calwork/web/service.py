@@ -206,6 +206,8 @@ class Workbench:
             "u_corrected_rise_K": result.get("u_corrected_rise_K"),
             "warnings": list(result.get("warnings") or []), "error": result.get("error"),
             "result": result, "versions": versions, "history": history,
+            "notes": (shown["sheet"].get("row") or {}).get("notes"),
+            "operator": (shown["sheet"].get("row") or {}).get("operator"),
         }
         info, tg = stored.info, stored.thermogram
         periods = dict(result.get("periods") or {})
