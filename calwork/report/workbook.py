@@ -49,6 +49,7 @@ from calwork.report.plan import Plan
 from calwork.report.sanitise import safe_sheet_title
 from calwork.report.summary import review_table
 from calwork.report.texts import SIMULATED_NOTE, is_simulated, rise_method, simulated_runs
+from calwork.report.wb_fuel import CALORIFIC, plan_calorific
 from calwork.report.wb_readings import write_log_sheet
 from calwork.report.wb_results import (
     plan_budget,
@@ -72,7 +73,8 @@ REVIEW = "Review"
 
 #: The sheets of a reduction's workbook before the per-run log sheets, in order.
 RESULT_SHEETS = ("Summary", "Calibration runs", "Sample runs", "Corrections",
-                 "Uncertainty budget", "Formation", "Solution runs", REVIEW, PROVENANCE)
+                 "Uncertainty budget", "Formation", CALORIFIC, "Solution runs", REVIEW,
+                 PROVENANCE)
 
 
 def _provenance_section(plan: Plan, log_titles: dict[str, str]) -> Section:
@@ -144,6 +146,7 @@ def plan_workbook(reduction: Any, *, log_titles: dict[str, str] | None = None) -
     plan_summary_samples(plan)
     plan_budget(plan)
     plan_formation(plan)
+    plan_calorific(plan)
     solution = [r for r in reduction.runs if r.kind in SOLUTION_KINDS]
     if solution:
         plan_solution_runs(plan, solution)
