@@ -45,33 +45,49 @@ _REF = {"C": ("C(cr,graphite)", Fraction(1)), "H": ("H2(g)", Fraction(1, 2)),
         "O": ("O2(g)", Fraction(1, 2))}
 
 
-def synthetic_network(n_species: int, n_reactions: int, seed: int = 1
-                      ) -> tuple[Network, dict[Species, float]]:
-    """A random, balanced, fully determined network with known Δ_fH (kJ/mol)."""
-    rng = np.random.default_rng(seed)
-    refs = {el: Species(name=name, formula=name.split("(")[0], charge=0,
-                        state=name.split("(")[1][:-1],
-                        elements={el: 1 / per}) for el, (name, per) in _REF.items()}
+def _references() -> dict[str, Species]:
+    return {el: Species(name=name, formula=name.split("(")[0], charge=0,
+                        state=name.split("(")[1][:-1], elements={el: 1 / per})
+            for el, (name, per) in _REF.items()}
+
+
+def _random_species(rng: np.random.Generator, n_species: int) -> list[Species]:
+    """Species C_xH_yO_z(g,sK) with distinct labelled states."""
     species = []
     for k in range(n_species):
         c, h, o = int(rng.integers(1, 9)), int(rng.integers(0, 19)), int(rng.integers(0, 5))
         formula = f"C{c}H{h}O{o}"
         elements = {"C": Fraction(c), "H": Fraction(h), "O": Fraction(o)}
         species.append(Species(name=f"{formula}(g,s{k})", formula=formula, charge=0,
-                               state=f"g,s{k}", elements={e: n for e, n in elements.items()
-                                                           if n}))
+                               state=f"g,s{k}",
+                               elements={e: n for e, n in elements.items() if n}))
+    return species
+
+
+def _closed(stoich: dict[Species, Fraction], refs: dict[str, Species]
+            ) -> dict[Species, Fraction]:
+    """``stoich`` balanced with the elements in their reference states."""
+    totals = {"C": Fraction(0), "H": Fraction(0), "O": Fraction(0)}
+    for sp, coef in stoich.items():
+        for el, n in sp.elements.items():
+            totals[el] += coef * n
+    out = dict(stoich)
+    for el, total in totals.items():
+        if total:
+            out[refs[el]] = -total * _REF[el][1]
+    return out
+
+
+def synthetic_network(n_species: int, n_reactions: int, seed: int = 1
+                      ) -> tuple[Network, dict[Species, float]]:
+    """A random, balanced, fully determined network with known Δ_fH (kJ/mol)."""
+    rng = np.random.default_rng(seed)
+    refs = _references()
+    species = _random_species(rng, n_species)
     truth = {sp: float(rng.normal(-200, 150)) for sp in species}
 
     def close(stoich: dict[Species, Fraction]) -> dict[Species, Fraction]:
-        totals = {"C": Fraction(0), "H": Fraction(0), "O": Fraction(0)}
-        for sp, coef in stoich.items():
-            for el, n in sp.elements.items():
-                totals[el] += coef * n
-        out = dict(stoich)
-        for el, total in totals.items():
-            if total:
-                out[refs[el]] = -total * _REF[el][1]
-        return out
+        return _closed(stoich, refs)
 
     rows = []
     for j in range(n_reactions):
@@ -97,34 +113,17 @@ def structured_network(n_species: int, n_reactions: int, seed: int = 1, family: 
     """A network shaped like a thermochemical one (see the module docstring), with known
     Δ_fH (kJ/mol)."""
     rng = np.random.default_rng(seed)
-    refs = {el: Species(name=name, formula=name.split("(")[0], charge=0,
-                        state=name.split("(")[1][:-1], elements={el: 1 / per})
-            for el, (name, per) in _REF.items()}
+    refs = _references()
     co2 = Species(name="CO2(g)", formula="CO2", charge=0, state="g",
                   elements={"C": Fraction(1), "O": Fraction(2)})
     h2o = Species(name="H2O(l)", formula="H2O", charge=0, state="l",
                   elements={"H": Fraction(2), "O": Fraction(1)})
-    species = []
-    for k in range(n_species):
-        c, h, o = int(rng.integers(1, 9)), int(rng.integers(0, 19)), int(rng.integers(0, 5))
-        formula = f"C{c}H{h}O{o}"
-        elements = {"C": Fraction(c), "H": Fraction(h), "O": Fraction(o)}
-        species.append(Species(name=f"{formula}(g,s{k})", formula=formula, charge=0,
-                               state=f"g,s{k}",
-                               elements={e: n for e, n in elements.items() if n}))
+    species = _random_species(rng, n_species)
     truth = {s: float(rng.normal(-200, 150)) for s in species}
     truth[co2], truth[h2o] = -393.51, -285.83  # round hub values for the synthetic data
 
     def close(stoich: dict[Species, Fraction]) -> dict[Species, Fraction]:
-        totals = {"C": Fraction(0), "H": Fraction(0), "O": Fraction(0)}
-        for s, coef in stoich.items():
-            for el, n in s.elements.items():
-                totals[el] += coef * n
-        out = dict(stoich)
-        for el, total in totals.items():
-            if total:
-                out[refs[el]] = -total * _REF[el][1]
-        return out
+        return _closed(stoich, refs)
 
     rows: list[Reaction] = []
 
