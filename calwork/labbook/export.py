@@ -15,7 +15,7 @@ from calwork.core.runinfo import RunInfo
 from calwork.labbook.blobs import get_blob, write_inside
 from calwork.labbook.lifecycle import run_states
 from calwork.labbook.queries import Filters, list_calibrations, list_runs, list_samples
-from calwork.labbook.runlog import stored_info
+from calwork.labbook.reducing import stored_info
 
 __all__ = ["export_raw", "rebuild_reduction"]
 

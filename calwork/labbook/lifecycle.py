@@ -46,7 +46,7 @@ from calwork.core.results import jsonable
 from calwork.labbook import audit
 from calwork.labbook.audit import json_of
 from calwork.labbook.ingest import insert_reduction, results_meta_digest
-from calwork.labbook.reducing import reduce_stored
+from calwork.labbook.reducing import reduce_stored, stored_info
 from calwork.labbook.store import crash_point, write_transaction
 
 __all__ = [
@@ -430,11 +430,21 @@ def amend_run(conn: sqlite3.Connection, path: Path, run: str, changes: Mapping[s
         if state.state == "void":
             raise LabbookError("run is void: restore it before amending it", run=run,
                                expected=f"calwork labbook restore {run} --reason ...")
-        with materialised(conn, sheet_id) as (sheet, _original):
-            info = next(i for i in read_run_sheet(sheet) if i.run == run)
+        keys = {str(k).strip().lower() for k in changes} | set(state.overrides)
+        if "log" in keys:  # a log path is checked against the stored bundle's own files
+            with materialised(conn, sheet_id) as (sheet, _original):
+                info = next(i for i in read_run_sheet(sheet) if i.run == run)
+                before = amended_run(info, state.overrides) if state.overrides else info
+                after = amended_run(before, changes, source="--set")
+        else:  # the stored sheet row is enough; no file is written
+            row_json, original = conn.execute(
+                "SELECT r.row_json, s.original_path FROM runs r JOIN sheets s"
+                " ON s.id = r.sheet_id WHERE r.id = ?", (run_pk,)).fetchone()
+            info = stored_info(json_of(row_json, f"runs row {run_pk}", column="row_json"),
+                               original)
             before = amended_run(info, state.overrides) if state.overrides else info
             after = amended_run(before, changes, source="--set")
-            old_given, new_given = before.given(), after.given()
+        old_given, new_given = before.given(), after.given()
         if after.rise_method is not None and after.rise_method not in METHODS:
             raise ChoiceError("unknown rise method", column="rise_method", run=run,
                               found=after.rise_method, expected=list(METHODS))

@@ -13,16 +13,17 @@ import contextlib
 import sqlite3
 import tempfile
 from collections.abc import Iterator, Mapping, Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, fields
 from pathlib import Path, PurePath
 from typing import Any
 
 from calwork.core.provenance import calwork_version
 from calwork.core.results import jsonable
+from calwork.core.runinfo import RunInfo
 from calwork.labbook.blobs import get_blob, safe_relative_path, write_inside
 
 __all__ = ["ReducedSheet", "materialised", "reduce_from_path", "reduce_stored", "relocate",
-           "to_records"]
+           "stored_info", "to_records"]
 
 #: Reduction keys kept on the ``reductions`` row (the rest are stored as result rows).
 _PER_RESULT = ("runs", "calibrations", "samples")
@@ -151,3 +152,12 @@ def reduce_stored(conn: sqlite3.Connection, sheet_id: int, run_ids: Sequence[str
                           expected=[(i.run, i.kind) for i in chosen],
                           overrides={r: c for r, c in overrides.items()
                                      if r in {i.run for i in chosen}})
+
+
+def stored_info(row: dict[str, Any], sheet_path: str | None) -> RunInfo:
+    """A :class:`RunInfo` from a stored sheet row (``runs.row_json``)."""
+    names = {f.name for f in fields(RunInfo)}
+    kwargs = {k: v for k, v in row.items() if k in names and k not in ("log_path",)}
+    log = row.get("log_path")
+    return RunInfo(**kwargs, log_path=None if log is None else Path(log),
+                   sheet_path=None if sheet_path is None else Path(sheet_path))

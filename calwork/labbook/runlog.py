@@ -6,7 +6,7 @@ from __future__ import annotations
 import json
 import sqlite3
 import tempfile
-from dataclasses import fields, replace
+from dataclasses import replace
 from pathlib import Path, PurePath
 from typing import Any
 
@@ -14,17 +14,9 @@ from calwork.core.errors import LabbookError
 from calwork.core.runinfo import RunInfo
 from calwork.labbook.blobs import get_blob, safe_relative_path, write_inside
 from calwork.labbook.lifecycle import run_states
+from calwork.labbook.reducing import stored_info
 
 __all__ = ["StoredRun", "stored_info", "stored_run"]
-
-
-def stored_info(row: dict[str, Any], sheet_path: str | None) -> RunInfo:
-    """A :class:`RunInfo` from a stored sheet row (``runs.row_json``)."""
-    names = {f.name for f in fields(RunInfo)}
-    kwargs = {k: v for k, v in row.items() if k in names and k not in ("log_path",)}
-    log = row.get("log_path")
-    return RunInfo(**kwargs, log_path=None if log is None else Path(log),
-                   sheet_path=None if sheet_path is None else Path(sheet_path))
 
 
 class StoredRun:

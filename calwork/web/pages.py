@@ -93,13 +93,12 @@ async def day(request: Request) -> HTMLResponse:
 
 
 async def run_page(request: Request) -> HTMLResponse:
-    from calwork.report.texts import is_simulated
     from calwork.rise import METHODS
     from calwork.web.service import thumbnail_points
 
     bench = request.app.state.bench
     run = request.path_params["run"]
-    data = await run_in_threadpool(bench.run, run)
+    data = await run_in_threadpool(lambda: bench.run(run, readings=False))
     chart = {k: data.get(k) for k in ("run", "display", "periods", "events", "version",
                                       "state", "time_origin")}
     static_points = ""
@@ -108,18 +107,9 @@ async def run_page(request: Request) -> HTMLResponse:
 
         static_points = thumbnail_points(np.asarray(data["display"]["t_s"]),
                                          np.asarray(data["display"]["T_K"]), 720.0, 240.0)
-    with bench.book() as book:
-        stored = bench._stored(book, run)
-        sheet_method = book.connection.execute(
-            "SELECT red.method FROM reductions red JOIN runs r ON r.sheet_id = red.sheet_id"
-            " WHERE r.run = ? AND red.version = 1", (run,)).fetchone()
-    simulated = stored.thermogram is not None and is_simulated(stored.thermogram)
-    current_method = stored.info.rise_method or (sheet_method[0] if sheet_method
-                                                 else "newton-fit")
-    data.pop("readings", None)
     return _render(request, "run.html", r=data, chart=chart, methods=list(METHODS),
-                   static_points=static_points, simulated=simulated,
-                   current_method=current_method,
+                   static_points=static_points, simulated=data["simulated"],
+                   current_method=data["rise_method"],
                    result_rows=_result_rows(data["result"]))
 
 

@@ -37,6 +37,31 @@ class StaleVersionError(LabbookError):
     """The run changed since the reviewer loaded it (a version check failed)."""
 
 
+class _LogCache:
+    """Thermograms read from stored logs, by content (thread-safe, least recently used out):
+    what :func:`calwork.labbook.runlog.stored_run` takes as its ``cache``."""
+
+    def __init__(self, size: int = 256) -> None:
+        self._items: OrderedDict[Any, Any] = OrderedDict()
+        self._lock = threading.Lock()
+        self._size = size
+
+    def __contains__(self, key: Any) -> bool:
+        with self._lock:
+            return key in self._items
+
+    def __getitem__(self, key: Any) -> Any:
+        with self._lock:
+            self._items.move_to_end(key)
+            return self._items[key]
+
+    def __setitem__(self, key: Any, value: Any) -> None:
+        with self._lock:
+            self._items[key] = value
+            while len(self._items) > self._size:
+                self._items.popitem(last=False)
+
+
 def _finite(value: Any) -> Any:
     if isinstance(value, float) and not math.isfinite(value):
         return None
@@ -98,7 +123,7 @@ class Workbench:
         self.read_only = read_only
         self.import_root = None if import_root is None else Path(import_root).resolve()
         self._lock = threading.Lock()
-        self._thermograms: OrderedDict[Any, Any] = OrderedDict()
+        self._logs = _LogCache()
         self._thumbs: dict[Any, str] = {}
 
     # --- plumbing -----------------------------------------------------------------------------
@@ -117,16 +142,7 @@ class Workbench:
     def _stored(self, book: Any, run: str) -> Any:
         from calwork.labbook.runlog import stored_run
 
-        with self._lock:
-            cache = dict(self._thermograms)
-        stored = stored_run(book.connection, run, cache=cache)
-        with self._lock:
-            for key, value in cache.items():
-                self._thermograms[key] = value
-                self._thermograms.move_to_end(key)
-            while len(self._thermograms) > 256:
-                self._thermograms.popitem(last=False)
-        return stored
+        return stored_run(book.connection, run, cache=self._logs)
 
     # --- reading ------------------------------------------------------------------------------
     def runs(self, filters: Any = None, *, thumbnails: bool = True) -> list[dict[str, Any]]:
@@ -182,8 +198,10 @@ class Workbench:
 
     def run(self, run: str, *, readings: bool = True) -> dict[str, Any]:
         """One run: the contract keys (state, version, result, warnings, periods with their
-        source, readings), its stored result, history and the log's heat events."""
+        source, and with ``readings`` every reading), the readings thinned for drawing, its
+        stored result, history and the log's heat events."""
         from calwork.report.summary import boundary_origins
+        from calwork.report.texts import is_simulated
 
         with self.book() as book:
             listed = [r for r in book.runs() if r["run"] == run]
@@ -193,6 +211,9 @@ class Workbench:
             versions = book.versions(run)
             history = [e.to_dict() for e in book.history(run)]
             stored = self._stored(book, run)
+            sheet_method = book.connection.execute(
+                "SELECT red.method FROM reductions red JOIN runs r ON r.sheet_id = red.sheet_id"
+                " WHERE r.run = ? AND red.version = 1", (run,)).fetchone()
         result = shown["result"] or {}
         state = shown["state"]
         out: dict[str, Any] = {
@@ -210,6 +231,9 @@ class Workbench:
             "operator": (shown["sheet"].get("row") or {}).get("operator"),
         }
         info, tg = stored.info, stored.thermogram
+        out["rise_method"] = info.rise_method or (sheet_method[0] if sheet_method
+                                                  else "newton-fit")
+        out["simulated"] = tg is not None and is_simulated(tg)
         periods = dict(result.get("periods") or {})
         out["periods"] = {
             "fore_start_s": _finite(on_axis_s(info.fore_start_s, tg)) if tg is not None
@@ -225,12 +249,12 @@ class Workbench:
         if tg is not None:
             out["time_origin"] = time_origin(tg.metadata, tg.time_s)
             out["events"] = _events(tg)
+            t, y = tg.time_s, tg.temperature_K
             if readings:
-                t, y = tg.time_s, tg.temperature_K
                 out["readings"] = {"t_s": t.tolist(), "T_K": y.tolist()}
-                dt, dy, cut = decimated(t, y)
-                out["display"] = {"t_s": dt.tolist(), "T_K": dy.tolist(), "decimated": cut,
-                                  "n_readings": int(t.size)}
+            dt, dy, cut = decimated(t, y)
+            out["display"] = {"t_s": dt.tolist(), "T_K": dy.tolist(), "decimated": cut,
+                              "n_readings": int(t.size)}
         return out
 
     def preview(self, run: str, settings: Mapping[str, Any]) -> dict[str, Any]:
