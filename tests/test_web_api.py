@@ -495,3 +495,11 @@ def test_the_report_tests_injection_strings_render_as_text(tmp_path):
                 assert text not in html, (url, text)
             assert "&lt;script&gt;alert(" in html or "&lt;img src=x" in html, url
             assert "<script>alert" not in html, url
+
+
+def test_on_loopback_only_the_loopback_names_are_served(book):
+    app = create_app(book, allowed_hosts=["127.0.0.1", "localhost"])
+    with TestClient(app, base_url="http://127.0.0.1:8765") as c:
+        assert c.get("/api/session").status_code == 200
+    with TestClient(app, base_url="http://attacker.example:8765") as c:
+        assert c.get("/api/session").status_code == 400  # a rebound name is refused

@@ -84,8 +84,10 @@ def run(args: argparse.Namespace) -> int:
         print(f"access token for {user}: {token}  (give it at /login or as "
               "'Authorization: Bearer TOKEN')", flush=True)
     path = resolve_labbook_path(args.labbook)
+    hosts = (sorted({args.host, "127.0.0.1", "localhost", "::1", "[::1]"})
+             if _loopback(args.host) else None)
     app = create_app(path, read_only=args.read_only, tokens=tokens, user=user,
-                     import_root=args.import_root)
+                     import_root=args.import_root, allowed_hosts=hosts)
     url = f"http://{args.host}:{args.port}/"
     print(f"calwork review bench on {url} over {path}"
           + (" (read-only)" if args.read_only else "") + "; Ctrl-C stops it", flush=True)

@@ -32,6 +32,7 @@ from typing import Any
 from starlette.applications import Starlette
 from starlette.exceptions import HTTPException
 from starlette.middleware import Middleware
+from starlette.middleware.trustedhost import TrustedHostMiddleware
 from starlette.requests import Request
 from starlette.responses import (
     FileResponse,
@@ -128,7 +129,8 @@ def status_of(exc: CalworkError) -> int:
 def create_app(labbook: str | os.PathLike[str], *, read_only: bool = False,
                tokens: Mapping[str, str] | None = None, user: str | None = None,
                import_root: str | os.PathLike[str] | None = None,
-               max_upload_bytes: int = DEFAULT_MAX_UPLOAD_BYTES) -> Starlette:
+               max_upload_bytes: int = DEFAULT_MAX_UPLOAD_BYTES,
+               allowed_hosts: list[str] | None = None) -> Starlette:
     """The workbench application over the lab book ``labbook``.
 
     Parameters
@@ -146,6 +148,11 @@ def create_app(labbook: str | os.PathLike[str], *, read_only: bool = False,
         A folder whose run sheets the Import page lists.
     max_upload_bytes
         Largest request body, bytes.
+    allowed_hosts
+        Host names a request may address (its ``Host`` header); ``None``: any. ``calwork
+        serve`` on loopback allows only the loopback names, so that a page elsewhere cannot
+        reach the workbench through a name of its own that resolves to this computer (DNS
+        rebinding).
     """
     from calwork.labbook.audit import current_user
     from calwork.web import api, pages
@@ -198,7 +205,9 @@ def create_app(labbook: str | os.PathLike[str], *, read_only: bool = False,
     ]
     app = Starlette(
         routes=routes,
-        middleware=[Middleware(_Guard, settings=settings)],
+        middleware=[*([Middleware(TrustedHostMiddleware, allowed_hosts=allowed_hosts)]
+                      if allowed_hosts else []),
+                    Middleware(_Guard, settings=settings)],
         exception_handlers={CalworkError: on_calwork_error, HTTPException: on_http_error,
                             ValueError: on_value_error, json.JSONDecodeError: on_value_error},
         max_body_size=int(max_upload_bytes),
