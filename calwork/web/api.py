@@ -90,22 +90,18 @@ async def approve(request: Request) -> JSONResponse:
     return _json(data)
 
 
-async def void(request: Request) -> JSONResponse:
-    body = await checked_json(request)
-    bench = request.app.state.bench
-    data = await run_in_threadpool(
-        lambda: bench.void(request.path_params["run"], reason=_reason(body),
+def _reasoned(action: str):
+    """The route of a change that takes only a reason (``void``, ``restore``)."""
+
+    async def route(request: Request) -> JSONResponse:
+        body = await checked_json(request)
+        change = getattr(request.app.state.bench, action)
+        data = await run_in_threadpool(
+            lambda: change(request.path_params["run"], reason=_reason(body),
                            user=request_user(request)))
-    return _json(data)
+        return _json(data)
 
-
-async def restore(request: Request) -> JSONResponse:
-    body = await checked_json(request)
-    bench = request.app.state.bench
-    data = await run_in_threadpool(
-        lambda: bench.restore(request.path_params["run"], reason=_reason(body),
-                              user=request_user(request)))
-    return _json(data)
+    return route
 
 
 async def calibration(request: Request) -> JSONResponse:
@@ -138,8 +134,8 @@ def routes() -> list[Route]:
         Route("/api/runs/{run:path}/preview", preview, methods=["POST"]),
         Route("/api/runs/{run:path}/amend", amend, methods=["POST"]),
         Route("/api/runs/{run:path}/approve", approve, methods=["POST"]),
-        Route("/api/runs/{run:path}/void", void, methods=["POST"]),
-        Route("/api/runs/{run:path}/restore", restore, methods=["POST"]),
+        Route("/api/runs/{run:path}/void", _reasoned("void"), methods=["POST"]),
+        Route("/api/runs/{run:path}/restore", _reasoned("restore"), methods=["POST"]),
         Route("/api/runs/{run:path}", run),
         Route("/api/calibrations/{calorimeter:path}", calibration),
         Route("/api/samples", samples),
