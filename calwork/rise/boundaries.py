@@ -119,23 +119,33 @@ def detect_onset(t: np.ndarray, T: np.ndarray, sigma: float, peak: int, lo: int,
 SCORE_GAP_READINGS = 64
 
 
+def _running_sums(tt: np.ndarray, hh: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """The sums :func:`_block_tests` needs, shared by its calls on one stretch: the sums of
+    ``t, t², h, t·h`` from each reading to the end (4 × m), and the running sums of ``t`` and
+    ``h`` from the start (2 × (m + 1))."""
+    X = np.stack([tt, tt * tt, hh, tt * hh])
+    tail = np.cumsum(X[:, ::-1], axis=1)[:, ::-1]
+    head = np.zeros((2, tt.size + 1))
+    np.cumsum(X[[0, 2]], axis=1, out=head[:, 1:])
+    return tail, head
+
+
 def _block_tests(tt: np.ndarray, hh: np.ndarray, s: np.ndarray, sigma2: float, z: float,
-                 sign: int, z_one: float) -> tuple[np.ndarray, ...]:
+                 sign: int, z_one: float,
+                 sums: tuple[np.ndarray, np.ndarray] | None = None) -> tuple[np.ndarray, ...]:
     """Plateau test of candidate starts ``s`` (indices into ``tt``/``hh``): for each, a line
     fitted to ``hh[s:]`` and the residual means of its first 4…64 readings against their
     noise. Returns ``(bad, strict, tbar, hbar, slope)``: failing at ``z`` (or one-sided at
-    ``z_one`` against ``sign``), failing a 2σ test, and the fitted lines."""
+    ``z_one`` against ``sign``), failing a 2σ test, and the fitted lines. ``sums``: those of
+    :func:`_running_sums` for ``tt``, ``hh`` (computed here if not given)."""
     m = tt.size
-    X = np.stack([tt, tt * tt, hh, tt * hh])
-    St, Stt, Sh, Sth = np.cumsum(X[:, ::-1], axis=1)[:, ::-1][:, s]
+    tail, (Ft, Fh) = sums if sums is not None else _running_sums(tt, hh)
+    St, Stt, Sh, Sth = tail[:, s]
     cnt = (m - s).astype(float)
     tbar = St / cnt
     hbar = Sh / cnt
     sxx = np.maximum(Stt - St * tbar, 1e-300)
     slope = (Sth - St * hbar) / sxx
-    F = np.zeros((2, m + 1))
-    np.cumsum(X[[0, 2]], axis=1, out=F[:, 1:])
-    Ft, Fh = F
     bad = np.zeros(s.size, dtype=bool)
     strict = np.zeros(s.size, dtype=bool)
     for b in (4, 8, 16, 32, 64):
@@ -198,7 +208,8 @@ def newtonian_start(H: np.ndarray, t: np.ndarray, lo: int, ref: int, end: int,
     s = np.arange(0, ref - lo + 1, stride)
     if s[-1] != ref - lo:
         s = np.append(s, ref - lo)
-    bad, _, tbar, hbar, slope = _block_tests(tt, hh, s, sigma2, z, sign, z_one)
+    sums = _running_sums(tt, hh)
+    bad, _, tbar, hbar, slope = _block_tests(tt, hh, s, sigma2, z, sign, z_one, sums)
     bad_idx = np.flatnonzero(bad)
     first = int(bad_idx[-1]) + 1 if bad_idx.size else 0
     first = min(first, s.size - 1)
@@ -211,7 +222,7 @@ def newtonian_start(H: np.ndarray, t: np.ndarray, lo: int, ref: int, end: int,
     score = None
     if s1 >= s0:
         sc = np.arange(s0, s1 + 1, max(1, (s1 - s0) // 100))
-        strict = _block_tests(tt, hh, sc, sigma2, z, sign, z_one)[1]
+        strict = _block_tests(tt, hh, sc, sigma2, z, sign, z_one, sums)[1]
         score = float(np.mean(~strict))
     return (lo + q_rel, 0.5 * abs(float(ends[0] - ends[1])), score, not bool(bad[-1]))
 

@@ -91,18 +91,25 @@ def robust_noise_K(temperature_K: np.ndarray) -> float:
     return max(sigma, 4.0 * np.finfo(float).eps * float(np.max(np.abs(T))))
 
 
+def running_median5_K(temperature_K: np.ndarray) -> np.ndarray:
+    """Running median of five readings (the ends repeat the first and last reading), K."""
+    return median_filter(np.asarray(temperature_K, dtype=float), size=5, mode="nearest")
+
+
 def find_spikes(temperature_K: np.ndarray, sigma_K: float, *, threshold: float = 8.0,
-                allowed: np.ndarray | None = None) -> np.ndarray:
+                allowed: np.ndarray | None = None,
+                median5_K: np.ndarray | None = None) -> np.ndarray:
     """Indices of single-reading outliers: ``|T − median₅(T)| > threshold·σ``.
 
     A running median of five readings passes monotonic stretches (the rise) unchanged, so only
     isolated departures (one or two readings) stand out. ``allowed`` (boolean, same length)
-    restricts the search, e.g. to the drift periods.
+    restricts the search, e.g. to the drift periods; ``median5_K`` is
+    :func:`running_median5_K` of the readings when the caller has it already.
     """
     T = np.asarray(temperature_K, dtype=float)
     if T.size < 7:
         return np.zeros(0, dtype=np.int64)
-    resid = T - median_filter(T, size=5, mode="nearest")
+    resid = T - (running_median5_K(T) if median5_K is None else median5_K)
     bad = np.abs(resid) > threshold * sigma_K
     if allowed is not None:
         bad &= allowed

@@ -194,28 +194,38 @@ def fit_newton(t_fore: np.ndarray, T_fore: np.ndarray, t_after: np.ndarray,
             max_iterations = 1
     tau = np.concatenate([t_fore - c_f, t_after - c_a])
     y = np.concatenate([T_fore, T_after]) - T_r
-    J = np.zeros((n, 4))
-    th0 = np.empty(n)
+    f, a = slice(0, nf), slice(nf, n)
     converged = False
     it = 0
     for it in range(1, max_iterations + 1):  # noqa: B007 - iteration count is reported
         e, phi, dphi = relaxation_terms(tau, p[3])
-        th0[:nf], th0[nf:] = p[0], p[1]
-        r = y - (th0 * e + p[2] * phi)
-        J[:nf, 0] = e[:nf]
-        J[nf:, 1] = e[nf:]
-        J[:, 2] = phi
-        J[:, 3] = -th0 * tau * e + p[2] * dphi
-        scale = np.sqrt(np.einsum("ij,ij->j", J, J))
-        if not np.all(scale > 0):
+        # Jacobian columns: e on the fore rows (∂/∂θ_f), e on the after rows (∂/∂θ_a), φ
+        # (∂/∂g_r) and d (∂/∂k); the normal equations from their dot products (the two θ
+        # columns have disjoint rows), with no n × 4 matrix built
+        e_th = e.copy()
+        e_th[f] *= p[0]
+        e_th[a] *= p[1]
+        r = y - (e_th + p[2] * phi)
+        d = p[2] * dphi - tau * e_th
+        ef, ea = e[f], e[a]
+        G = np.empty((4, 4))
+        G[0, 0], G[1, 1], G[0, 1] = ef @ ef, ea @ ea, 0.0
+        G[0, 2], G[1, 2] = ef @ phi[f], ea @ phi[a]
+        G[0, 3], G[1, 3] = ef @ d[f], ea @ d[a]
+        G[2, 2], G[2, 3], G[3, 3] = phi @ phi, phi @ d, d @ d
+        G[1, 0], G[2, 0], G[2, 1] = G[0, 1], G[0, 2], G[1, 2]
+        G[3, 0], G[3, 1], G[3, 2] = G[0, 3], G[1, 3], G[2, 3]
+        b = np.array([ef @ r[f], ea @ r[a], phi @ r, d @ r])
+        diag_G = np.diag(G)
+        if not np.all(diag_G > 0):
             raise FitError("the Newtonian fit has a degenerate design (no time spread)")
-        Js = J / scale
+        scale = np.sqrt(diag_G)
         try:
-            inv = np.linalg.inv(Js.T @ Js)
+            inv = np.linalg.inv(G / np.outer(scale, scale))
         except np.linalg.LinAlgError:
             raise FitError("the Newtonian fit is singular (fore and after periods give no "
                            "independent information on k)") from None
-        step = (inv @ (Js.T @ r)) / scale
+        step = (inv @ (b / scale)) / scale
         p = p + step
         # converged when every step is far below the parameter's own standard deviation
         rss = float(r @ r)
@@ -233,7 +243,9 @@ def fit_newton(t_fore: np.ndarray, T_fore: np.ndarray, t_after: np.ndarray,
                        expected=f"convergence within {max_iterations} steps")
     # residuals at the new parameters to first order; the Jacobian of the last step (the step
     # is far below the parameter uncertainties, so the covariance is unchanged)
-    r = r - J @ step
+    r = r - (step[2] * phi + step[3] * d)
+    r[f] -= step[0] * ef
+    r[a] -= step[1] * ea
     rss = float(r @ r)
     dof = n - 4
     s2 = rss / dof if dof > 0 else float("nan")

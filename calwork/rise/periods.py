@@ -36,7 +36,6 @@ from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
-from scipy.ndimage import median_filter
 
 from calwork.core.errors import CalworkError, PeriodDetectionError
 from calwork.core.numeric import median
@@ -54,6 +53,7 @@ from calwork.rise.diagnostics import (
     find_spikes,
     format_times,
     robust_noise_K,
+    running_median5_K,
     warning,
 )
 from calwork.rise.sparse import record_resolution_K
@@ -245,14 +245,14 @@ def detect_periods(thermogram: Thermogram, *, fire_time_s: float | None = None,
     if n_all < 3 * MIN_PERIOD_READINGS:
         return sparse_periods(thermogram, fire_time_s=fire_time_s, main_end_s=main_end_s)
     sigma0 = robust_noise_K(T_all)
-    Tm = median_filter(T_all, size=5, mode="nearest")
+    Tm = running_median5_K(T_all)
     event = locate_event(t_all, Tm, sigma0, where)
     warnings: list[str] = []
 
     # spikes outside the steep part of the main period
     idx = np.arange(n_all)
     allowed = (idx < event.lo - 2) | (idx > event.hi + 2)
-    spikes = find_spikes(T_all, sigma0, threshold=SPIKE_SIGMA, allowed=allowed)
+    spikes = find_spikes(T_all, sigma0, threshold=SPIKE_SIGMA, allowed=allowed, median5_K=Tm)
     keep = np.ones(n_all, dtype=bool)
     keep[spikes] = False
     spike_times = tuple(float(v) for v in t_all[spikes])

@@ -142,13 +142,16 @@ def tail_model(sel: Selection, k_per_s: float, T_inf_K: float, sign: int,
 def _scan(x: np.ndarray, xc: np.ndarray, yp: np.ndarray, sxx: float,
           taus: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """For each τ: the reduction of the residual sum of squares of ``y`` about a line when
-    ``e^{−x/τ}`` (made orthogonal to the line) is added; its projections ``ey``, ``ee``."""
-    E = np.exp(-x[None, :] / taus[:, None])
-    Ec = E - E.mean(axis=1, keepdims=True)
-    Ep = Ec - np.outer(Ec @ xc / sxx, xc)
-    ee = np.einsum("ij,ij->i", Ep, Ep)
+    ``e^{−x/τ}`` (made orthogonal to the line) is added; its projections ``ey``, ``ee``.
+
+    ``yp`` is already orthogonal to the constant and to ``xc``, so ``ey = E·yp``; the squared
+    norm of the orthogonalised exponential is ``ΣE² − (ΣE)²/n − (E·xc)²/Sxx`` (derived; no
+    matrix of the orthogonalised columns is built)."""
+    E = np.exp(np.multiply.outer(-1.0 / taus, x))
+    s1 = E.sum(axis=1)
+    ee = np.einsum("ij,ij->i", E, E) - s1 * s1 / x.size - (E @ xc) ** 2 / sxx
     ok = ee > 0
-    ey = Ep @ yp
+    ey = E @ yp
     gain = np.where(ok, ey * ey / np.where(ok, ee, 1.0), -np.inf)
     return gain, ey, ee
 
