@@ -157,6 +157,33 @@ def test_plot_rise_writes_a_png_and_draws_into_axes(tmp_path, record, result):
     assert min(T_C) == pytest.approx(float(record.temperature_K.min()) - 273.15, abs=1e-9)
 
 
+def test_a_plot_is_the_same_image_on_a_reused_figure(record, result):
+    """Run plots share one figure per process; each image is byte for byte the one a new
+    figure gives, whatever was drawn before it (a rise, a fall, another record length)."""
+    import io
+
+    from calwork.rise import plot as plot_module
+    from calwork.simulation import CalorimeterParams, CombustionPulse, simulate_run
+
+    other = simulate_run(CalorimeterParams.bomb_preset(sampling_interval_s=5.0),
+                         CombustionPulse(energy_J=9000.0, fire_time_s=400.0),
+                         duration_s=3000.0, seed=4).thermogram
+    items = [(record, result), (other, corrected_rise(other)), (record, result)]
+
+    def png(th, res):
+        buffer = io.BytesIO()
+        rise.plot_rise(th, res, buffer, label="R1")
+        return buffer.getvalue()
+
+    reused = [png(*item) for item in items]
+    fresh = []
+    for item in items:
+        plot_module._FIGURE.clear()
+        fresh.append(png(*item))
+    assert reused == fresh
+    assert reused[0] == reused[2] != reused[1]
+
+
 def test_validate_methods_small_run():
     from calwork.simulation import CalorimeterParams
 

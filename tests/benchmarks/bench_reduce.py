@@ -4,7 +4,8 @@
 
 Writes the simulated logs once to a temporary folder (calwork's own simulator; invented,
 simulated data), then times ``reduce_sheet`` without plots and the output folder with plots
-(``calwork reduce --out``). Goal: 500 runs in under 10 s without plots on one core.
+(``calwork reduce --out``), and the run plots alone, one by one and on every core. Goals: 500
+runs in under 10 s without plots on one core; run plots at least 20 per second on two cores.
 """
 
 from __future__ import annotations
@@ -50,6 +51,32 @@ def build(folder: Path, n_runs: int, n_calorimeters: int = 5) -> Path:
     return sheet
 
 
+def _plots_alone(sheet: Path, n_plot: int) -> tuple[float, float, int]:
+    """Seconds to draw ``n_plot`` run plots one by one, and on every core (fresh records, so
+    that nothing comes from the plot cache); and the cores used."""
+    import os
+
+    from calwork.reduce import reduce_sheet
+    from calwork.report import plots
+    from calwork.report.texts import primary_rise
+
+    def items() -> list[tuple]:
+        red = reduce_sheet(sheet)
+        return [(red.thermograms[r.run], primary_rise(r), r.run) for r in red.runs[:n_plot]
+                if r.run in red.thermograms]
+
+    one = items()
+    t0 = time.perf_counter()
+    for th, rise, label in one:
+        plots._png_of(th, rise, label)
+    t_one = time.perf_counter() - t0
+    every = items()
+    t0 = time.perf_counter()
+    plots.draw_rise_pngs(every)
+    t_all = time.perf_counter() - t0
+    return t_one, t_all, min(os.cpu_count() or 1, 4)
+
+
 def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--quick", action="store_true", help="50 runs instead of 500")
@@ -79,11 +106,14 @@ def main(argv: list[str] | None = None) -> int:
             sub = replace(red, runs=red.runs[:n_plot])
         write_outputs(sub, folder / "out_plots", plots=True)
         t_plots = time.perf_counter() - t0
+        plot_one, plot_all, cores = _plots_alone(sheet, n_plot)
     print(f"bench_reduce: {n} runs, 5 calorimeters (simulated logs written in {t_build:.1f} s)")
     print(f"  reduce_sheet, no plots : {t_reduce:.2f} s  ({n / t_reduce:.1f} runs/s)")
     print(f"  summary CSV + report   : {t_out:.2f} s")
     print(f"  with plots ({n_plot} runs)  : {t_plots:.2f} s  ({n_plot / t_plots:.1f} runs/s); "
           f"estimated for {n}: {(t_reduce + t_out) + t_plots * n / n_plot:.1f} s")
+    print(f"  run plots alone ({n_plot}): {n_plot / plot_one:.1f} plots/s one by one, "
+          f"{n_plot / plot_all:.1f} plots/s on {cores} core(s) (goal: ≥ 20/s on two cores)")
     print(f"  failed runs: {len(failed)}; samples: {len(red.samples)}; "
           f"calibrations: {len(red.calibrations)}")
     goal = 10.0 * n / 500
