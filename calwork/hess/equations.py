@@ -16,6 +16,7 @@ import re
 from collections.abc import Mapping
 from dataclasses import dataclass, field
 from fractions import Fraction
+from functools import lru_cache
 from types import MappingProxyType
 
 from calwork.core.errors import BalanceError, EquationError, FormulaError
@@ -33,6 +34,7 @@ __all__ = [
 
 _ARROWS = ("->", "→", "⟶", "=")
 _UNICODE_FRACTIONS = {"½": "1/2", "⅓": "1/3", "⅔": "2/3", "¼": "1/4", "¾": "3/4"}
+_ZERO, _ONE = Fraction(0), Fraction(1)
 _COEFFICIENT = re.compile(r"\s*(?P<c>(?:\d+(?:\.\d*)?|\.\d+)(?:\s*/\s*\d+)?|[½⅓⅔¼¾])\s*")
 _STATE_START = re.compile(r"\((?:g|l|cr|s|am|aq|sln)(?=[),])")
 
@@ -76,7 +78,14 @@ def parse_coefficient(text: str | int | float | Fraction) -> Fraction:
         return Fraction(text)
     if isinstance(text, float):
         return Fraction(repr(text))
-    raw = str(text).strip()
+    return _coefficient_of_text(str(text))
+
+
+@lru_cache(maxsize=1024)
+def _coefficient_of_text(text: str) -> Fraction:
+    """The rational a coefficient's text stands for (a network writes a few coefficients
+    thousands of times; Fractions are immutable, so one parse serves them all)."""
+    raw = text.strip()
     raw = _UNICODE_FRACTIONS.get(raw, raw).replace(" ", "")
     try:
         return Fraction(raw)
@@ -147,7 +156,7 @@ def _parse_side(text: str, offset: int, whole: str) -> list[tuple[Species, Fract
                 found=whole, expected="a species such as 'H2O(l)'", position=offset + pos,
             )
         start = pos
-        coefficient = Fraction(1)
+        coefficient = _ONE
         m = _COEFFICIENT.match(text, pos)
         if m:
             coefficient = parse_coefficient(m.group("c"))
@@ -271,18 +280,19 @@ def parse_equation(text: str, *, balance: bool = True) -> Equation:
                             found=text, expected=exc.expected, position=pos) from None
     net: dict[Species, Fraction] = {}
     for sp, c, _ in reactants:
-        net[sp] = net.get(sp, Fraction(0)) - c
+        net[sp] = net.get(sp, _ZERO) - c
     for sp, c, _ in products:
-        net[sp] = net.get(sp, Fraction(0)) + c
+        net[sp] = net.get(sp, _ZERO) + c
     net = {sp: c for sp, c in net.items() if c != 0}
     if not net:
         raise EquationError("equation cancels to nothing", found=text)
-    if balance:
-        check_balance(net, text)
+    off = imbalance(net)
+    if balance and off:
+        check_balance(net, text)  # raises, naming what is off
     return Equation(
         text=text,
         stoichiometry=net,
         reactants=tuple((sp, c) for sp, c, _ in reactants),
         products=tuple((sp, c) for sp, c, _ in products),
-        imbalance=imbalance(net),
+        imbalance=off,
     )

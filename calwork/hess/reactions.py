@@ -65,12 +65,17 @@ class Reaction:
     temperature_K: float = T_REF_K
 
     def __post_init__(self) -> None:
-        clean = {}
-        for sp, c in self.stoichiometry.items():
-            c = parse_coefficient(c)
-            if c != 0:
-                clean[species_or_parse(sp)] = clean.get(species_or_parse(sp), Fraction(0)) + c
-        clean = {sp: c for sp, c in clean.items() if c != 0}
+        given = self.stoichiometry.items()
+        if all(type(sp) is Species and type(c) is Fraction and c for sp, c in given):
+            clean = dict(given)  # already species and nonzero rationals (a parsed equation)
+        else:
+            clean = {}
+            for sp, c in given:
+                c = parse_coefficient(c)
+                if c != 0:
+                    key = species_or_parse(sp)
+                    clean[key] = clean.get(key, Fraction(0)) + c
+            clean = {sp: c for sp, c in clean.items() if c != 0}
         if not clean:
             raise EquationError("a reaction needs at least one species", found=self.id or None)
         object.__setattr__(self, "stoichiometry", MappingProxyType(clean))

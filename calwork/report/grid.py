@@ -22,6 +22,7 @@ from copy import copy
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
+from xml.sax.saxutils import escape as xml_escape
 
 from openpyxl import Workbook
 from openpyxl.cell import WriteOnlyCell
@@ -29,6 +30,7 @@ from openpyxl.styles import Alignment, Border, Font, PatternFill, Side
 from openpyxl.utils import get_column_letter
 from openpyxl.writer.excel import ExcelWriter
 
+from calwork.core.errors import ExportError
 from calwork.report.formulas import Expr, Ref
 from calwork.report.sanitise import cell_text, is_formula_like
 
@@ -230,8 +232,14 @@ class Grid:
             widths[col] = max(widths.get(col, 8.0), min(_MAX_WIDTH, n + 2.0))
         return widths
 
-    def write(self, wb: Workbook, cached: dict[str, dict[str, float]]) -> None:
-        """Stream the grid into a new write-only sheet of ``wb``; record formula values."""
+    def write(self, wb: Workbook, cached: dict[str, dict[str, float]],
+              tails: dict[str, Callable[[bytes], bytes]] | None = None) -> None:
+        """Stream the grid into a new write-only sheet of ``wb``; record formula values.
+
+        With ``tails`` (the mapping :func:`save_workbook` applies), a grid of at least
+        :data:`RAW_ROWS_CELLS` cells has its rows after the first written as sheet XML
+        directly (:class:`_RawRows`): the same cells, values and styles, ten times faster
+        than openpyxl's cell-by-cell writer."""
         ws = wb.create_sheet(self.title)
         for col, width in self._widths().items():
             ws.column_dimensions[get_column_letter(col)].width = width
@@ -244,7 +252,8 @@ class Grid:
         for (r, c), entry in self.cells.items():
             rows.setdefault(r, []).append((c, entry))
         last = max(rows, default=0)
-        for r in range(1, last + 1):
+        raw = tails is not None and len(self.cells) >= RAW_ROWS_CELLS and last > 1
+        for r in range(1, (1 if raw else last) + 1):
             line = sorted(rows.get(r, ()), key=lambda ce: ce[0])
             out: list[Any] = []
             for c, entry in line:
@@ -252,6 +261,56 @@ class Grid:
                     out.append(None)
                 out.append(self._cell(ws, r, c, entry, styles, values))
             ws.append(out)
+        if raw:
+            tails[self.title] = _RawRows(self._rows_xml(wb, ws, rows, last, styles))
+
+    def _rows_xml(self, wb: Workbook, ws: Any, rows: dict[int, list[tuple[int, _Entry]]],
+                  last: int, styles: _Styles) -> bytes:
+        """Rows 2…``last`` as sheet XML, each cell styled as :meth:`_cell` styles it (one
+        prototype cell per style; its index in the workbook's style table)."""
+        ids: dict[tuple, int] = {}
+
+        def style_id(key: tuple, entry: _Entry) -> int:
+            found = ids.get(key)
+            if found is None:
+                proto = WriteOnlyCell(ws)
+                if key[0] == "text":
+                    proto.quotePrefix = key[3]
+                styles.style(proto, key, entry)
+                found = ids[key] = wb._cell_styles.add(copy(proto._style))
+            return found
+
+        parts: list[str] = []
+        for r in range(2, last + 1):
+            cells: list[str] = []
+            for c, entry in sorted(rows.get(r, ()), key=lambda ce: ce[0]):
+                content = entry.content
+                if content is None:
+                    continue
+                ref = f"{get_column_letter(c)}{r}"
+                if isinstance(content, Text):
+                    text = cell_text(content.text)
+                    quote = is_formula_like(content.text) or is_formula_like(text)
+                    sid = style_id(("text", entry.kind, "\n" in text, quote), entry)
+                    space = ' xml:space="preserve"' if text != text.strip() else ""
+                    cells.append(f'<c r="{ref}"{_s(sid)} t="inlineStr"><is><t{space}>'
+                                 f"{xml_escape(text)}</t></is></c>")
+                elif isinstance(content, Expr):
+                    sid = style_id(("formula", entry.fmt), entry)
+                    value = content.value
+                    v = f"<v>{float(value)!r}</v>" if math.isfinite(value) else "<v></v>"
+                    cells.append(f'<c r="{ref}"{_s(sid)}><f>'
+                                 f"{xml_escape(_formula_body(content.formula(self.title)))}</f>"
+                                 f"{v}</c>")
+                else:
+                    value = float(content)
+                    sid = style_id(("input", entry.fmt), entry)
+                    if math.isfinite(value):
+                        cells.append(f'<c r="{ref}"{_s(sid)} t="n"><v>{value!r}</v></c>')
+                    else:
+                        cells.append(f'<c r="{ref}"{_s(sid)}/>')
+            parts.append(f'<row r="{r}">{"".join(cells)}</row>')
+        return "".join(parts).encode("utf-8")
 
     def _cell(self, ws: Any, r: int, c: int, entry: _Entry, styles: _Styles,
               values: dict[str, float]) -> WriteOnlyCell | None:
@@ -286,6 +345,32 @@ def text_cell(ws: Any, value: object) -> WriteOnlyCell:
     if is_formula_like(str(value)) or is_formula_like(text):
         cell.quotePrefix = True
     return cell
+
+
+#: Grids of at least this many cells have their rows (after the first) written as sheet XML
+#: directly when the caller collects tails (:meth:`Grid.write`).
+RAW_ROWS_CELLS = 20_000
+
+
+def _formula_body(formula: str) -> str:
+    return formula[1:] if formula.startswith("=") else formula
+
+
+def _s(style_id: int) -> str:
+    return f' s="{style_id}"' if style_id else ""
+
+
+@dataclass(frozen=True)
+class _RawRows:
+    """Rows of sheet XML inserted before ``</sheetData>`` when the workbook is saved."""
+
+    xml: bytes
+
+    def __call__(self, sheet_xml: bytes) -> bytes:
+        head, sep, rest = sheet_xml.rpartition(b"</sheetData>")
+        if not sep:
+            raise ExportError("unexpected worksheet layout from openpyxl (no </sheetData>)")
+        return head + self.xml + sep + rest
 
 
 class _Styles:

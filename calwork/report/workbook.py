@@ -208,7 +208,7 @@ def render_workbook(doc: Document, path: str | Path) -> Path:
             readings = [b for b in section.blocks if isinstance(b, Readings)]
             if calculations:
                 for calc in calculations:
-                    calc.grid.write(wb, cached)
+                    calc.grid.write(wb, cached, tails)
                     taken.append(calc.grid.title)
             elif readings:
                 r = readings[0]
@@ -222,7 +222,7 @@ def render_workbook(doc: Document, path: str | Path) -> Path:
                 blocks = [Paragraph(f"figure: {b.alt} (drawn in the HTML and PDF reports)",
                                     "note") if isinstance(b, Figure) else b
                           for b in prose_blocks(section)]
-                grid_of_section(title, blocks).write(wb, cached)
+                grid_of_section(title, blocks).write(wb, cached, tails)
         save_workbook(wb, tmp, cached, tails)
     return path
 
