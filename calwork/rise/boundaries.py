@@ -119,6 +119,10 @@ def detect_onset(t: np.ndarray, T: np.ndarray, sigma: float, peak: int, lo: int,
 SCORE_GAP_READINGS = 64
 
 
+#: Block sizes of the plateau test, readings (a column: one row per size).
+_BLOCKS = np.array([[4.0], [8.0], [16.0], [32.0], [64.0]])
+
+
 def _running_sums(tt: np.ndarray, hh: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """The sums :func:`_block_tests` needs, shared by its calls on one stretch: the sums of
     ``t, t², h, t·h`` from each reading to the end (4 × m), and the running sums of ``t`` and
@@ -146,26 +150,25 @@ def _block_tests(tt: np.ndarray, hh: np.ndarray, s: np.ndarray, sigma2: float, z
     hbar = Sh / cnt
     sxx = np.maximum(Stt - St * tbar, 1e-300)
     slope = (Sth - St * hbar) / sxx
-    bad = np.zeros(s.size, dtype=bool)
-    strict = np.zeros(s.size, dtype=bool)
-    for b in (4, 8, 16, 32, 64):
-        n_ok = int(np.count_nonzero(cnt >= 4 * b))   # a prefix: cnt decreases along s
-        if n_ok == 0:
-            break
-        sb = s[:n_ok]
-        bt = (Ft[sb + b] - Ft[sb]) / b
-        bh = (Fh[sb + b] - Fh[sb]) / b
-        resid = bh - (hbar[:n_ok] + slope[:n_ok] * (bt - tbar[:n_ok]))
-        # exact variance of a block's mean residual about a line fitted to all cnt readings:
-        # σ² [1/b − 1/n − (t̄_B − t̄)²/Sxx]
-        var = sigma2 * np.maximum(1.0 / b - 1.0 / cnt[:n_ok]
-                                  - (bt - tbar[:n_ok]) ** 2 / sxx[:n_ok], 0.05 / b)
-        zs = resid / np.sqrt(var)
-        dev = np.abs(zs)
-        bad[:n_ok] |= dev > z
-        if sign:
-            bad[:n_ok] |= -sign * zs > z_one
-        strict[:n_ok] |= dev > 2.0
+    # the five block sizes at once (rows); a block size applies where the line has at least
+    # four blocks of it (``ok``)
+    b = _BLOCKS
+    ok = cnt[None, :] >= 4 * b
+    start = s[None, :]
+    end = np.minimum(start + b, m).astype(np.intp)
+    bt = (Ft[end] - Ft[start]) / b
+    bh = (Fh[end] - Fh[start]) / b
+    resid = bh - (hbar + slope * (bt - tbar))
+    # exact variance of a block's mean residual about a line fitted to all cnt readings:
+    # σ² [1/b − 1/n − (t̄_B − t̄)²/Sxx]
+    var = sigma2 * np.maximum(1.0 / b - 1.0 / cnt - (bt - tbar) ** 2 / sxx, 0.05 / b)
+    zs = resid / np.sqrt(var)
+    dev = np.abs(zs)
+    fail = dev > z
+    if sign:
+        fail |= -sign * zs > z_one
+    bad = np.any(fail & ok, axis=0)
+    strict = np.any((dev > 2.0) & ok, axis=0)
     return bad, strict, tbar, hbar, slope
 
 
