@@ -160,9 +160,11 @@ def _block_tests(tt: np.ndarray, hh: np.ndarray, s: np.ndarray, sigma2: float, z
     bh = (Fh[end] - Fh[start]) / b
     resid = bh - (hbar + slope * (bt - tbar))
     # exact variance of a block's mean residual about a line fitted to all cnt readings:
-    # σ² [1/b − 1/n − (t̄_B − t̄)²/Sxx]
-    var = sigma2 * np.maximum(1.0 / b - 1.0 / cnt - (bt - tbar) ** 2 / sxx, 0.05 / b)
-    zs = resid / np.sqrt(var)
+    # σ² [1/b − 1/n − (t̄_B − t̄)²/Sxx]; entries outside ``ok`` (a line of a few readings,
+    # Sxx ≈ 0) may overflow there and are discarded
+    with np.errstate(over="ignore", divide="ignore", invalid="ignore"):
+        var = sigma2 * np.maximum(1.0 / b - 1.0 / cnt - (bt - tbar) ** 2 / sxx, 0.05 / b)
+        zs = resid / np.sqrt(var)
     dev = np.abs(zs)
     fail = dev > z
     if sign:
