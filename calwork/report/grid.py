@@ -289,8 +289,7 @@ class Grid:
                     continue
                 ref = f"{get_column_letter(c)}{r}"
                 if isinstance(content, Text):
-                    text = cell_text(content.text)
-                    quote = is_formula_like(content.text) or is_formula_like(text)
+                    text, quote = _text_and_quote(content.text)
                     sid = style_id(("text", entry.kind, "\n" in text, quote), entry)
                     space = ' xml:space="preserve"' if text != text.strip() else ""
                     cells.append(f'<c r="{ref}"{_s(sid)} t="inlineStr"><is><t{space}>'
@@ -339,12 +338,18 @@ def text_cell(ws: Any, value: object) -> WriteOnlyCell:
     Formula-like text (see :func:`~calwork.report.sanitise.is_formula_like`) also gets the
     quote-prefix style, so a spreadsheet program keeps it as text when the cell is edited.
     """
-    text = cell_text(value)
+    text, quote = _text_and_quote(value)
     cell = WriteOnlyCell(ws, value=text)
     cell.data_type = "s"  # openpyxl would otherwise take a leading '=' for a formula
-    if is_formula_like(str(value)) or is_formula_like(text):
+    if quote:
         cell.quotePrefix = True
     return cell
+
+
+def _text_and_quote(value: object) -> tuple[str, bool]:
+    """The text a cell holds for ``value`` and whether it needs the quote prefix."""
+    text = cell_text(value)
+    return text, is_formula_like(str(value)) or is_formula_like(text)
 
 
 #: Grids of at least this many cells have their rows (after the first) written as sheet XML
